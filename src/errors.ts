@@ -1,0 +1,45 @@
+/**
+ * The one error channel for "the whole run cannot go on" (STYLE.md habit 4).
+ * Row-level trouble is data (see issues.ts), never one of these.
+ *
+ * `kind` lets the CLI choose words; every kind means exit code 2, nothing written.
+ */
+export type StopKind =
+  | 'usage' // bad options or arguments
+  | 'input' // unreadable, empty, wrong format, missing or doubled column, bad unit
+  | 'method' // method file fails its schema, a formula is refused, a cycle
+  | 'output'; // target exists without --force, cannot write
+
+export interface StopLocation {
+  /** File the problem is in. */
+  file?: string;
+  /** 1-based line (method YAML, CSV text) or spreadsheet row (header = row 1). */
+  line?: number;
+  /** Column header, or the method key path (e.g. "formulas[2].expr"). */
+  column?: string;
+}
+
+export class StopError extends Error {
+  readonly kind: StopKind;
+  readonly location: StopLocation;
+
+  constructor(kind: StopKind, message: string, location: StopLocation = {}) {
+    super(message);
+    this.name = 'StopError';
+    this.kind = kind;
+    this.location = location;
+  }
+
+  /** The message with its place in front: `file.csv, row 3, column "x": ...`. */
+  describe(): string {
+    const parts: string[] = [];
+    if (this.location.file) parts.push(this.location.file);
+    if (this.location.line !== undefined) {
+      parts.push(`${this.kind === 'method' ? 'line' : 'row'} ${this.location.line}`);
+    }
+    if (this.location.column !== undefined) {
+      parts.push(`${this.kind === 'method' ? 'key' : 'column'} "${this.location.column}"`);
+    }
+    return parts.length ? `${parts.join(', ')}: ${this.message}` : this.message;
+  }
+}

@@ -1,0 +1,41 @@
+/**
+ * What a reader hands forward: the worklist exactly as written, column by column.
+ *
+ * Cells stay verbatim (strings from CSV; strings or numbers from XLSX, where a
+ * number stored as text stays the string and a formula cell gives its cached
+ * value). Nothing is parsed into canonical fields here; that is the columns stage.
+ */
+export type RawCell = string | number | null;
+
+export interface RawTable {
+  /** The file the table came from, as given by the user (for messages). */
+  source: string;
+  /** Header texts, verbatim (a UTF-8 BOM removed). */
+  headers: string[];
+  /** Column-major cells: columns[c][r]; a short row's missing cells are null. */
+  columns: RawCell[][];
+  /** Number of data rows. */
+  rowCount: number;
+  /** 1-based spreadsheet row number of each data row (the header is row 1). */
+  rowNumbers: Int32Array;
+  /** Row-level damage found while reading (short or long row), as data. */
+  rowProblems: RowProblem[];
+  /** Facts about the file for provenance and number parsing. */
+  format: {
+    kind: 'csv' | 'xlsx';
+    /** CSV only: the delimiter used. */
+    delimiter?: ',' | ';' | '\t';
+    /** True when numbers in this file use a decimal comma (semicolon CSV). */
+    decimalComma: boolean;
+    /** XLSX only: the sheet read. */
+    sheet?: string;
+  };
+}
+
+export interface RowProblem {
+  /** 0-based data row index. */
+  row: number;
+  /** Column header the problem concerns, if one. */
+  column?: string;
+  message: string;
+}
