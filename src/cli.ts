@@ -1,0 +1,164 @@
+#!/usr/bin/env node
+/**
+ * argv → options → pipeline → terminal text and exit code. The only module that
+ * prints or exits (STYLE.md habit 5).
+ *
+ * Exit codes (DESIGN.md §6): 0 written and the batch passed; 1 written, with QC
+ * failures or row errors; 2 nothing written.
+ */
+import { Command, CommanderError, InvalidArgumentError, Option } from 'commander';
+import { StopError } from './errors.js';
+import { recalculate, type RecalcResult } from './pipeline.js';
+import { VERSION } from './version.js';
+import { installInterruptCleanup } from './write/atomic.js';
+import { OUTPUT_KINDS, writeOutputs, type OutputKind } from './write/outputs.js';
+
+const EXIT_OK = 0;
+const EXIT_FINDINGS = 1;
+const EXIT_STOP = 2;
+
+let debug = process.argv.includes('--debug');
+
+function parseBytes(text: string): number {
+  const m = /^\s*(\d+(?:\.\d+)?)\s*([kmg]i?b?|b)?\s*$/i.exec(text);
+  if (!m) throw new InvalidArgumentError(`expected a size such as 256MB or 1GB, got "${text}"`);
+  const unit = (m[2] ?? 'b').toLowerCase()[0]!;
+  const mult = unit === 'k' ? 1024 : unit === 'm' ? 1024 ** 2 : unit === 'g' ? 1024 ** 3 : 1;
+  return Math.floor(Number(m[1]) * mult);
+}
+
+function parseOutputs(text: string): OutputKind[] {
+  const kinds = text.split(',').map((s) => s.trim().toLowerCase()).filter(Boolean);
+  for (const k of kinds) {
+    if (!(OUTPUT_KINDS as readonly string[]).includes(k)) {
+      throw new InvalidArgumentError(`expected a list of ${OUTPUT_KINDS.join(', ')}, got "${k}"`);
+    }
+  }
+  if (kinds.length === 0) throw new InvalidArgumentError('expected at least one output');
+  return kinds as OutputKind[];
+}
+
+function parseTimestamp(text: string): string {
+  const t = Date.parse(text);
+  if (Number.isNaN(t)) throw new InvalidArgumentError(`expected an ISO 8601 time such as 2026-11-20T16:00:00Z, got "${text}"`);
+  return new Date(t).toISOString();
+}
+
+export function buildProgram(io: { exit: (code: number) => void }): Command {
+  const program = new Command('phasebook')
+    .description('Recalculate a liquid-liquid extraction worklist: pre-extraction concentrations, recovery, RPD, QC flags and a reviewer workbook')
+    .version(VERSION, '-V, --version')
+    .option('--debug', 'show stack traces of unexpected errors')
+    .showHelpAfterError()
+    .exitOverride();
+
+  program
+    .command('recalc')
+    .description('recalculate a worklist (CSV or XLSX) with a method and write the results CSV and workbook')
+    .argument('<worklist>', 'worklist file (.csv or .xlsx)')
+    .requiredOption('-m, --method <file>', 'method file (YAML), e.g. templates/generic-lle.yaml')
+    .requiredOption('-o, --out <dir>', 'folder to write the outputs into')
+    .option('--sheet <name>', 'XLSX worklist: the sheet to read (default: the first)')
+    .addOption(new Option('--outputs <list>', `outputs to write, comma-separated (${OUTPUT_KINDS.join(', ')})`).argParser(parseOutputs))
+    .option('-f, --force', 'replace outputs that already exist')
+    .addOption(new Option('--timestamp <iso>', 'time recorded in the outputs (default: now), for reproducible files').argParser(parseTimestamp))
+    .addOption(new Option('--max-bytes <size>', 'refuse worklists larger than this').default(256 * 1024 ** 2, '256MB').argParser(parseBytes))
+    .addOption(new Option('--max-unpacked <size>', 'refuse XLSX worklists that unpack past this').default(512 * 1024 ** 2, '512MB').argParser(parseBytes))
+    .option('-q, --quiet', 'print nothing but errors')
+    .action(async (worklist: string, opts: RecalcCliOptions) => {
+      io.exit(await runRecalc(worklist, opts));
+    });
+
+  return program;
+}
+
+interface RecalcCliOptions {
+  method: string;
+  out: string;
+  sheet?: string;
+  outputs?: OutputKind[];
+  force?: boolean;
+  timestamp?: string;
+  maxBytes: number;
+  maxUnpacked: number;
+  quiet?: boolean;
+}
+
+async function runRecalc(worklist: string, opts: RecalcCliOptions): Promise<number> {
+  installInterruptCleanup();
+  const result = await recalculate(worklist, {
+    method: opts.method,
+    sheet: opts.sheet,
+    maxBytes: opts.maxBytes,
+    maxUnpackedBytes: opts.maxUnpacked,
+  });
+  const written = await writeOutputs(result, {
+    outDir: opts.out,
+    outputs: opts.outputs,
+    force: opts.force,
+    run: {
+      timestamp: opts.timestamp ?? new Date().toISOString(),
+      command: ['phasebook', ...process.argv.slice(2)].join(' '),
+      version: VERSION,
+    },
+  });
+  const code = exitCodeOf(result);
+  if (!opts.quiet) process.stderr.write(describeRun(result, written));
+  return code;
+}
+
+/** 1 when any control fails, any row has an input error, or the verdict is fail. */
+export function exitCodeOf(result: RecalcResult): number {
+  const inputErrors = result.table.rowError.some((x) => x === 1);
+  const failedControl = result.qc.status.some((s) => s === 'fail');
+  return inputErrors || failedControl || result.verdict.verdict === 'fail' ? EXIT_FINDINGS : EXIT_OK;
+}
+
+function describeRun(result: RecalcResult, written: Record<string, string>): string {
+  const errors = result.table.rowError.reduce((a, b) => a + b, 0);
+  const controls = result.qc.status.filter((s) => s !== '').length;
+  const failed = result.qc.status.filter((s) => s === 'fail').length;
+  const lines: string[] = [];
+  lines.push(
+    `phasebook: read ${result.rowsIn} row${result.rowsIn === 1 ? '' : 's'} from ${result.worklist.path} with method ${result.method.name}; ` +
+      `${errors} row${errors === 1 ? '' : 's'} with input errors; ${controls} control row${controls === 1 ? '' : 's'}, ${failed} failed; ` +
+      `wrote ${Object.values(written).join(' and ')}.`,
+  );
+  for (const g of result.groups) {
+    if (g.verdict === 'fail') lines.push(`  FAIL ${g.batch ? `batch ${g.batch}, ` : ''}${g.analyte}: ${g.reasons.join('; ')}`);
+  }
+  lines.push(`Batch verdict: ${result.verdict.verdict.toUpperCase()}`);
+  return lines.join('\n') + '\n';
+}
+
+export async function main(argv: string[]): Promise<number> {
+  let code = EXIT_OK;
+  const program = buildProgram({ exit: (c) => (code = c) });
+  try {
+    await program.parseAsync(argv);
+    return code;
+  } catch (err) {
+    if (err instanceof CommanderError) {
+      // --help and --version end with code 0; usage errors were already printed by commander.
+      return err.exitCode === 0 ? EXIT_OK : EXIT_STOP;
+    }
+    if (err instanceof StopError) {
+      process.stderr.write(`phasebook: ${err.describe()}\nNothing was written.\n`);
+      if (debug && err.stack) process.stderr.write(err.stack + '\n');
+      return EXIT_STOP;
+    }
+    process.stderr.write(`phasebook: unexpected error: ${(err as Error)?.message ?? String(err)}\nNothing was written.${debug ? '' : ' (run with --debug for details)'}\n`);
+    if (debug && (err as Error)?.stack) process.stderr.write((err as Error).stack + '\n');
+    return EXIT_STOP;
+  }
+}
+
+debug = process.argv.includes('--debug');
+main(process.argv).then(
+  (code) => {
+    process.exitCode = code;
+  },
+  () => {
+    process.exitCode = EXIT_STOP;
+  },
+);

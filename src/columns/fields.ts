@@ -1,0 +1,79 @@
+/**
+ * The canonical fields of a worklist (DESIGN.md §4): what each means to the
+ * engine, whether it is text or a number, and which quantity its unit measures.
+ */
+
+export type Dimension = 'volume' | 'concentration' | 'extract_concentration' | 'none';
+
+export interface FieldSpec {
+  name: CanonicalField;
+  kind: 'text' | 'number';
+  dimension: Dimension;
+  required: boolean;
+  description: string;
+}
+
+export const CANONICAL_FIELDS = [
+  'sample_id',
+  'sample_type',
+  'parent_id',
+  'batch_id',
+  'analyte',
+  'extract_conc',
+  'sample_volume',
+  'solvent_volume',
+  'extractions',
+  'final_volume',
+  'dilution',
+  'partition_coeff',
+  'log_k',
+  'ph',
+  'pka',
+  'acid_base',
+  'spike_conc',
+  'qc_level',
+  'reporting_limit',
+] as const;
+
+export type CanonicalField = (typeof CANONICAL_FIELDS)[number];
+
+const specs: Omit<FieldSpec, 'name'>[] = [
+  { kind: 'text', dimension: 'none', required: true, description: 'Sample identifier, kept verbatim' },
+  { kind: 'text', dimension: 'none', required: false, description: 'sample, blank, lcs, lcsd, ms, msd, dup or qc' },
+  { kind: 'text', dimension: 'none', required: false, description: 'The native sample of an ms, msd or dup; the lcs of an lcsd' },
+  { kind: 'text', dimension: 'none', required: false, description: 'Preparation batch' },
+  { kind: 'text', dimension: 'none', required: true, description: 'Analyte name' },
+  { kind: 'number', dimension: 'extract_concentration', required: true, description: 'Concentration measured in the final extract' },
+  { kind: 'number', dimension: 'volume', required: true, description: 'Aqueous sample volume V_aq' },
+  { kind: 'number', dimension: 'volume', required: true, description: 'Organic solvent volume per extraction V_org' },
+  { kind: 'number', dimension: 'none', required: false, description: 'Number of successive extractions n' },
+  { kind: 'number', dimension: 'volume', required: false, description: 'Final extract volume (default n × V_org)' },
+  { kind: 'number', dimension: 'none', required: false, description: 'Dilution factor of the extract before measurement' },
+  { kind: 'number', dimension: 'none', required: false, description: 'Partition coefficient K = C_org/C_aq of the neutral form' },
+  { kind: 'number', dimension: 'none', required: false, description: 'log10 of the partition coefficient' },
+  { kind: 'number', dimension: 'none', required: false, description: 'pH of the aqueous phase' },
+  { kind: 'number', dimension: 'none', required: false, description: 'pKa of the acid or of the conjugate acid of a base' },
+  { kind: 'text', dimension: 'none', required: false, description: 'acid, base or neutral' },
+  { kind: 'number', dimension: 'concentration', required: false, description: 'Spike added (sample units) or a QC nominal' },
+  { kind: 'text', dimension: 'none', required: false, description: 'Level of a qc row, e.g. lloq, low, mid, high' },
+  { kind: 'number', dimension: 'concentration', required: false, description: 'Reporting limit for this row (sample units)' },
+];
+
+export const FIELD_SPECS: ReadonlyMap<CanonicalField, FieldSpec> = new Map(
+  CANONICAL_FIELDS.map((name, i) => [name, { name, ...specs[i]! }]),
+);
+
+export const SAMPLE_TYPES = ['sample', 'blank', 'lcs', 'lcsd', 'ms', 'msd', 'dup', 'qc'] as const;
+export type SampleType = (typeof SAMPLE_TYPES)[number];
+
+export function isCanonicalField(name: string): name is CanonicalField {
+  return FIELD_SPECS.has(name as CanonicalField);
+}
+
+/** Header comparison key: lower case, anything but letters and digits dropped. */
+export function headerKey(text: string): string {
+  return text
+    .normalize('NFKC')
+    .toLowerCase()
+    .replace(/[^\p{L}\p{N}]+/gu, '');
+}

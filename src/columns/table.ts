@@ -1,0 +1,237 @@
+import { parseAcidBase, type AcidBase } from '../chemistry/partition.js';
+import { rowMessage, type Flag, type Note } from '../issues.js';
+import type { AnalyteInfo, Method } from '../method/types.js';
+import type { RawTable } from '../read/types.js';
+import { FIELD_SPECS, SAMPLE_TYPES, type CanonicalField, type SampleType } from './fields.js';
+import type { ColumnMap, FieldSource } from './map.js';
+import { cellText, parseNumberCell } from './numbers.js';
+import { conversionFactor } from './units.js';
+
+/** Where a value in the work table came from, per cell. */
+export const ValueSource = {
+  Worklist: 0,
+  /** Filled from the method (analyte data, a field default) or a design default. */
+  Default: 1,
+  Empty: 2,
+} as const;
+
+/**
+ * The columnar table the engine computes on: canonical numeric fields as
+ * Float64Array in the method's units (NaN = empty), text fields as string[].
+ */
+export interface WorkTable {
+  rowCount: number;
+  numbers: Map<string, Float64Array>;
+  texts: Map<string, string[]>;
+  /** Per numeric field, where each value came from. */
+  sources: Map<string, Uint8Array>;
+  /** Canonical sample type per row ('' when it could not be read). */
+  sampleType: (SampleType | '')[];
+  /** Index into method.analytes per row, −1 when the method does not know the analyte. */
+  analyteIndex: Int32Array;
+  /** 1 on rows with an input error: their computed cells stay empty. */
+  rowError: Uint8Array;
+  errors: Flag[];
+  notes: Note[];
+}
+
+const NUMERIC_CHECKS: Partial<Record<CanonicalField, { test: (x: number) => boolean; want: string }>> = {
+  sample_volume: { test: (x) => x > 0, want: 'a volume above 0' },
+  solvent_volume: { test: (x) => x > 0, want: 'a volume above 0' },
+  final_volume: { test: (x) => x > 0, want: 'a volume above 0' },
+  extractions: { test: (x) => Number.isInteger(x) && x >= 1, want: 'a whole number of extractions, 1 or more' },
+  dilution: { test: (x) => x >= 1, want: 'a dilution factor of 1 or more' },
+  partition_coeff: { test: (x) => x > 0, want: 'a partition coefficient above 0' },
+  ph: { test: (x) => x >= 0 && x <= 14, want: 'a pH from 0 to 14' },
+  spike_conc: { test: (x) => x >= 0, want: 'a spike concentration of 0 or more' },
+  reporting_limit: { test: (x) => x >= 0, want: 'a reporting limit of 0 or more' },
+};
+
+/** Build the work table: parse, convert, fill defaults, and record row errors as data. */
+export function buildTable(raw: RawTable, map: ColumnMap, method: Method): WorkTable {
+  const n = raw.rowCount;
+  const errors: Flag[] = [];
+  const notes: Note[] = [];
+  const rowError = new Uint8Array(n);
+  const fail = (row: number, column: string | undefined, reason: string, value?: string) => {
+    const shown = value === undefined ? reason : `${reason}, got "${value}"`;
+    errors.push({ row, code: 'INPUT_ERROR', column, message: rowMessage(raw.rowNumbers[row]!, column, shown), value });
+    rowError[row] = 1;
+  };
+  for (const p of raw.rowProblems) fail(p.row, p.column, p.message);
+
+  const texts = new Map<string, string[]>();
+  const readText = (field: CanonicalField): string[] => {
+    const src = map.fields.get(field);
+    const out = new Array<string>(n);
+    const fallback = method.fields.get(field)?.default;
+    for (let r = 0; r < n; r++) {
+      const t = src ? cellText(raw.columns[src.column]![r] ?? null).trim() : '';
+      out[r] = t === '' && fallback !== undefined ? String(fallback) : t;
+    }
+    texts.set(field, out);
+    return out;
+  };
+  for (const spec of FIELD_SPECS.values()) if (spec.kind === 'text') readText(spec.name);
+
+  // Sample types through the lab's codes.
+  const sampleType = new Array<SampleType | ''>(n);
+  const typeText = texts.get('sample_type')!;
+  const typeSrc = map.fields.get('sample_type');
+  for (let r = 0; r < n; r++) {
+    const code = typeText[r]!.toLowerCase();
+    const t = code === '' ? 'sample' : (method.sampleTypes.get(code) ?? (SAMPLE_TYPES as readonly string[]).find((s) => s === code));
+    if (t === undefined) {
+      sampleType[r] = '';
+      const known = [...new Set([...method.sampleTypes.keys(), ...SAMPLE_TYPES])].join(', ');
+      fail(r, typeSrc?.header, `expected a sample type (${known})`, typeText[r]);
+    } else {
+      sampleType[r] = t as SampleType;
+    }
+  }
+  // Canonical type text for formulas (sample_type == "ms").
+  texts.set('sample_type', sampleType.map((t) => t));
+
+  // Analytes through the method's names and aliases.
+  const analyteKey = new Map<string, number>();
+  method.analytes.forEach((a, i) => {
+    for (const name of [a.name, ...a.aliases]) analyteKey.set(name.trim().toLowerCase(), i);
+  });
+  const analyteText = texts.get('analyte')!;
+  const analyteIndex = new Int32Array(n);
+  for (let r = 0; r < n; r++) analyteIndex[r] = analyteKey.get(analyteText[r]!.toLowerCase()) ?? -1;
+  // Analytes are reported under the method's name where known.
+  texts.set(
+    'analyte',
+    analyteText.map((t, r) => (analyteIndex[r]! >= 0 ? method.analytes[analyteIndex[r]!]!.name : t)),
+  );
+
+  for (const field of ['sample_id', 'analyte'] as const) {
+    const col = texts.get(field)!;
+    const header = map.fields.get(field)?.header ?? field;
+    for (let r = 0; r < n; r++) if (col[r] === '') fail(r, header, `expected ${field === 'sample_id' ? 'a sample id' : 'an analyte name'}, got an empty cell`);
+  }
+
+  // Numeric fields.
+  const numbers = new Map<string, Float64Array>();
+  const sources = new Map<string, Uint8Array>();
+  for (const spec of FIELD_SPECS.values()) {
+    if (spec.kind !== 'number') continue;
+    const values = new Float64Array(n).fill(NaN);
+    const source = new Uint8Array(n).fill(ValueSource.Empty);
+    const src = map.fields.get(spec.name);
+    if (src) readNumbers(raw, src, values, source, { analyteIndex, method, fail });
+    numbers.set(spec.name, values);
+    sources.set(spec.name, source);
+  }
+
+  // Defaults and method data, then per-row checks that need several fields.
+  const get = (f: CanonicalField) => numbers.get(f)!;
+  const srcOf = (f: CanonicalField) => sources.get(f)!;
+  const fillDefault = (f: CanonicalField, r: number, value: number | undefined) => {
+    if (value === undefined || Number.isNaN(value) || !Number.isNaN(get(f)[r]!)) return;
+    get(f)[r] = value;
+    srcOf(f)[r] = ValueSource.Default;
+  };
+  const acid = texts.get('acid_base')!;
+  const acidCanon = new Array<string>(n);
+  const abSrc = map.fields.get('acid_base');
+  for (let r = 0; r < n; r++) {
+    const a: AnalyteInfo | undefined = analyteIndex[r]! >= 0 ? method.analytes[analyteIndex[r]!] : undefined;
+    fillDefault('extractions', r, numberDefault(method, 'extractions') ?? 1);
+    fillDefault('dilution', r, numberDefault(method, 'dilution') ?? 1);
+    fillDefault('sample_volume', r, numberDefault(method, 'sample_volume'));
+    fillDefault('solvent_volume', r, numberDefault(method, 'solvent_volume'));
+    const logK = get('log_k')[r]!;
+    fillDefault('partition_coeff', r, Number.isNaN(logK) ? undefined : 10 ** logK);
+    fillDefault('partition_coeff', r, a?.partition_coeff ?? numberDefault(method, 'partition_coeff'));
+    fillDefault('pka', r, a?.pka ?? numberDefault(method, 'pka'));
+    fillDefault('ph', r, a?.ph ?? numberDefault(method, 'ph'));
+    fillDefault('reporting_limit', r, a?.reporting_limit ?? method.defaults.reporting_limit ?? numberDefault(method, 'reporting_limit'));
+    fillDefault('final_volume', r, get('extractions')[r]! * get('solvent_volume')[r]!);
+
+    let ab: AcidBase | undefined = parseAcidBase(acid[r]!);
+    if (ab === undefined) {
+      fail(r, abSrc?.header ?? 'acid_base', 'expected acid, base or neutral', acid[r]);
+      ab = 'neutral';
+    } else if (acid[r] === '' && a?.acid_base) {
+      ab = a.acid_base;
+    }
+    acidCanon[r] = ab;
+    if (rowError[r]) continue;
+    if (ab !== 'neutral' && !Number.isNaN(get('partition_coeff')[r]!)) {
+      if (Number.isNaN(get('ph')[r]!)) fail(r, map.fields.get('ph')?.header ?? 'ph', `expected a pH for an ionisable analyte (${ab})`);
+      else if (Number.isNaN(get('pka')[r]!)) fail(r, map.fields.get('pka')?.header ?? 'pka', `expected a pKa for an ionisable analyte (${ab})`);
+    }
+    for (const f of ['extract_conc', 'sample_volume', 'solvent_volume'] as const) {
+      if (Number.isNaN(get(f)[r]!)) fail(r, map.fields.get(f)?.header ?? f, `expected a value for ${f}, got an empty cell`);
+    }
+    if (!rowError[r] && Number.isNaN(get('partition_coeff')[r]!)) {
+      notes.push({ row: r, column: 'extraction_efficiency_pct', message: 'no partition coefficient: extraction efficiency taken as 100 %' });
+    }
+  }
+  texts.set('acid_base', acidCanon);
+
+  return { rowCount: n, numbers, texts, sources, sampleType, analyteIndex, rowError, errors: sortByRow(errors), notes };
+}
+
+function numberDefault(method: Method, field: CanonicalField): number | undefined {
+  const d = method.fields.get(field)?.default;
+  return typeof d === 'number' ? d : undefined;
+}
+
+function readNumbers(
+  raw: RawTable,
+  src: FieldSource,
+  values: Float64Array,
+  source: Uint8Array,
+  ctx: {
+    analyteIndex: Int32Array;
+    method: Method;
+    fail: (row: number, column: string | undefined, reason: string, value?: string) => void;
+  },
+): void {
+  const cells = raw.columns[src.column]!;
+  const check = NUMERIC_CHECKS[src.field];
+  const perAnalyte = new Map<number, number | string>();
+  const factorFor = (r: number): number | string => {
+    if (src.factor !== undefined) return src.factor;
+    const ai = ctx.analyteIndex[r]!;
+    const cached = perAnalyte.get(ai);
+    if (cached !== undefined) return cached;
+    const molarMass = ai >= 0 ? ctx.method.analytes[ai]!.molar_mass : undefined;
+    let f: number | string;
+    try {
+      f = molarMass ? conversionFactor(src.fromUnit, src.toUnit, { molarMass }) : `converting ${src.fromUnit} to ${src.toUnit} needs the analyte's molar mass in the method`;
+    } catch (err) {
+      f = (err as Error).message;
+    }
+    perAnalyte.set(ai, f);
+    return f;
+  };
+  for (let r = 0; r < raw.rowCount; r++) {
+    const cell = cells[r] ?? null;
+    const parsed = parseNumberCell(cell, raw.format.decimalComma);
+    if (!parsed.ok) {
+      ctx.fail(r, src.header, parsed.reason, cellText(cell));
+      continue;
+    }
+    if (Number.isNaN(parsed.value)) continue;
+    // Checks apply to the value as written (before conversion, sign and zero do not change).
+    if (check && !check.test(parsed.value)) {
+      ctx.fail(r, src.header, `expected ${check.want}`, cellText(cell).trim());
+      continue;
+    }
+    const factor = factorFor(r);
+    if (typeof factor === 'string') {
+      ctx.fail(r, src.header, factor);
+      continue;
+    }
+    values[r] = parsed.value * factor;
+    source[r] = ValueSource.Worklist;
+  }
+}
+
+function sortByRow<T extends { row: number }>(xs: T[]): T[] {
+  return xs.sort((a, b) => a.row - b.row);
+}

@@ -1,0 +1,114 @@
+import { FIELD_SPECS } from '../columns/fields.js';
+import { StopError } from '../errors.js';
+import type { Note } from '../issues.js';
+import type { FormulaDef, Method } from '../method/types.js';
+import { compileFormula, FormulaError, type CompiledFormula, type EvalContext, type SymbolKind } from './formula.js';
+import { dependencyOrder } from './order.js';
+
+/** Columns a formula may read besides the canonical fields and other formulas. */
+export const DERIVED_COLUMNS: Record<string, { kind: SymbolKind; description: string }> = {
+  surrogate: { kind: 'number', description: '1 when the method marks the analyte as a surrogate, else 0' },
+};
+
+export interface CompiledMethod {
+  /** In the method's (output) order. */
+  formulas: CompiledFormula[];
+  /** Indexes into `formulas` in evaluation order. */
+  order: number[];
+}
+
+/** Compile every formula of a method once; a refused formula or a cycle stops the run. */
+export function compileMethod(method: Method): CompiledMethod {
+  const symbols = new Map<string, SymbolKind>();
+  for (const spec of FIELD_SPECS.values()) symbols.set(spec.name, spec.kind);
+  for (const [name, d] of Object.entries(DERIVED_COLUMNS)) symbols.set(name, d.kind);
+  for (const f of method.formulas) symbols.set(f.name, 'number');
+
+  const formulas = method.formulas.map((def, i) => {
+    try {
+      return compileFormula(def, symbols);
+    } catch (err) {
+      if (err instanceof FormulaError) {
+        throw new StopError('method', `formula "${def.name}": ${err.message}`, {
+          file: method.file,
+          line: def.line,
+          column: `formulas[${i}].expr`,
+        });
+      }
+      throw err;
+    }
+  });
+  const byName = new Map(formulas.map((f, i) => [f.name, i]));
+  const { order, cycles } = dependencyOrder(
+    formulas.map((_, i) => i),
+    (i) => formulas[i]!.dependencies.filter((d) => byName.has(d)).map((d) => byName.get(d)!),
+  );
+  if (cycles.length > 0) {
+    const names = cycles[0]!.map((i) => formulas[i]!.name);
+    const first = method.formulas[cycles[0]![0]!]!;
+    throw new StopError('method', `the formula columns depend on each other in a cycle: ${[...names, names[0]].join(' → ')}`, {
+      file: method.file,
+      line: first.line,
+      column: 'formulas',
+    });
+  }
+  return { formulas, order };
+}
+
+export interface EvaluateInput {
+  rowCount: number;
+  numbers: ReadonlyMap<string, Float64Array>;
+  texts: ReadonlyMap<string, readonly string[]>;
+  parentRow: Int32Array;
+  pairRow: Int32Array;
+  /** 1 on rows whose computed cells stay empty. */
+  rowError: Uint8Array;
+}
+
+export interface Evaluated {
+  /** Computed columns by formula name, in method order. */
+  columns: Map<string, Float64Array>;
+  notes: Note[];
+}
+
+/**
+ * Evaluate all formula columns for all rows, one column at a time in dependency
+ * order, so a cross-row look-up reads a finished column (STYLE.md habit 2).
+ * A result that is not a finite number (divide by zero, log of 0) leaves the
+ * cell empty with a note; its dependents then see an empty cell.
+ */
+export function evaluateFormulas(compiled: CompiledMethod, defs: readonly FormulaDef[], input: EvaluateInput): Evaluated {
+  const n = input.rowCount;
+  const columns = new Map<string, Float64Array>();
+  const notes: Note[] = [];
+  const ctx: EvalContext = {
+    number: (name) => columns.get(name) ?? input.numbers.get(name),
+    text: (name) => input.texts.get(name),
+    parentRow: input.parentRow,
+    pairRow: input.pairRow,
+  };
+  for (const i of compiled.order) {
+    const f = compiled.formulas[i]!;
+    const out = new Float64Array(n);
+    columns.set(f.name, out); // visible (as it fills) only to later formulas
+    const run = f.bind(ctx);
+    const rowError = input.rowError;
+    for (let r = 0; r < n; r++) {
+      if (rowError[r]) {
+        out[r] = NaN;
+        continue;
+      }
+      const v = run(r);
+      if (typeof v === 'number' && Number.isFinite(v)) out[r] = v;
+      else {
+        out[r] = NaN;
+        if (typeof v === 'number' && !Number.isNaN(v)) {
+          notes.push({ row: r, column: f.name, message: `${f.name} is not a finite number (${v > 0 ? '' : '−'}∞, e.g. a division by zero): left empty` });
+        }
+      }
+    }
+  }
+  const ordered = new Map<string, Float64Array>();
+  for (const d of defs) ordered.set(d.name, columns.get(d.name)!);
+  return { columns: ordered, notes };
+}

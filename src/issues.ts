@@ -1,0 +1,52 @@
+/**
+ * Row-level findings are data (STYLE.md habit 4): an input error on a row, a QC
+ * flag, a note for the reviewer. All of them travel to every output.
+ */
+
+/** Flag codes of DESIGN.md §5; they appear `;`-separated in the flags column. */
+export const FLAG_CODES = [
+  'REC_LOW',
+  'REC_HIGH',
+  'RPD_HIGH',
+  'BLANK_HIT',
+  'BELOW_RL',
+  'OVER_RANGE',
+  'OUTLIER',
+  'NO_PARENT',
+  'INPUT_ERROR',
+  'LCS_ASSOC',
+  'MATRIX_ASSOC',
+  'BLANK_ASSOC',
+] as const;
+export type FlagCode = (typeof FLAG_CODES)[number];
+
+/** Codes that fail a control row (DESIGN.md §5); OUTLIER alone only informs. */
+export const FAILING_CODES: ReadonlySet<FlagCode> = new Set(['REC_LOW', 'REC_HIGH', 'RPD_HIGH', 'BLANK_HIT', 'NO_PARENT']);
+
+export interface Flag {
+  /** 0-based data row. */
+  row: number;
+  code: FlagCode;
+  /** The column the flag is about (canonical or computed name), for marking the cell. */
+  column?: string;
+  /** Reason in words. */
+  message: string;
+  value?: number | string;
+  /** The limit broken, in words or as a number (e.g. "70–130 %", 20). */
+  limit?: number | string;
+}
+
+/**
+ * A note for the reviewer that is not a flag (it changes no status and does not
+ * appear in the flags column): e.g. "no partition coefficient: E taken as 100 %".
+ */
+export interface Note {
+  row: number;
+  column?: string;
+  message: string;
+}
+
+/** Build the message grammar of STYLE.md habit 7: `row 14, column "x": ...`. */
+export function rowMessage(spreadsheetRow: number, column: string | undefined, text: string): string {
+  return column === undefined ? `row ${spreadsheetRow}: ${text}` : `row ${spreadsheetRow}, column "${column}": ${text}`;
+}

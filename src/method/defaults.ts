@@ -1,0 +1,26 @@
+import type { LimitTable, QcOptions } from './types.js';
+
+/**
+ * Generic acceptance limits (DESIGN.md §5), used where a method names none.
+ * 70–130 % recovery: US EPA SW-846 Method 3535A §1.2 default "recovery of 70–130 %, or project-specific".
+ * ±15 % of nominal (±20 % at the LLOQ) for QC samples: FDA BMV 2018 / ICH M10 2022.
+ * RPD ≤ 20 %: common practice for MS/MSD and duplicate pairs.
+ */
+export const GENERIC_LIMITS: LimitTable = {
+  lcs: { recovery: [70, 130], rpd_max: 20 },
+  lcsd: { recovery: [70, 130], rpd_max: 20 },
+  ms: { recovery: [70, 130], rpd_max: 20 },
+  msd: { recovery: [70, 130], rpd_max: 20 },
+  dup: { rpd_max: 20 },
+  qc: { recovery: [85, 115], levels: { lloq: { recovery: [80, 120] } } },
+  surrogate: { recovery: [70, 130] },
+};
+
+/** ICH M10: at least 2/3 of all QC samples and at least 50 % at each level within limits. */
+export const GENERIC_QC: QcOptions = {
+  outlierTest: 'grubbs',
+  alpha: 0.05,
+  runRule: 'auto',
+  runRuleAll: 2 / 3,
+  runRulePerLevel: 0.5,
+};

@@ -1,0 +1,260 @@
+import { createHash } from 'node:crypto';
+import { readFileSync } from 'node:fs';
+import AjvModule from 'ajv';
+import { LineCounter, parseDocument, isNode, type Document } from 'yaml';
+import { StopError } from '../errors.js';
+import { parseAcidBase } from '../chemistry/partition.js';
+import { isCanonicalField, type CanonicalField, type SampleType } from '../columns/fields.js';
+import { GENERIC_LIMITS, GENERIC_QC } from './defaults.js';
+import type { AnalyteInfo, FieldConfig, FormulaDef, LimitTable, Method } from './types.js';
+
+const SCHEMA_URL = new URL('../../templates/method.schema.json', import.meta.url);
+
+type AjvClass = typeof AjvModule.default;
+const Ajv: AjvClass = (AjvModule as unknown as { default?: AjvClass }).default ?? (AjvModule as unknown as AjvClass);
+
+let validator: ReturnType<InstanceType<AjvClass>['compile']> | undefined;
+function schemaValidator() {
+  if (!validator) {
+    const schema = JSON.parse(readFileSync(SCHEMA_URL, 'utf8')) as object;
+    validator = new Ajv({ allErrors: false, strict: false }).compile(schema);
+  }
+  return validator;
+}
+
+/** Read a method file; throws a StopError('method') naming file, line and key. */
+export function loadMethod(path: string): Method {
+  let text: string;
+  try {
+    text = readFileSync(path, 'utf8');
+  } catch (err) {
+    throw new StopError('method', `cannot read the method file: ${(err as NodeJS.ErrnoException).code ?? String(err)}`, { file: path });
+  }
+  return parseMethod(text, { file: path });
+}
+
+/** Parse method text (YAML); `file` is used in messages and provenance. */
+export function parseMethod(text: string, options: { file: string }): Method {
+  const file = options.file;
+  const lineCounter = new LineCounter();
+  const doc = parseDocument(text, { lineCounter, prettyErrors: false, uniqueKeys: true });
+  if (doc.errors.length > 0) {
+    const e = doc.errors[0]!;
+    const line = e.linePos?.[0]?.line ?? lineCounter.linePos(e.pos[0]).line;
+    throw new StopError('method', `cannot read the method as YAML: ${firstLine(e.message)}`, { file, line });
+  }
+  const data = doc.toJS({ maxAliasCount: 50 }) as unknown;
+  if (data === null || typeof data !== 'object' || Array.isArray(data)) {
+    throw new StopError('method', 'expected a method (a YAML mapping with name and formulas), got nothing usable', { file, line: 1 });
+  }
+  const validate = schemaValidator();
+  if (!validate(data)) {
+    const err = validate.errors![0]!;
+    const path = pointerToPath(err.instancePath);
+    let key = path.join('.');
+    let message = err.message ?? 'is not valid';
+    if (err.keyword === 'additionalProperties') {
+      const extra = (err.params as { additionalProperty: string }).additionalProperty;
+      path.push(extra);
+      key = path.join('.');
+      message = `unknown key "${extra}"`;
+    } else if (err.keyword === 'required') {
+      const missing = (err.params as { missingProperty: string }).missingProperty;
+      message = `missing required key "${missing}"`;
+    } else if (err.keyword === 'enum') {
+      const allowed = (err.params as { allowedValues: unknown[] }).allowedValues;
+      message = `expected one of ${allowed.map((a) => JSON.stringify(a)).join(', ')}, got ${JSON.stringify(valueAt(data, path))}`;
+    } else if (err.keyword === 'propertyNames') {
+      const name = (err.params as { propertyName: string }).propertyName;
+      path.push(name);
+      key = path.join('.');
+      message = `"${name}" is not a canonical field`;
+    } else {
+      message = `${message}, got ${JSON.stringify(valueAt(data, path))}`;
+    }
+    throw new StopError('method', message, { file, line: lineOf(doc, lineCounter, path), column: key || '(top)' });
+  }
+  const raw = data as RawMethod;
+  const at = (path: (string | number)[]) => ({ file, line: lineOf(doc, lineCounter, path), column: path.join('.') });
+
+  const fields = new Map<CanonicalField, FieldConfig>();
+  for (const [name, cfg] of Object.entries(raw.fields ?? {})) {
+    if (!isCanonicalField(name)) throw new StopError('method', `"${name}" is not a canonical field`, at(['fields', name]));
+    fields.set(name, { aliases: cfg.aliases ?? [], unit: cfg.unit, default: cfg.default });
+  }
+
+  const sampleTypes = new Map<string, SampleType>();
+  for (const [code, type] of Object.entries(raw.sample_types ?? {})) sampleTypes.set(code.trim().toLowerCase(), type);
+
+  const analytes: AnalyteInfo[] = Object.entries(raw.analytes ?? {}).map(([name, a]) => ({
+    name,
+    aliases: a.aliases ?? [],
+    partition_coeff: a.partition_coeff ?? (a.log_k !== undefined ? 10 ** a.log_k : undefined),
+    log_k: a.log_k,
+    pka: a.pka,
+    acid_base: a.acid_base ? parseAcidBase(a.acid_base) : undefined,
+    ph: a.ph,
+    reporting_limit: a.reporting_limit,
+    calibration_range: a.calibration_range as [number, number] | undefined,
+    molar_mass: a.molar_mass,
+    surrogate: a.surrogate ?? false,
+    limits: (a.limits ?? {}) as LimitTable,
+  }));
+  for (const a of analytes) {
+    if ((a.acid_base === 'acid' || a.acid_base === 'base') && a.pka === undefined) {
+      throw new StopError('method', `analyte "${a.name}" is marked ${a.acid_base} but has no pka`, at(['analytes', a.name, 'acid_base']));
+    }
+    if (a.calibration_range && a.calibration_range[0] > a.calibration_range[1]) {
+      throw new StopError('method', `expected calibration_range as [low, high], got [${a.calibration_range.join(', ')}]`, at(['analytes', a.name, 'calibration_range']));
+    }
+  }
+
+  const units = {
+    volume: normaliseUnitText(raw.units?.volume ?? 'mL'),
+    concentration: normaliseUnitText(raw.units?.concentration ?? 'ng/mL'),
+    extract_concentration: normaliseUnitText(raw.units?.extract_concentration ?? raw.units?.concentration ?? 'ng/mL'),
+  };
+
+  const seen = new Set<string>();
+  const formulas: FormulaDef[] = raw.formulas.map((f, i) => {
+    if (isCanonicalField(f.name)) {
+      throw new StopError('method', `formula column "${f.name}" has the name of an input field; choose another name`, at(['formulas', i, 'name']));
+    }
+    if (seen.has(f.name)) throw new StopError('method', `formula column "${f.name}" is defined twice`, at(['formulas', i, 'name']));
+    seen.add(f.name);
+    return {
+      name: f.name,
+      expr: f.expr,
+      unit: resolveFormulaUnit(f.unit, units),
+      description: f.description,
+      line: lineOf(doc, lineCounter, ['formulas', i, 'expr']),
+    };
+  });
+
+  return {
+    name: raw.name,
+    title: raw.title ?? raw.name,
+    version: raw.version === undefined ? undefined : String(raw.version),
+    description: raw.description,
+    file,
+    text,
+    sha256: createHash('sha256').update(text, 'utf8').digest('hex'),
+    units,
+    fields,
+    sampleTypes,
+    analytes,
+    defaults: { reporting_limit: raw.defaults?.reporting_limit },
+    limits: mergeLimitTables(GENERIC_LIMITS, (raw.limits ?? {}) as LimitTable),
+    qc: {
+      outlierTest: raw.qc?.outlier_test ?? GENERIC_QC.outlierTest,
+      alpha: raw.qc?.alpha ?? GENERIC_QC.alpha,
+      runRule: raw.qc?.run_rule ?? GENERIC_QC.runRule,
+      runRuleAll: raw.qc?.run_rule_all ?? GENERIC_QC.runRuleAll,
+      runRulePerLevel: raw.qc?.run_rule_per_level ?? GENERIC_QC.runRulePerLevel,
+    },
+    formulas,
+  };
+}
+
+/** Shallow merge per control type: the override's keys win, levels merged by name. */
+export function mergeLimitTables(base: LimitTable, override: LimitTable): LimitTable {
+  const out: LimitTable = { ...base };
+  for (const [kind, set] of Object.entries(override) as [keyof LimitTable, LimitTable[keyof LimitTable]][]) {
+    if (!set) continue;
+    const prev = out[kind] ?? {};
+    out[kind] = { ...prev, ...set, levels: { ...(prev.levels ?? {}), ...(set.levels ?? {}) } };
+  }
+  return out;
+}
+
+/** µ (U+00B5) and μ (U+03BC) are the micro prefix; mathjs spells it u. */
+export function normaliseUnitText(unit: string): string {
+  return unit.trim().replace(/[µμ]/g, 'u').replace(/\s+/g, '');
+}
+
+function resolveFormulaUnit(unit: string | undefined, units: Method['units']): string {
+  if (unit === undefined) return '';
+  if (unit === 'volume') return units.volume;
+  if (unit === 'concentration') return units.concentration;
+  if (unit === 'extract_concentration') return units.extract_concentration;
+  if (unit === 'percent') return '%';
+  return unit;
+}
+
+function pointerToPath(pointer: string): (string | number)[] {
+  if (!pointer) return [];
+  return pointer
+    .split('/')
+    .slice(1)
+    .map((p) => p.replace(/~1/g, '/').replace(/~0/g, '~'))
+    .map((p) => (/^\d+$/.test(p) ? Number(p) : p));
+}
+
+function valueAt(data: unknown, path: (string | number)[]): unknown {
+  let cur: unknown = data;
+  for (const p of path) {
+    if (cur === null || typeof cur !== 'object') return undefined;
+    cur = (cur as Record<string | number, unknown>)[p];
+  }
+  return cur;
+}
+
+function lineOf(doc: Document, counter: LineCounter, path: (string | number)[]): number | undefined {
+  for (let len = path.length; len >= 0; len--) {
+    const node = len === 0 ? doc.contents : doc.getIn(path.slice(0, len), true);
+    if (isNode(node) && node.range) return counter.linePos(node.range[0]).line;
+    // A scalar key's own position: look for the pair in its parent map.
+    if (len > 0) {
+      const parent = len === 1 ? doc.contents : doc.getIn(path.slice(0, len - 1), true);
+      const items = (parent as { items?: Array<{ key?: { value?: unknown; range?: [number, number, number] } }> } | null)?.items;
+      const pair = items?.find((it) => it.key?.value === path[len - 1]);
+      if (pair?.key?.range) return counter.linePos(pair.key.range[0]).line;
+    }
+  }
+  return undefined;
+}
+
+function firstLine(text: string): string {
+  return text.split('\n')[0]!.replace(/\.$/, '');
+}
+
+interface RawLimitSet {
+  recovery?: number[];
+  rpd_max?: number;
+  levels?: Record<string, RawLimitSet>;
+}
+interface RawMethod {
+  name: string;
+  title?: string;
+  version?: string | number;
+  description?: string;
+  units?: { volume?: string; concentration?: string; extract_concentration?: string };
+  fields?: Record<string, { aliases?: string[]; unit?: string; default?: number | string }>;
+  sample_types?: Record<string, SampleType>;
+  analytes?: Record<
+    string,
+    {
+      aliases?: string[];
+      partition_coeff?: number;
+      log_k?: number;
+      pka?: number;
+      acid_base?: string;
+      ph?: number;
+      reporting_limit?: number;
+      calibration_range?: number[];
+      molar_mass?: number;
+      surrogate?: boolean;
+      limits?: Record<string, RawLimitSet>;
+    }
+  >;
+  defaults?: { reporting_limit?: number };
+  limits?: Record<string, RawLimitSet>;
+  qc?: {
+    outlier_test?: 'grubbs' | 'dixon' | 'none';
+    alpha?: number;
+    run_rule?: 'auto' | 'on' | 'off';
+    run_rule_all?: number;
+    run_rule_per_level?: number;
+  };
+  formulas: Array<{ name: string; expr: string; unit?: string; description?: string }>;
+}

@@ -1,0 +1,74 @@
+import type { CanonicalField, SampleType } from '../columns/fields.js';
+import type { AcidBase } from '../chemistry/partition.js';
+
+export type Range = readonly [number, number];
+
+export interface LimitSet {
+  recovery?: Range;
+  rpd_max?: number;
+  levels?: Record<string, LimitSet>;
+}
+
+export type ControlKind = 'lcs' | 'lcsd' | 'ms' | 'msd' | 'dup' | 'qc' | 'surrogate';
+export type LimitTable = Partial<Record<ControlKind, LimitSet>>;
+
+export interface FieldConfig {
+  aliases: string[];
+  unit?: string;
+  default?: number | string;
+}
+
+export interface AnalyteInfo {
+  /** Name as written in the method. */
+  name: string;
+  aliases: string[];
+  partition_coeff?: number;
+  log_k?: number;
+  pka?: number;
+  acid_base?: AcidBase;
+  ph?: number;
+  reporting_limit?: number;
+  calibration_range?: Range;
+  molar_mass?: number;
+  surrogate: boolean;
+  limits: LimitTable;
+}
+
+export interface FormulaDef {
+  name: string;
+  expr: string;
+  /** Unit shown in the header, resolved to a unit text ('' when dimensionless). */
+  unit: string;
+  description?: string;
+  /** 1-based line of the expression in the method file, for messages. */
+  line?: number;
+}
+
+export interface QcOptions {
+  outlierTest: 'grubbs' | 'dixon' | 'none';
+  alpha: number;
+  runRule: 'auto' | 'on' | 'off';
+  runRuleAll: number;
+  runRulePerLevel: number;
+}
+
+export interface Method {
+  name: string;
+  title: string;
+  version?: string;
+  description?: string;
+  /** Where it was loaded from, its text and SHA-256 (provenance). */
+  file: string;
+  text: string;
+  sha256: string;
+  units: { volume: string; concentration: string; extract_concentration: string };
+  fields: Map<CanonicalField, FieldConfig>;
+  /** Lab code (lower case, trimmed) → canonical sample type. */
+  sampleTypes: Map<string, SampleType>;
+  /** Analyte by name; look up with `findAnalyte`. */
+  analytes: AnalyteInfo[];
+  defaults: { reporting_limit?: number };
+  limits: LimitTable;
+  qc: QcOptions;
+  formulas: FormulaDef[];
+}

@@ -1,0 +1,178 @@
+/**
+ * The composition root (STYLE.md habit 1): the only file that knows the order of
+ * the stages. read → map columns & units → validate → links → formulas → QC →
+ * summary. Writing is the caller's choice (see write/outputs.ts); recalculate()
+ * prints nothing and never exits.
+ */
+import { createHash } from 'node:crypto';
+import { createReadStream } from 'node:fs';
+import { basename } from 'node:path';
+import { mapColumns, type ColumnMap } from './columns/map.js';
+import { buildTable, type WorkTable } from './columns/table.js';
+import { findLinks, type Links } from './engine/links.js';
+import { compileMethod, evaluateFormulas } from './engine/evaluate.js';
+import type { Flag, Note } from './issues.js';
+import { loadMethod } from './method/load.js';
+import type { Method } from './method/types.js';
+import { assessQc, type QcResult } from './qc/assess.js';
+import { readWorklist } from './read/worklist.js';
+import type { RawTable } from './read/types.js';
+import { summarize, type GroupSummary, type Verdict } from './summary/summarize.js';
+
+export interface RecalcOptions {
+  /** Method file path, or a method already loaded. */
+  method: string | Method;
+  /** XLSX: sheet to read (default the first). */
+  sheet?: string;
+  /** Refuse worklists larger than this many bytes (default 256 MiB). */
+  maxBytes?: number;
+  /** Refuse XLSX files that unpack past this many bytes (default 512 MiB). */
+  maxUnpackedBytes?: number;
+}
+
+export interface WorklistInfo {
+  path: string;
+  name: string;
+  bytes: number;
+  sha256: string;
+}
+
+export interface RecalcResult {
+  worklist: WorklistInfo;
+  method: Method;
+  /** The worklist verbatim. */
+  raw: RawTable;
+  columnMap: ColumnMap;
+  table: WorkTable;
+  links: Links;
+  /** Computed columns by name, in the method's order. */
+  computed: Map<string, Float64Array>;
+  /** Input errors and QC flags, sorted by row. */
+  flags: Flag[];
+  notes: Note[];
+  /** Per row, the flag codes `;`-joined (each code once, in the order of FLAG_CODES). */
+  rowFlags: string[];
+  qc: QcResult;
+  groups: GroupSummary[];
+  verdict: Verdict;
+  rowsIn: number;
+  rowsOut: number;
+}
+
+export async function recalculate(worklistPath: string, options: RecalcOptions): Promise<RecalcResult> {
+  const method = typeof options.method === 'string' ? loadMethod(options.method) : options.method;
+  const compiled = compileMethod(method); // a bad formula stops before the worklist is read
+  const raw = await readWorklist(worklistPath, {
+    sheet: options.sheet,
+    maxBytes: options.maxBytes,
+    maxUnpackedBytes: options.maxUnpackedBytes,
+  });
+  const worklist = await describeFile(worklistPath);
+  return recalculateTable(raw, { method, worklist, compiled });
+}
+
+/** The stages after reading, for callers that already hold a RawTable. */
+export function recalculateTable(
+  raw: RawTable,
+  ctx: { method: Method; worklist: WorklistInfo; compiled?: ReturnType<typeof compileMethod> },
+): RecalcResult {
+  const { method } = ctx;
+  const compiled = ctx.compiled ?? compileMethod(method);
+  const columnMap = mapColumns(raw, method);
+  const table = buildTable(raw, columnMap, method);
+  const texts = table.texts;
+  const links = findLinks({
+    rowCount: table.rowCount,
+    sampleType: table.sampleType,
+    sampleId: texts.get('sample_id')!,
+    parentId: texts.get('parent_id')!,
+    analyte: texts.get('analyte')!,
+    batchId: texts.get('batch_id')!,
+  });
+  const surrogate = new Float64Array(table.rowCount);
+  for (let r = 0; r < table.rowCount; r++) {
+    const a = table.analyteIndex[r]!;
+    surrogate[r] = a >= 0 && method.analytes[a]!.surrogate ? 1 : 0;
+  }
+  const numbers = new Map(table.numbers);
+  numbers.set('surrogate', surrogate);
+  const evaluated = evaluateFormulas(compiled, method.formulas, {
+    rowCount: table.rowCount,
+    numbers,
+    texts,
+    parentRow: links.parentRow,
+    pairRow: links.pairRow,
+    rowError: table.rowError,
+  });
+  const qc = assessQc({
+    method,
+    rowCount: table.rowCount,
+    rowNumbers: raw.rowNumbers,
+    sampleType: table.sampleType,
+    analyteIndex: table.analyteIndex,
+    texts,
+    numbers,
+    computed: evaluated.columns,
+    links,
+    rowError: table.rowError,
+  });
+  const flags = [...table.errors, ...qc.flags].sort((a, b) => a.row - b.row);
+  const { groups, overall } = summarize({
+    rowCount: table.rowCount,
+    sampleType: table.sampleType,
+    texts,
+    computed: evaluated.columns,
+    rowError: table.rowError,
+    flags,
+    qc,
+  });
+  const notes = [...table.notes, ...evaluated.notes].sort((a, b) => a.row - b.row);
+  return {
+    worklist: ctx.worklist,
+    method,
+    raw,
+    columnMap,
+    table,
+    links,
+    computed: evaluated.columns,
+    flags,
+    notes,
+    rowFlags: joinRowFlags(table.rowCount, flags),
+    qc,
+    groups,
+    verdict: overall,
+    rowsIn: raw.rowCount,
+    rowsOut: table.rowCount,
+  };
+}
+
+const CODE_ORDER = [
+  'INPUT_ERROR',
+  'NO_PARENT',
+  'REC_LOW',
+  'REC_HIGH',
+  'RPD_HIGH',
+  'BLANK_HIT',
+  'BELOW_RL',
+  'OVER_RANGE',
+  'OUTLIER',
+  'LCS_ASSOC',
+  'MATRIX_ASSOC',
+  'BLANK_ASSOC',
+];
+
+function joinRowFlags(n: number, flags: readonly Flag[]): string[] {
+  const perRow: Set<string>[] = Array.from({ length: n }, () => new Set());
+  for (const f of flags) perRow[f.row]?.add(f.code);
+  return perRow.map((s) => (s.size === 0 ? '' : CODE_ORDER.filter((c) => s.has(c)).join(';')));
+}
+
+export async function describeFile(path: string): Promise<WorklistInfo> {
+  const hash = createHash('sha256');
+  let bytes = 0;
+  for await (const chunk of createReadStream(path)) {
+    hash.update(chunk as Buffer);
+    bytes += (chunk as Buffer).length;
+  }
+  return { path, name: basename(path), bytes, sha256: hash.digest('hex') };
+}

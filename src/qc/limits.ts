@@ -1,0 +1,58 @@
+import type { SampleType } from '../columns/fields.js';
+import type { AnalyteInfo, ControlKind, LimitSet, Method, Range } from '../method/types.js';
+
+export interface AppliedLimits {
+  recovery?: Range;
+  rpdMax?: number;
+  /** Which entry of the method supplied them, in words (for the QC sheet). */
+  origin: string;
+}
+
+/**
+ * Limits for one row, most specific first: the analyte's own limits for the type
+ * and qc level, then the analyte's for the type, then the method's (which carry
+ * the generic defaults of DESIGN.md §5 underneath).
+ * A surrogate analyte's recovery is judged against the surrogate limits whatever the row type.
+ */
+export function limitsFor(
+  method: Method,
+  row: { analyte?: AnalyteInfo; sampleType: SampleType; qcLevel: string },
+): AppliedLimits {
+  const kind: ControlKind | undefined = row.analyte?.surrogate
+    ? 'surrogate'
+    : row.sampleType === 'sample' || row.sampleType === 'blank'
+      ? undefined
+      : row.sampleType;
+  if (!kind) return { origin: 'none' };
+  const level = row.qcLevel.trim().toLowerCase();
+  const candidates: Array<[LimitSet | undefined, string]> = [];
+  const push = (set: LimitSet | undefined, where: string) => {
+    if (!set) return;
+    if (level && set.levels) {
+      const lv = Object.entries(set.levels).find(([k]) => k.toLowerCase() === level)?.[1];
+      candidates.push([lv, `${where} ${kind} at level ${level}`]);
+    }
+    candidates.push([set, `${where} ${kind}`]);
+  };
+  push(row.analyte?.limits[kind], `analyte ${row.analyte?.name}`);
+  push(method.limits[kind], 'method');
+  const out: AppliedLimits = { origin: '' };
+  const origins: string[] = [];
+  for (const [set, where] of candidates) {
+    if (!set) continue;
+    if (!out.recovery && set.recovery) {
+      out.recovery = set.recovery;
+      origins.push(`recovery from ${where}`);
+    }
+    if (out.rpdMax === undefined && set.rpd_max !== undefined && kind !== 'surrogate') {
+      out.rpdMax = set.rpd_max;
+      origins.push(`RPD from ${where}`);
+    }
+  }
+  out.origin = origins.join('; ') || 'none';
+  return out;
+}
+
+export function formatRange(r: Range): string {
+  return `${r[0]}–${r[1]} %`;
+}

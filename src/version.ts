@@ -1,0 +1,6 @@
+import { readFileSync } from 'node:fs';
+
+/** phasebook's version, from package.json (one source of truth). */
+export const VERSION: string = (
+  JSON.parse(readFileSync(new URL('../package.json', import.meta.url), 'utf8')) as { version: string }
+).version;
