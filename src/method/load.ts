@@ -51,12 +51,17 @@ export function parseMethod(text: string, options: { file: string }): Method {
   if (!validate(data)) {
     const err = validate.errors![0]!;
     const path = pointerToPath(err.instancePath);
-    let key = path.join('.');
+    let key = keyPath(path);
     let message = err.message ?? 'is not valid';
-    if (err.keyword === 'additionalProperties') {
+    const badName = (err as { propertyName?: string }).propertyName;
+    if (badName !== undefined) {
+      path.push(badName);
+      key = keyPath(path);
+      message = path[0] === 'fields' ? `"${badName}" is not a canonical field` : `"${badName}" is not an accepted key here`;
+    } else if (err.keyword === 'additionalProperties') {
       const extra = (err.params as { additionalProperty: string }).additionalProperty;
       path.push(extra);
-      key = path.join('.');
+      key = keyPath(path);
       message = `unknown key "${extra}"`;
     } else if (err.keyword === 'required') {
       const missing = (err.params as { missingProperty: string }).missingProperty;
@@ -67,7 +72,7 @@ export function parseMethod(text: string, options: { file: string }): Method {
     } else if (err.keyword === 'propertyNames') {
       const name = (err.params as { propertyName: string }).propertyName;
       path.push(name);
-      key = path.join('.');
+      key = keyPath(path);
       message = `"${name}" is not a canonical field`;
     } else {
       message = `${message}, got ${JSON.stringify(valueAt(data, path))}`;
@@ -75,7 +80,7 @@ export function parseMethod(text: string, options: { file: string }): Method {
     throw new StopError('method', message, { file, line: lineOf(doc, lineCounter, path), column: key || '(top)' });
   }
   const raw = data as RawMethod;
-  const at = (path: (string | number)[]) => ({ file, line: lineOf(doc, lineCounter, path), column: path.join('.') });
+  const at = (path: (string | number)[]) => ({ file, line: lineOf(doc, lineCounter, path), column: keyPath(path) });
 
   const fields = new Map<CanonicalField, FieldConfig>();
   for (const [name, cfg] of Object.entries(raw.fields ?? {})) {
@@ -179,6 +184,11 @@ function resolveFormulaUnit(unit: string | undefined, units: Method['units']): s
   if (unit === 'extract_concentration') return units.extract_concentration;
   if (unit === 'percent') return '%';
   return unit;
+}
+
+/** A key path as a reader writes it: `formulas[2].expr`, `analytes.Caffeine.pka`. */
+export function keyPath(path: readonly (string | number)[]): string {
+  return path.map((p, i) => (typeof p === 'number' ? `[${p}]` : i === 0 ? p : `.${p}`)).join('');
 }
 
 function pointerToPath(pointer: string): (string | number)[] {

@@ -1,0 +1,17 @@
+/**
+ * phasebook's library API (STYLE.md habit 8): recalculate a worklist, load a
+ * method, write the outputs. Everything else is internal.
+ */
+export { recalculate, recalculateTable } from './pipeline.js';
+export type { RecalcOptions, RecalcResult, WorklistInfo } from './pipeline.js';
+export { loadMethod, parseMethod } from './method/load.js';
+export type { Method, FormulaDef, AnalyteInfo, LimitSet, LimitTable } from './method/types.js';
+export { writeOutputs, outputPaths } from './write/outputs.js';
+export type { WriteOptions, OutputKind } from './write/outputs.js';
+export { StopError } from './errors.js';
+export type { StopKind, StopLocation } from './errors.js';
+export type { Flag, FlagCode, Note } from './issues.js';
+export { FLAG_CODES } from './issues.js';
+export type { QcResult, QcStatus } from './qc/assess.js';
+export type { GroupSummary, Verdict } from './summary/summarize.js';
+export { VERSION } from './version.js';

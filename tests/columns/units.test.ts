@@ -1,0 +1,64 @@
+import { describe, expect, it } from 'vitest';
+import { conversionFactor, splitHeaderUnit, unitKind } from '../../src/columns/units.js';
+
+// Expected factors are SI definitions (1 L = 1000 mL, 1 µg = 1000 ng; BIPM SI Brochure, 9th ed., from memory).
+describe('unit conversion factors', () => {
+  it.each([
+    ['L', 'mL', 1000],
+    ['uL', 'mL', 0.001],
+    ['µL', 'mL', 0.001],
+    ['μL', 'mL', 0.001],
+    ['cm^3', 'mL', 1],
+    ['cm3', 'mL', 1],
+    ['dm^3', 'mL', 1000],
+    ['mL', 'mL', 1],
+    ['ng/L', 'ng/mL', 0.001],
+    ['ug/L', 'ng/mL', 1],
+    ['µg/L', 'ng/mL', 1],
+    ['ug/mL', 'ng/mL', 1000],
+    ['mg/L', 'ng/mL', 1000],
+    ['pg/mL', 'ng/mL', 0.001],
+    ['ng/mL', 'ug/L', 1],
+  ])('%s → %s is × %s', (from, to, factor) => {
+    expect(conversionFactor(from, to)).toBeCloseTo(factor, 12);
+  });
+
+  it('molar to mass concentration with the molar mass: 1 nmol/L of a 200 g/mol analyte is 0.2 ng/mL', () => {
+    expect(conversionFactor('nmol/L', 'ng/mL', { molarMass: 200 })).toBeCloseTo(0.2, 12);
+    expect(conversionFactor('nM', 'ng/mL', { molarMass: 200 })).toBeCloseTo(0.2, 12);
+    expect(conversionFactor('ng/mL', 'nmol/L', { molarMass: 200 })).toBeCloseTo(5, 12);
+  });
+
+  it.each([
+    ['nmol/L', 'ng/mL', {}, `converting "nmol/L" to "ng/mL" needs the analyte's molar mass`],
+    ['mL', 'ng/mL', {}, 'cannot convert "mL" (a volume) to "ng/mL" (a mass concentration)'],
+    ['furlong', 'mL', {}, '"furlong" is not a unit phasebook can convert'],
+  ])('%s → %s is refused', (from, to, opts, message) => {
+    expect(() => conversionFactor(from, to, opts)).toThrow(message);
+  });
+
+  it.each([
+    ['mL', 'volume'],
+    ['ng/mL', 'mass_concentration'],
+    ['uM', 'molar_concentration'],
+    ['furlong', undefined],
+  ])('unitKind(%s)', (u, kind) => {
+    expect(unitKind(u)).toBe(kind);
+  });
+
+  it('units are case-sensitive: ML is a megalitre, not a millilitre (LIBRARY-NOTES.md §1)', () => {
+    expect(conversionFactor('ML', 'mL')).toBeCloseTo(1e9, 3);
+  });
+});
+
+describe('units in headers', () => {
+  it.each([
+    ['sample_volume [L]', { name: 'sample_volume', unit: 'L' }],
+    ['extract_conc [ug/mL]', { name: 'extract_conc', unit: 'ug/mL' }],
+    ['Vol (mL)', { name: 'Vol', unit: 'mL' }],
+    ['sample_volume', { name: 'sample_volume' }],
+    ['[odd]', { name: '[odd]' }],
+  ])('%s', (header, want) => {
+    expect(splitHeaderUnit(header)).toEqual(want);
+  });
+});

@@ -1,0 +1,62 @@
+import { describe, expect, it } from 'vitest';
+import { compileMethod } from '../../src/engine/evaluate.js';
+import { StopError } from '../../src/errors.js';
+import { loadMethod, parseMethod } from '../../src/method/load.js';
+
+function stop(text: string): string {
+  try {
+    compileMethod(parseMethod(text, { file: 'm.yaml' }));
+  } catch (err) {
+    if (err instanceof StopError) return err.describe();
+    throw err;
+  }
+  throw new Error('expected a StopError');
+}
+
+const OK_FORMULAS = 'formulas:\n  - name: y\n    expr: extract_conc * 2\n';
+
+describe('method files', () => {
+  it('the shipped generic method loads, with the generic limits of DESIGN.md §5', () => {
+    const m = loadMethod('templates/generic-lle.yaml');
+    expect(m.name).toBe('generic-lle');
+    expect(m.units).toEqual({ volume: 'mL', concentration: 'ng/mL', extract_concentration: 'ng/mL' });
+    expect(m.limits.lcs).toMatchObject({ recovery: [70, 130], rpd_max: 20 });
+    expect(m.limits.qc).toMatchObject({ recovery: [85, 115], levels: { lloq: { recovery: [80, 120] } } });
+    expect(m.formulas.map((f) => f.name)).toEqual([
+      'distribution_ratio',
+      'extraction_efficiency_pct',
+      'pre_extraction_conc',
+      'spike_recovery_pct',
+      'rpd_pct',
+    ]);
+    expect(m.sha256).toMatch(/^[0-9a-f]{64}$/);
+    expect(() => compileMethod(m)).not.toThrow();
+  });
+
+  it.each([
+    ['name: x\nformulas: [', 'm.yaml, line 2: cannot read the method as YAML'],
+    ['- just\n- a list', 'm.yaml, line 1: expected a method (a YAML mapping with name and formulas), got nothing usable'],
+    ['name: x\n', 'm.yaml, line 1, key "(top)": missing required key "formulas"'],
+    [`name: x\ncolour: blue\n${OK_FORMULAS}`, 'm.yaml, line 2, key "colour": unknown key "colour"'],
+    [`name: x\nlimits:\n  lcs:\n    recovery: [70]\n${OK_FORMULAS}`, 'm.yaml, line 4, key "limits.lcs.recovery": must NOT have fewer than 2 items, got [70]'],
+    [`name: x\nqc:\n  outlier_test: chauvenet\n${OK_FORMULAS}`, 'm.yaml, line 3, key "qc.outlier_test": expected one of "grubbs", "dixon", "none", got "chauvenet"'],
+    [`name: x\nfields:\n  volume_sample: { aliases: [V] }\n${OK_FORMULAS}`, 'm.yaml, line 3, key "fields.volume_sample": "volume_sample" is not a canonical field'],
+    [`name: x\nanalytes:\n  A: { acid_base: acid }\n${OK_FORMULAS}`, 'm.yaml, line 3, key "analytes.A.acid_base": analyte "A" is marked acid but has no pka'],
+    ['name: x\nformulas:\n  - name: y\n    expr: import("fs")\n', 'm.yaml, line 4, key "formulas[0].expr": formula "y": the function "import" is not allowed'],
+    ['name: x\nformulas:\n  - name: a\n    expr: b + 1\n  - name: b\n    expr: a * 2\n', 'm.yaml, line 4, key "formulas": the formula columns depend on each other in a cycle: a → b → a'],
+    ['name: x\nformulas:\n  - name: sample_volume\n    expr: "1"\n', 'm.yaml, line 3, key "formulas[0].name": formula column "sample_volume" has the name of an input field; choose another name'],
+    ['name: x\nformulas:\n  - name: y\n    expr: "1"\n  - name: y\n    expr: "2"\n', 'm.yaml, line 5, key "formulas[1].name": formula column "y" is defined twice'],
+  ])('%j stops with %j', (text, message) => {
+    expect(stop(text).startsWith(message)).toBe(true);
+  });
+
+  it('a missing method file stops with its name', () => {
+    expect(() => loadMethod('templates/nope.yaml')).toThrow(/cannot read the method file: ENOENT/);
+  });
+
+  it('per-analyte limits merge over the defaults type by type', () => {
+    const m = parseMethod(`name: x\nlimits:\n  ms: { recovery: [60, 140] }\n${OK_FORMULAS}`, { file: 'm.yaml' });
+    expect(m.limits.ms).toMatchObject({ recovery: [60, 140], rpd_max: 20 });
+    expect(m.limits.lcs).toMatchObject({ recovery: [70, 130] });
+  });
+});
