@@ -12,7 +12,7 @@
  *   apt-get update && DEBIAN_FRONTEND=noninteractive apt-get install -y --no-install-recommends libreoffice-calc-nogui
  */
 import { execFile } from 'node:child_process';
-import { existsSync, mkdirSync, mkdtempSync, writeFileSync } from 'node:fs';
+import { existsSync, mkdirSync, mkdtempSync, rmSync, writeFileSync } from 'node:fs';
 import { tmpdir } from 'node:os';
 import { basename, delimiter, extname, join } from 'node:path';
 import { pathToFileURL } from 'node:url';
@@ -56,6 +56,13 @@ function profile(): string {
     profileDir = dir;
   }
   return profileDir;
+}
+
+/** Delete this process's LibreOffice profile (call from afterAll); the next conversion makes a new one. */
+export async function disposeLibreOfficeProfile(): Promise<void> {
+  await queue;
+  if (profileDir !== undefined) rmSync(profileDir, { recursive: true, force: true });
+  profileDir = undefined;
 }
 
 /** Conversions run one at a time within a process (they share the profile). */
