@@ -1,0 +1,375 @@
+/**
+ * CSV worklist reader: the file as written, column by column (RawTable).
+ *
+ * - Streams the file (papaparse `step` over a read stream) straight into column
+ *   arrays; every cell stays the verbatim string, spaces included.
+ * - Delimiter: the `delimiter` option, else a sniff of the header line (the most
+ *   frequent of `,` `;` tab outside quotes; a tie or none gives `,`). A `;` file
+ *   is taken to use a decimal comma (`format.decimalComma`).
+ * - Row numbers are what a spreadsheet shows when it opens the file: every record
+ *   is one row (a quoted cell's line breaks stay inside its row) and a blank line
+ *   is an empty row, so it still counts. Blank records (every cell empty or only
+ *   spaces, papaparse's "greedy" sense) carry no data and are skipped.
+ * - Line numbers in stop messages are text lines as an editor counts them.
+ */
+import { createReadStream } from 'node:fs';
+import { open, stat } from 'node:fs/promises';
+import Papa from 'papaparse';
+import { StopError } from '../errors.js';
+import { rowMessage } from '../issues.js';
+import type { RawCell, RawTable, RowProblem } from './types.js';
+import { formatBytes } from './zip-guard.js';
+
+export type CsvDelimiter = ',' | ';' | '\t';
+
+export interface CsvReadOptions {
+  /** Refuse files larger than this, in bytes, before reading. Default 256 MiB. */
+  maxBytes?: number;
+  /** Field delimiter; default: sniffed from the header line. */
+  delimiter?: CsvDelimiter;
+}
+
+/** How much of the start of the file is checked for binary content. */
+const HEAD_BYTES = 64 * 1024;
+export const DEFAULT_MAX_BYTES = 256 * 1024 * 1024;
+/** Longest record accepted, in characters (a worklist row is a few hundred). */
+const MAX_RECORD_CHARS = 1024 * 1024;
+
+export async function readCsv(path: string, options: CsvReadOptions = {}): Promise<RawTable> {
+  await checkInputFile(path, { maxBytes: options.maxBytes });
+  const head = await readHead(path, HEAD_BYTES);
+  const text = checkTextHead(path, head.bytes, head.complete);
+  if (text.trim() === '') throw new StopError('input', 'is empty, expected a header row and data rows', { file: path });
+  const delimiter = options.delimiter ?? sniffDelimiter(text);
+  return parseStream(path, delimiter);
+}
+
+/**
+ * Stat checks shared by the readers: the file exists, is a file, is not larger
+ * than `maxBytes` (checked before any reading) and is not empty.
+ */
+export async function checkInputFile(path: string, options: { maxBytes?: number } = {}): Promise<number> {
+  const maxBytes = options.maxBytes ?? DEFAULT_MAX_BYTES;
+  let size: number;
+  try {
+    const st = await stat(path);
+    if (st.isDirectory()) throw new StopError('input', 'is a folder, expected a worklist file', { file: path });
+    size = st.size;
+  } catch (err) {
+    if (err instanceof StopError) throw err;
+    throw new StopError('input', `cannot be read: ${fsReason(err)}`, { file: path });
+  }
+  if (size > maxBytes) {
+    throw new StopError('input', `is ${formatBytes(size)}, larger than the ${formatBytes(maxBytes)} accepted`, { file: path });
+  }
+  if (size === 0) throw new StopError('input', 'is empty, expected a header row and data rows', { file: path });
+  return size;
+}
+
+/** Words for a Node file-system error. */
+export function fsReason(err: unknown): string {
+  const code = (err as { code?: unknown } | null)?.code;
+  switch (code) {
+    case 'ENOENT':
+      return 'no such file';
+    case 'EACCES':
+    case 'EPERM':
+      return 'permission denied';
+    case 'EISDIR':
+      return 'it is a folder';
+    default:
+      return err instanceof Error ? err.message : String(err);
+  }
+}
+
+/** The first `limit` bytes of a file, and whether that is the whole file. */
+export async function readHead(path: string, limit: number): Promise<{ bytes: Buffer; complete: boolean }> {
+  let fh;
+  try {
+    fh = await open(path, 'r');
+  } catch (err) {
+    throw new StopError('input', `cannot be read: ${fsReason(err)}`, { file: path });
+  }
+  try {
+    const buf = Buffer.alloc(limit + 1);
+    let got = 0;
+    while (got < buf.length) {
+      const { bytesRead } = await fh.read(buf, got, buf.length - got, got);
+      if (bytesRead === 0) break;
+      got += bytesRead;
+    }
+    return { bytes: buf.subarray(0, Math.min(got, limit)), complete: got <= limit };
+  } catch (err) {
+    throw new StopError('input', `cannot be read: ${fsReason(err)}`, { file: path });
+  } finally {
+    await fh.close();
+  }
+}
+
+/**
+ * Refuse a head that is not UTF-8 text (NUL bytes, invalid UTF-8, UTF-16) and
+ * return it decoded, without a BOM. `complete` says the head is the whole file
+ * (otherwise a multi-byte character cut at the end is not an error).
+ */
+export function checkTextHead(path: string, head: Buffer, complete: boolean): string {
+  const notText = (why: string, line?: number) =>
+    new StopError('input', `does not look like a CSV text file: ${why}`, line === undefined ? { file: path } : { file: path, line });
+  if (head.length >= 2 && ((head[0] === 0xff && head[1] === 0xfe) || (head[0] === 0xfe && head[1] === 0xff))) {
+    throw notText('it is UTF-16 text; save it as UTF-8 CSV');
+  }
+  const nul = head.indexOf(0);
+  if (nul >= 0) throw notText(`it holds binary data (a NUL byte at byte ${nul + 1})`, lineAt(head, nul));
+  const bad = firstInvalidUtf8(head, complete);
+  if (bad >= 0) {
+    throw notText(
+      `invalid UTF-8 at byte ${bad + 1} (0x${head[bad]!.toString(16).toUpperCase().padStart(2, '0')}); save it as UTF-8 CSV`,
+      lineAt(head, bad),
+    );
+  }
+  let text = head.toString('utf8');
+  if (text.charCodeAt(0) === 0xfeff) text = text.slice(1);
+  return text;
+}
+
+/** Pick the delimiter from the header line: most frequent of `,` `;` tab outside quotes. */
+export function sniffDelimiter(text: string): CsvDelimiter {
+  text = text.replace(/^(?:[ \t]*\r?\n)+/, ''); // blank lines before the header
+  let comma = 0;
+  let semi = 0;
+  let tab = 0;
+  let inQuotes = false;
+  for (let i = 0; i < text.length; i++) {
+    const c = text[i];
+    if (c === '"') inQuotes = !inQuotes; // a doubled quote toggles twice: no net change
+    else if (inQuotes) continue;
+    else if (c === '\n' || c === '\r') break;
+    else if (c === ',') comma++;
+    else if (c === ';') semi++;
+    else if (c === '\t') tab++;
+  }
+  if (semi > comma && semi >= tab) return ';';
+  if (tab > comma && tab > semi) return '\t';
+  return ',';
+}
+
+interface ParseState {
+  headers: string[] | null;
+  columns: RawCell[][];
+  rowNumbers: number[];
+  rowProblems: RowProblem[];
+  /** Spreadsheet row of the record being read (1-based, blank records counted). */
+  record: number;
+  /** Text line the next record starts on (1-based). */
+  nextLine: number;
+  stop: StopError | null;
+}
+
+function parseStream(path: string, delimiter: CsvDelimiter): Promise<RawTable> {
+  const st: ParseState = {
+    headers: null,
+    columns: [],
+    rowNumbers: [],
+    rowProblems: [],
+    record: 0,
+    nextLine: 1,
+    stop: null,
+  };
+
+  return new Promise<RawTable>((resolve, reject) => {
+    const stream = createReadStream(path, { encoding: 'utf8' });
+    let failed = false;
+    const fail = (err: StopError) => {
+      if (failed) return;
+      failed = true;
+      stream.destroy();
+      reject(err);
+    };
+    stream.on('error', (err) => fail(new StopError('input', `cannot be read: ${fsReason(err)}`, { file: path })));
+
+    // papaparse re-reads an unfinished record with every new chunk, so an
+    // unclosed quote early in a large file would cost time quadratic in its size.
+    // A record still open after MAX_RECORD_CHARS is refused right away.
+    let charsRead = 0;
+    let recordEnd = 0;
+    stream.on('data', (chunk: string | Buffer) => {
+      charsRead += chunk.length;
+      if (!failed && charsRead - recordEnd > MAX_RECORD_CHARS + chunk.length) {
+        fail(
+          new StopError(
+            'input',
+            `a quoted cell that starts on line ${st.nextLine} runs on for more than 1 MiB without a closing "; expected a closing " (a quote is probably missing)`,
+            { file: path, line: st.nextLine },
+          ),
+        );
+      }
+    });
+
+    Papa.parse<string[]>(stream, {
+      delimiter,
+      dynamicTyping: false,
+      // Blank records are skipped below instead, so that they still count as rows.
+      skipEmptyLines: false,
+      step(results, parser) {
+        recordEnd = results.meta.cursor;
+        if (st.stop) return;
+        takeRecord(path, st, results.data, results.errors);
+        if (st.stop) parser.abort();
+      },
+      complete() {
+        if (st.stop) return fail(st.stop);
+        try {
+          resolve(finish(path, st, delimiter));
+        } catch (err) {
+          fail(err as StopError);
+        }
+      },
+      error(err: Error) {
+        fail(new StopError('input', `cannot be read: ${err.message}`, { file: path }));
+      },
+    });
+  });
+}
+
+function takeRecord(path: string, st: ParseState, cells: string[], errors: Papa.ParseError[]): void {
+  st.record++;
+  const line = st.nextLine;
+  let breaks = 0;
+  for (const cell of cells) breaks += countLineBreaks(cell);
+  st.nextLine += 1 + breaks;
+
+  const quoteError = errors.find((e) => e.type === 'Quotes');
+  if (quoteError) {
+    // The damaged cell is the last one papaparse returned (it runs to the end of the file).
+    let openLine = line;
+    for (let i = 0; i < cells.length - 1; i++) openLine += countLineBreaks(cells[i]!);
+    const invalid = errors.some((e) => e.code === 'InvalidQuotes');
+    st.stop = new StopError(
+      'input',
+      invalid
+        ? `a quoted cell on line ${openLine} has text after its closing quote; expected the delimiter or the end of the line right after a closing "`
+        : `a quoted cell that starts on line ${openLine} is never closed; expected a closing " before the end of the file`,
+      { file: path, line: openLine },
+    );
+    return;
+  }
+
+  if (isBlank(cells)) return;
+
+  if (st.headers === null) {
+    const headers = cells.slice();
+    if (headers[0]!.charCodeAt(0) === 0xfeff) headers[0] = headers[0]!.slice(1);
+    const seen = new Map<string, number>();
+    for (let c = 0; c < headers.length; c++) {
+      const key = headers[c]!.trim();
+      if (key === '') continue; // unnamed columns are left to column mapping
+      if (seen.has(key)) {
+        st.stop = new StopError(
+          'input',
+          `the header "${key}" appears twice (columns ${seen.get(key)! + 1} and ${c + 1}); expected each header once`,
+          { file: path, line: st.record, column: key },
+        );
+        return;
+      }
+      seen.set(key, c);
+    }
+    st.headers = headers;
+    st.columns = headers.map(() => []);
+    return;
+  }
+
+  const width = st.headers.length;
+  const dataRow = st.rowNumbers.length;
+  st.rowNumbers.push(st.record);
+  for (let c = 0; c < width; c++) st.columns[c]!.push(c < cells.length ? cells[c]! : null);
+  if (cells.length < width) {
+    st.rowProblems.push({
+      row: dataRow,
+      message: rowMessage(st.record, undefined, `expected ${width} cells, got ${cells.length}`),
+    });
+  } else if (cells.length > width) {
+    // Extra empty cells (a trailing delimiter) lose nothing; extra values are reported.
+    const extra = cells.slice(width).filter((v) => v.trim() !== '');
+    if (extra.length > 0) {
+      const shown = extra.slice(0, 3).map((v) => `"${v}"`).join(', ') + (extra.length > 3 ? ', ...' : '');
+      st.rowProblems.push({
+        row: dataRow,
+        message: rowMessage(st.record, undefined, `expected ${width} cells, got ${cells.length}; extra values ${shown} were dropped`),
+      });
+    }
+  }
+}
+
+function finish(path: string, st: ParseState, delimiter: CsvDelimiter): RawTable {
+  if (st.headers === null) throw new StopError('input', 'is empty, expected a header row and data rows', { file: path });
+  if (st.rowNumbers.length === 0) {
+    throw new StopError('input', 'has a header row but no data rows', { file: path });
+  }
+  return {
+    source: path,
+    headers: st.headers,
+    columns: st.columns,
+    rowCount: st.rowNumbers.length,
+    rowNumbers: Int32Array.from(st.rowNumbers),
+    rowProblems: st.rowProblems,
+    format: { kind: 'csv', delimiter, decimalComma: delimiter === ';' },
+  };
+}
+
+function isBlank(cells: string[]): boolean {
+  for (const cell of cells) if (cell.trim() !== '') return false;
+  return true;
+}
+
+/** Line breaks inside a cell as an editor counts them (CRLF once, lone CR or LF once each). */
+function countLineBreaks(s: string): number {
+  let n = 0;
+  for (let i = s.indexOf('\n'); i >= 0; i = s.indexOf('\n', i + 1)) n++;
+  if (s.includes('\r')) {
+    for (let i = 0; i < s.length; i++) if (s.charCodeAt(i) === 13 && s.charCodeAt(i + 1) !== 10) n++;
+  }
+  return n;
+}
+
+/** 1-based text line of a byte offset. */
+function lineAt(buf: Buffer, offset: number): number {
+  let line = 1;
+  for (let i = buf.indexOf(10); i >= 0 && i < offset; i = buf.indexOf(10, i + 1)) line++;
+  return line;
+}
+
+/**
+ * Offset of the first byte that breaks UTF-8 (RFC 3629: no overlongs, no
+ * surrogates, nothing above U+10FFFF), or -1. A sequence cut by the end of the
+ * buffer is an error only when the buffer is the whole file.
+ */
+export function firstInvalidUtf8(buf: Buffer, complete: boolean): number {
+  let i = 0;
+  const n = buf.length;
+  while (i < n) {
+    const b = buf[i]!;
+    if (b < 0x80) {
+      i++;
+      continue;
+    }
+    let need: number;
+    let lo = 0x80;
+    let hi = 0xbf;
+    if (b >= 0xc2 && b <= 0xdf) need = 1;
+    else if (b >= 0xe0 && b <= 0xef) {
+      need = 2;
+      if (b === 0xe0) lo = 0xa0;
+      if (b === 0xed) hi = 0x9f;
+    } else if (b >= 0xf0 && b <= 0xf4) {
+      need = 3;
+      if (b === 0xf0) lo = 0x90;
+      if (b === 0xf4) hi = 0x8f;
+    } else return i;
+    for (let k = 1; k <= need; k++) {
+      if (i + k >= n) return complete ? i : -1;
+      const c = buf[i + k]!;
+      if (k === 1 ? c < lo || c > hi : c < 0x80 || c > 0xbf) return i;
+    }
+    i += need + 1;
+  }
+  return -1;
+}

@@ -1,0 +1,239 @@
+/**
+ * Atomic output: every file is written to a temporary file in its own folder,
+ * flushed to disk (fsync) and renamed into place, so a reader never sees half a
+ * file and an interrupted run leaves no new output (DESIGN.md §7).
+ *
+ * Temporary names: `.phasebook-tmp-<random>-<basename>` next to the target.
+ * When replacing (force) inside `commitAll`, the old file is first kept as a
+ * hard link (or copy) `.phasebook-old-<random>-<basename>` so that a failed
+ * rename later in the set can put it back; the backups are removed at the end.
+ */
+import { randomBytes } from 'node:crypto';
+import { unlinkSync } from 'node:fs';
+import { copyFile, link, lstat, open, rename, unlink } from 'node:fs/promises';
+import { basename, dirname, join } from 'node:path';
+import { StopError } from '../errors.js';
+
+export interface AtomicWriteOptions {
+  /** Replace targets that already exist. Default false: an existing target stops the run. */
+  force?: boolean;
+}
+
+export interface WriteJob {
+  /** Final path of the output. */
+  target: string;
+  /** Writes the whole output to `tmpPath` (a new file in the target's folder). */
+  write: (tmpPath: string) => Promise<void>;
+}
+
+/** Temp and backup files alive right now; removed on SIGINT/SIGTERM or exit. */
+const live = new Set<string>();
+
+/** Write one output atomically: temp file, fsync, rename. */
+export async function writeFileAtomic(
+  target: string,
+  write: (tmpPath: string) => Promise<void>,
+  options: AtomicWriteOptions = {},
+): Promise<void> {
+  await commitAll([{ target, write }], options);
+}
+
+/**
+ * Write several outputs so that a failure in any leaves none of the new files:
+ * all targets are checked first, then all temps are written, then all are renamed.
+ * A rename failing part-way puts back what was already renamed.
+ */
+export async function commitAll(jobs: readonly WriteJob[], options: AtomicWriteOptions = {}): Promise<void> {
+  const force = options.force ?? false;
+  const targets = jobs.map((j) => j.target);
+  const twice = targets.find((t, i) => targets.indexOf(t) !== i);
+  if (twice !== undefined) throw new Error(`commitAll: the output ${twice} is listed twice`);
+
+  // 1. Check every target before writing anything. (A file created by someone
+  //    else between this check and the rename would be replaced.)
+  const existed: boolean[] = [];
+  const blocking: string[] = [];
+  for (const target of targets) {
+    let exists = false;
+    try {
+      const st = await lstat(target);
+      exists = true;
+      if (st.isDirectory()) throw new StopError('output', 'is a folder, expected a file name to write', { file: target });
+      if (!force) blocking.push(target);
+    } catch (err) {
+      if (err instanceof StopError) throw err;
+      if ((err as { code?: string }).code !== 'ENOENT') throw outputError(target, err);
+    }
+    existed.push(exists);
+  }
+  if (blocking.length === 1) {
+    throw new StopError('output', 'already exists; use --force to replace it', { file: blocking[0] });
+  }
+  if (blocking.length > 1) {
+    throw new StopError('output', `${blocking.length} outputs already exist (${blocking.join(', ')}); use --force to replace them`, {
+      file: blocking[0],
+    });
+  }
+
+  // 2. Write every temp file.
+  const temps: string[] = [];
+  const backups: (string | null)[] = [];
+  try {
+    for (const job of jobs) {
+      const tmp = siblingName(job.target, 'tmp');
+      live.add(tmp);
+      temps.push(tmp);
+      try {
+        await job.write(tmp);
+        await fsyncFile(tmp);
+      } catch (err) {
+        throw outputError(job.target, err);
+      }
+    }
+  } catch (err) {
+    await removeAll(temps);
+    throw err;
+  }
+
+  // 3. Rename into place, keeping a backup of each replaced file until all are in.
+  let done = 0;
+  try {
+    for (let i = 0; i < jobs.length; i++) {
+      const target = jobs[i]!.target;
+      let backup: string | null = null;
+      if (existed[i]) {
+        backup = siblingName(target, 'old');
+        live.add(backup);
+        backups.push(backup);
+        try {
+          await link(target, backup);
+        } catch {
+          try {
+            await copyFile(target, backup); // no hard links on this file system
+          } catch (err) {
+            throw outputError(target, err);
+          }
+        }
+      } else {
+        backups.push(null);
+      }
+      try {
+        await rename(temps[i]!, target);
+      } catch (err) {
+        throw outputError(target, err);
+      }
+      live.delete(temps[i]!);
+      done++;
+    }
+  } catch (err) {
+    for (let i = done - 1; i >= 0; i--) {
+      const target = jobs[i]!.target;
+      const backup = backups[i];
+      try {
+        if (backup) await rename(backup, target);
+        else await unlink(target);
+      } catch {
+        // Best effort: the error below is what the user needs to see.
+      }
+    }
+    await removeAll([...temps, ...backups.filter((b): b is string => b !== null)]);
+    throw err;
+  }
+  await removeAll(backups.filter((b): b is string => b !== null));
+  await fsyncFolders(targets);
+}
+
+const onSigint = () => {
+  removeLiveTempFiles();
+  process.exit(130);
+};
+const onSigterm = () => {
+  removeLiveTempFiles();
+  process.exit(143);
+};
+
+/**
+ * Remove live temp files when the process is interrupted (SIGINT, SIGTERM) or
+ * exits; after a signal the process exits with 128 + the signal number (130 for
+ * SIGINT, 143 for SIGTERM). Safe to call more than once: each handler is added once.
+ */
+export function installInterruptCleanup(): void {
+  if (!process.listeners('SIGINT').includes(onSigint)) process.on('SIGINT', onSigint);
+  if (!process.listeners('SIGTERM').includes(onSigterm)) process.on('SIGTERM', onSigterm);
+  if (!process.listeners('exit').includes(removeLiveTempFiles)) process.on('exit', removeLiveTempFiles);
+}
+
+/** Delete every live temp and backup file now (synchronous: usable in signal and exit handlers). */
+export function removeLiveTempFiles(): void {
+  for (const file of live) {
+    try {
+      unlinkSync(file);
+    } catch {
+      // already gone
+    }
+    live.delete(file);
+  }
+}
+
+/** Paths of the temp and backup files alive right now (for tests and diagnostics). */
+export function liveTempFiles(): string[] {
+  return [...live];
+}
+
+function siblingName(target: string, kind: 'tmp' | 'old'): string {
+  return join(dirname(target), `.phasebook-${kind}-${randomBytes(6).toString('hex')}-${basename(target)}`);
+}
+
+async function fsyncFile(path: string): Promise<void> {
+  const fh = await open(path, 'r+');
+  try {
+    await fh.sync();
+  } finally {
+    await fh.close();
+  }
+}
+
+/** Make the renames durable; not every platform can open a folder, so failures are ignored. */
+async function fsyncFolders(targets: readonly string[]): Promise<void> {
+  for (const folder of new Set(targets.map((t) => dirname(t)))) {
+    try {
+      const fh = await open(folder, 'r');
+      try {
+        await fh.sync();
+      } finally {
+        await fh.close();
+      }
+    } catch {
+      // e.g. Windows: folders cannot be opened for fsync
+    }
+  }
+}
+
+async function removeAll(paths: readonly string[]): Promise<void> {
+  for (const p of paths) {
+    try {
+      await unlink(p);
+    } catch {
+      // already gone
+    }
+    live.delete(p);
+  }
+}
+
+/** A file-system error becomes a located StopError; a StopError or a bug passes through unchanged. */
+function outputError(target: string, err: unknown): unknown {
+  if (err instanceof StopError) return err;
+  const code = (err as { code?: unknown } | null)?.code;
+  if (typeof code !== 'string' || !code.startsWith('E')) return err;
+  const reason =
+    code === 'ENOENT'
+      ? `the folder ${dirname(target)} does not exist`
+      : code === 'EACCES' || code === 'EPERM'
+        ? 'permission denied'
+        : code === 'ENOSPC'
+          ? 'the disk is full'
+          : code === 'EROFS'
+            ? 'the file system is read-only'
+            : (err as Error).message;
+  return new StopError('output', `cannot be written: ${reason}`, { file: target });
+}

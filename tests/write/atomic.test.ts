@@ -1,0 +1,263 @@
+import { existsSync } from 'node:fs';
+import { mkdir, mkdtemp, readdir, readFile, rm, writeFile } from 'node:fs/promises';
+import { tmpdir } from 'node:os';
+import { basename, dirname, join } from 'node:path';
+import { afterAll, afterEach, beforeEach, describe, expect, it, vi } from 'vitest';
+import { StopError } from '../../src/errors.js';
+import { commitAll, installInterruptCleanup, liveTempFiles, writeFileAtomic } from '../../src/write/atomic.js';
+
+let root: string;
+let dir: string;
+let k = 0;
+
+beforeEach(async () => {
+  root ??= await mkdtemp(join(tmpdir(), 'phasebook-atomic-'));
+  dir = join(root, `case${k++}`);
+  await mkdir(dir);
+});
+afterAll(async () => {
+  await rm(root, { recursive: true, force: true });
+});
+
+const text = (content: string) => async (tmp: string) => writeFile(tmp, content);
+
+async function stopOf(p: Promise<unknown>): Promise<StopError> {
+  try {
+    await p;
+  } catch (err) {
+    expect(err).toBeInstanceOf(StopError);
+    return err as StopError;
+  }
+  throw new Error('expected a StopError');
+}
+
+describe('writeFileAtomic', () => {
+  it('writes through a temp file in the same folder and leaves only the target', async () => {
+    const target = join(dir, 'results.csv');
+    let seenTmp = '';
+    await writeFileAtomic(target, async (tmp) => {
+      seenTmp = tmp;
+      await writeFile(tmp, 'a,b\n');
+    });
+    expect(dirname(seenTmp)).toBe(dir);
+    expect(basename(seenTmp)).toMatch(/^\.phasebook-tmp-[0-9a-f]{12}-results\.csv$/);
+    expect(await readFile(target, 'utf8')).toBe('a,b\n');
+    expect(await readdir(dir)).toEqual(['results.csv']);
+    expect(liveTempFiles()).toEqual([]);
+  });
+
+  it('refuses an existing target without force, before writing anything', async () => {
+    const target = join(dir, 'out.csv');
+    await writeFile(target, 'old');
+    const write = vi.fn(text('new'));
+    const err = await stopOf(writeFileAtomic(target, write));
+    expect(err.kind).toBe('output');
+    expect(err.describe()).toBe(`${target}: already exists; use --force to replace it`);
+    expect(write).not.toHaveBeenCalled();
+    expect(await readFile(target, 'utf8')).toBe('old');
+  });
+
+  it('replaces an existing target with force and leaves no backup', async () => {
+    const target = join(dir, 'out.csv');
+    await writeFile(target, 'old');
+    await writeFileAtomic(target, text('new'), { force: true });
+    expect(await readFile(target, 'utf8')).toBe('new');
+    expect(await readdir(dir)).toEqual(['out.csv']);
+  });
+
+  it.each([
+    {
+      name: 'a StopError from the writer passes through unchanged',
+      fail: async (tmp: string) => {
+        await writeFile(tmp, 'half');
+        throw new StopError('output', 'the writer gave up', { file: 'x' });
+      },
+      check: (err: unknown) => expect((err as StopError).message).toBe('the writer gave up'),
+    },
+    {
+      name: 'a file-system error becomes a located StopError',
+      fail: async (tmp: string) => {
+        await writeFile(tmp, 'half');
+        throw Object.assign(new Error('ENOSPC: no space left on device, write'), { code: 'ENOSPC' });
+      },
+      check: (err: unknown) => {
+        expect(err).toBeInstanceOf(StopError);
+        expect((err as StopError).message).toBe('cannot be written: the disk is full');
+      },
+    },
+    {
+      name: 'a programming error passes through as it is',
+      fail: async (tmp: string) => {
+        await writeFile(tmp, 'half');
+        throw new TypeError('bug');
+      },
+      check: (err: unknown) => expect(err).toBeInstanceOf(TypeError),
+    },
+  ])('on failure removes the temp and keeps the old file: $name', async ({ fail, check }) => {
+    const target = join(dir, 'out.csv');
+    await writeFile(target, 'old');
+    let caught: unknown;
+    try {
+      await writeFileAtomic(target, fail, { force: true });
+    } catch (err) {
+      caught = err;
+    }
+    check(caught);
+    expect(await readFile(target, 'utf8')).toBe('old');
+    expect(await readdir(dir)).toEqual(['out.csv']);
+    expect(liveTempFiles()).toEqual([]);
+  });
+
+  it('a missing folder is a located output stop', async () => {
+    const target = join(dir, 'no-such-folder', 'out.csv');
+    const err = await stopOf(writeFileAtomic(target, text('x')));
+    expect(err.kind).toBe('output');
+    expect(err.describe()).toBe(`${target}: cannot be written: the folder ${dirname(target)} does not exist`);
+  });
+
+  it('a target that is a folder is refused even with force', async () => {
+    const target = join(dir, 'folder');
+    await mkdir(target);
+    const err = await stopOf(writeFileAtomic(target, text('x'), { force: true }));
+    expect(err.describe()).toBe(`${target}: is a folder, expected a file name to write`);
+  });
+});
+
+describe('commitAll', () => {
+  it('writes every output', async () => {
+    const a = join(dir, 'a.xlsx');
+    const b = join(dir, 'b.csv');
+    await commitAll([
+      { target: a, write: text('A') },
+      { target: b, write: text('B') },
+    ]);
+    expect(await readFile(a, 'utf8')).toBe('A');
+    expect(await readFile(b, 'utf8')).toBe('B');
+    expect((await readdir(dir)).sort()).toEqual(['a.xlsx', 'b.csv']);
+  });
+
+  it('checks every target before writing any (all existing ones named)', async () => {
+    const a = join(dir, 'a.xlsx');
+    const b = join(dir, 'b.csv');
+    const c = join(dir, 'c.csv');
+    await writeFile(b, 'old b');
+    await writeFile(c, 'old c');
+    const write = vi.fn(text('new'));
+    const err = await stopOf(
+      commitAll([
+        { target: a, write },
+        { target: b, write },
+        { target: c, write },
+      ]),
+    );
+    expect(err.kind).toBe('output');
+    expect(err.message).toBe(`2 outputs already exist (${b}, ${c}); use --force to replace them`);
+    expect(write).not.toHaveBeenCalled();
+    expect(existsSync(a)).toBe(false);
+  });
+
+  it('a failure in the second output leaves none of the new files', async () => {
+    const a = join(dir, 'a.xlsx');
+    const b = join(dir, 'b.csv');
+    await writeFile(a, 'old a');
+    const err = await stopOf(
+      commitAll(
+        [
+          { target: a, write: text('new a') },
+          {
+            target: b,
+            write: async (tmp) => {
+              await writeFile(tmp, 'half');
+              throw Object.assign(new Error('EACCES'), { code: 'EACCES' });
+            },
+          },
+        ],
+        { force: true },
+      ),
+    );
+    expect(err.describe()).toBe(`${b}: cannot be written: permission denied`);
+    expect(await readFile(a, 'utf8')).toBe('old a');
+    expect(await readdir(dir)).toEqual(['a.xlsx']);
+    expect(liveTempFiles()).toEqual([]);
+  });
+
+  it.each([
+    { name: 'with force, an old first file is put back', oldA: 'old a' as string | null },
+    { name: 'a new first file is removed', oldA: null },
+  ])('a rename failing part-way undoes the renames before it: $name', async ({ oldA }) => {
+    const a = join(dir, 'a.xlsx');
+    const b = join(dir, 'b.csv');
+    if (oldA !== null) await writeFile(a, oldA);
+    // The second writer turns its own target into a folder, so its rename fails after a's.
+    const err = await stopOf(
+      commitAll(
+        [
+          { target: a, write: text('new a') },
+          {
+            target: b,
+            write: async (tmp) => {
+              await writeFile(tmp, 'new b');
+              await mkdir(b);
+            },
+          },
+        ],
+        { force: true },
+      ),
+    );
+    expect(err.kind).toBe('output');
+    expect(err.location.file).toBe(b);
+    if (oldA === null) expect(existsSync(a)).toBe(false);
+    else expect(await readFile(a, 'utf8')).toBe(oldA);
+    expect((await readdir(dir)).sort()).toEqual(oldA === null ? ['b.csv'] : ['a.xlsx', 'b.csv']);
+    expect(liveTempFiles()).toEqual([]);
+  });
+});
+
+describe('installInterruptCleanup', () => {
+  const events = ['SIGINT', 'SIGTERM', 'exit'] as const;
+  let before: Record<string, Function[]>;
+
+  beforeEach(() => {
+    before = Object.fromEntries(events.map((e) => [e, process.listeners(e)]));
+  });
+  afterEach(() => {
+    // Remove what the test installed so the test worker keeps its own handlers only.
+    for (const e of events) {
+      for (const l of process.listeners(e)) if (!before[e]!.includes(l)) process.removeListener(e, l as () => void);
+    }
+    vi.restoreAllMocks();
+  });
+
+  const added = (e: (typeof events)[number]) => process.listeners(e).filter((l) => !before[e]!.includes(l));
+
+  it('installs one handler per event however often it is called', () => {
+    installInterruptCleanup();
+    installInterruptCleanup();
+    for (const e of events) expect(added(e)).toHaveLength(1);
+  });
+
+  it.each([
+    ['SIGINT', 130],
+    ['SIGTERM', 143],
+  ] as const)('on %s removes live temp files, then exits with %d', async (signal, code) => {
+    // Exit codes: 128 + signal number (common practice; POSIX shells report a death by signal that way).
+    installInterruptCleanup();
+    const [handler] = added(signal);
+    const exit = vi.spyOn(process, 'exit').mockImplementation((() => undefined) as never);
+    const target = join(dir, 'out.csv');
+    let tmpSeen = '';
+    const run = writeFileAtomic(target, async (tmp) => {
+      tmpSeen = tmp;
+      await writeFile(tmp, 'partial');
+      expect(existsSync(tmp)).toBe(true);
+      (handler as () => void)();
+      expect(existsSync(tmp)).toBe(false);
+    });
+    await expect(run).rejects.toBeDefined(); // exit was mocked, so the write goes on and fails
+    expect(exit).toHaveBeenCalledWith(code);
+    expect(tmpSeen).not.toBe('');
+    expect(existsSync(target)).toBe(false);
+    expect(await readdir(dir)).toEqual([]);
+    expect(liveTempFiles()).toEqual([]);
+  });
+});
