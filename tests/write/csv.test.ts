@@ -111,7 +111,7 @@ describe('writeResultsCsv', () => {
       columns: [
         { kind: 'text', values: ['0012', '=1+1', 'S3'] },
         { kind: 'text', values: [null, 'a, "b"', -2.5] }, // -2.5 here is a numeric XLSX input cell
-        { kind: 'text', values: ['-0.02', ' 12.5 ', 12] }, // CSV input cells are text: "-0.02" is escaped
+        { kind: 'text', values: ['-0.02', ' 12.5 ', 12] }, // CSV input cells are text: "-0.02" is a number as written, kept
         { kind: 'number', values: Float64Array.from([-2.5, NaN, 0.1 + 0.2]) },
         { kind: 'text', values: ['', 'REC_LOW;RPD_HIGH', '@x'] },
       ],
@@ -121,7 +121,7 @@ describe('writeResultsCsv', () => {
     expect(bytes.subarray(0, 3).equals(Buffer.from([0xef, 0xbb, 0xbf]))).toBe(false);
     expect(bytes.toString('utf8')).toBe(
       'sample_id,note,extract_conc,pre_extraction_conc [ng/mL],flags\n' +
-        `0012,,"'-0.02",-2.5,\n` +
+        `0012,,-0.02,-2.5,\n` +
         `"'=1+1","a, ""b"""," 12.5 ",,REC_LOW;RPD_HIGH\n` +
         `S3,-2.5,12,0.30000000000000004,"'@x"\n`,
     );
