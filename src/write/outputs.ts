@@ -6,8 +6,10 @@ import { commitAll, type WriteJob } from './atomic.js';
 import { writeResultsCsv } from './csv.js';
 import { outputColumns } from './output-columns.js';
 import { writeWorkbook, type RunInfo } from './workbook.js';
+import { htmlReportJobs } from '../report/html.js';
+import type { TrendSeries } from '../history/trends.js';
 
-export const OUTPUT_KINDS = ['csv', 'xlsx'] as const;
+export const OUTPUT_KINDS = ['csv', 'xlsx', 'html'] as const;
 export type OutputKind = (typeof OUTPUT_KINDS)[number];
 
 export interface WriteOptions {
@@ -19,16 +21,18 @@ export interface WriteOptions {
   force?: boolean;
   /** Facts about the run for the Provenance sheet. */
   run: RunInfo;
+  /** QC history series (history/trends.ts) for the report's control charts and the workbook's Trends sheet. */
+  history?: readonly TrendSeries[];
 }
 
-/** Paths of the outputs of a worklist: `<stem>.results.csv`, `<stem>.xlsx`. */
-export function outputPaths(worklistPath: string, outDir: string): Record<OutputKind, string> {
+/** Paths of the single-file outputs of a worklist: `<stem>.results.csv`, `<stem>.xlsx` (reports: one per batch). */
+export function outputPaths(worklistPath: string, outDir: string): Record<'csv' | 'xlsx', string> {
   const stem = basename(worklistPath, extname(worklistPath));
   return { csv: join(outDir, `${stem}.results.csv`), xlsx: join(outDir, `${stem}.xlsx`) };
 }
 
 /** Write the chosen outputs atomically: all of them, or none (DESIGN.md §7). */
-export async function writeOutputs(result: RecalcResult, options: WriteOptions): Promise<Record<string, string>> {
+export async function writeOutputs(result: RecalcResult, options: WriteOptions): Promise<Record<string, string[]>> {
   const kinds = options.outputs ?? OUTPUT_KINDS;
   try {
     await mkdir(options.outDir, { recursive: true });
@@ -54,8 +58,15 @@ export async function writeOutputs(result: RecalcResult, options: WriteOptions):
   if (kinds.includes('xlsx')) {
     jobs.push({ target: paths.xlsx, write: (tmp) => writeWorkbook(tmp, result, { run: options.run }) });
   }
+  const written: Record<string, string[]> = {};
+  if (kinds.includes('csv')) written.csv = [paths.csv];
+  if (kinds.includes('xlsx')) written.xlsx = [paths.xlsx];
+  if (kinds.includes('html')) {
+    const stem = basename(result.worklist.path, extname(result.worklist.path));
+    const html = htmlReportJobs(result, { outDir: options.outDir, stem, history: options.history, run: options.run });
+    jobs.push(...html);
+    written.html = html.map((j) => j.target);
+  }
   await commitAll(jobs, { force: options.force });
-  const written: Record<string, string> = {};
-  for (const k of kinds) written[k] = paths[k];
   return written;
 }

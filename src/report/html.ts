@@ -1,0 +1,282 @@
+/**
+ * The HTML report: one self-contained file per batch, readable offline. It holds
+ * the batch verdict, the summary and flags tables, per analyte a chart of this
+ * batch's recoveries against their limits and, with a QC history, a control
+ * chart per control type with the mean, ±2s and ±3s lines and the Westgard rule
+ * violations marked.
+ *
+ * Self-contained: inline CSS, inline SVG, no scripts, no external URL; a
+ * Content-Security-Policy forbids loading anything. Every piece of worklist and
+ * method text is escaped (markup.ts).
+ */
+import { writeFile } from 'node:fs/promises';
+import { basename, extname, join } from 'node:path';
+import { MIN_POINTS, type TrendSeries } from '../history/trends.js';
+import type { Flag } from '../issues.js';
+import type { RecalcResult } from '../pipeline.js';
+import type { GroupSummary } from '../summary/summarize.js';
+import type { WriteJob } from '../write/atomic.js';
+import type { RunInfo } from '../write/workbook.js';
+import { CONTROL_LAYERS, RECOVERY_LAYERS, controlChartSpec, recoveryChartSpec, renderSvg, type RecoveryPoint } from './charts.js';
+import { html, trusted, type Markup } from './markup.js';
+import { REPORT_CSS } from './style.js';
+
+export interface ReportOptions {
+  /** The batch to report (default the first batch of the worklist). */
+  batch?: string;
+  /** Series from the QC history (see history/trends.ts); without it the report has no control charts. */
+  history?: readonly TrendSeries[];
+  run: RunInfo;
+}
+
+export interface ReportJobOptions {
+  outDir: string;
+  /** File name stem, usually the worklist's name without extension. */
+  stem: string;
+  history?: readonly TrendSeries[];
+  run: RunInfo;
+}
+
+const CSP = "default-src 'none'; style-src 'unsafe-inline'; img-src data:; base-uri 'none'; form-action 'none'";
+
+/** Batch ids in the order they first appear in the worklist. */
+export function reportBatches(result: RecalcResult): string[] {
+  const batch = result.table.texts.get('batch_id') ?? [];
+  const seen = new Set<string>();
+  for (let r = 0; r < result.rowsOut; r++) seen.add(batch[r] ?? '');
+  return seen.size ? [...seen] : [''];
+}
+
+/**
+ * One path per batch: `<stem>.report.html` for a worklist without batch ids,
+ * else `<stem>.<batch>.report.html`, the batch id reduced to letters, digits,
+ * `.`, `_` and `-` (a clash gets `-2`, `-3`, … compared without case).
+ */
+export function htmlReportPaths(result: RecalcResult, options: { outDir: string; stem: string }): Array<{ batch: string; path: string }> {
+  const batches = reportBatches(result);
+  if (batches.length === 1 && batches[0] === '') return [{ batch: '', path: join(options.outDir, `${options.stem}.report.html`) }];
+  const used = new Set<string>();
+  return batches.map((batch) => {
+    const base = batch.normalize('NFKD').replace(/[^A-Za-z0-9._-]+/g, '-').replace(/^[-.]+|[-.]+$/g, '').slice(0, 60) || 'batch';
+    let slug = base;
+    for (let k = 2; used.has(slug.toLowerCase()); k++) slug = `${base}-${k}`;
+    used.add(slug.toLowerCase());
+    return { batch, path: join(options.outDir, `${options.stem}.${slug}.report.html`) };
+  });
+}
+
+/** Write jobs for the reports, to join the other outputs in one all-or-nothing commit (write/atomic.ts). */
+export function htmlReportJobs(result: RecalcResult, options: ReportJobOptions): WriteJob[] {
+  return htmlReportPaths(result, options).map(({ batch, path }) => ({
+    target: path,
+    write: async (tmp: string) => {
+      await writeFile(tmp, await renderReport(result, { batch, history: options.history, run: options.run }), 'utf8');
+    },
+  }));
+}
+
+/** The stem the other outputs use: the worklist's file name without its extension. */
+export function reportStem(result: RecalcResult): string {
+  return basename(result.worklist.path, extname(result.worklist.path));
+}
+
+/** The whole report of one batch as an HTML document. */
+export async function renderReport(result: RecalcResult, options: ReportOptions): Promise<string> {
+  const batch = options.batch ?? reportBatches(result)[0]!;
+  const rows = rowsOfBatch(result, batch);
+  const groups = result.groups.filter((g) => g.batch === batch);
+  const failed = groups.filter((g) => g.verdict === 'fail');
+  const verdict = failed.length ? 'fail' : 'pass';
+  const analytes = [...new Set(rows.map((r) => text(result, 'analyte', r)))];
+  const inBatch = new Set(rows);
+  const flags = result.flags.filter((f) => inBatch.has(f.row));
+  const title = batch ? `Batch ${batch}` : `Worklist ${result.worklist.name}`;
+
+  const recoverySections: Markup[] = [];
+  for (const analyte of analytes) recoverySections.push(await recoverySection(result, rows, analyte));
+  const historySections: Markup[] = [];
+  if (options.history) {
+    for (const analyte of analytes) historySections.push(await historySection(result, batch, options.history, analyte));
+  }
+  const m = result.method;
+
+  const doc = html`<!doctype html>
+<html lang="en">
+<head>
+<meta charset="utf-8">
+<meta http-equiv="Content-Security-Policy" content="${CSP}">
+<meta name="viewport" content="width=device-width, initial-scale=1">
+<meta name="generator" content="phasebook ${options.run.version}">
+<title>${title}: ${verdict.toUpperCase()} (phasebook report)</title>
+<style>${trusted(REPORT_CSS)}</style>
+</head>
+<body>
+<main>
+<header>
+<h1>${title}</h1>
+<p class="lead">QC report of ${result.worklist.name}, recalculated with method ${m.title || m.name}</p>
+<p><span class="verdict ${verdict}" id="verdict">${verdict.toUpperCase()}</span></p>
+${failed.length ? html`<ul class="reasons">${failed.map((g) => html`<li><strong>${g.analyte}</strong>: ${g.reasons.join('; ')}</li>`)}</ul>` : ''}
+<dl class="facts">
+<dt>Worklist</dt><dd>${result.worklist.name} (${result.worklist.bytes} bytes)</dd>
+<dt>Worklist SHA-256</dt><dd class="mono">${result.worklist.sha256}</dd>
+<dt>Method</dt><dd>${m.name}${m.version !== undefined ? `, version ${m.version}` : ''}${m.title && m.title !== m.name ? ` (${m.title})` : ''}</dd>
+<dt>Method SHA-256</dt><dd class="mono">${m.sha256}</dd>
+<dt>Rows in this batch</dt><dd>${rows.length} of ${result.rowsOut}</dd>
+<dt>Run time</dt><dd>${options.run.timestamp}</dd>
+<dt>phasebook</dt><dd>${options.run.version}</dd>
+</dl>
+</header>
+<section id="summary">
+<h2>Summary</h2>
+${summaryTable(groups)}
+</section>
+<section id="flags">
+<h2>Flags</h2>
+${flagsTable(result, flags)}
+</section>
+<section id="recoveries">
+<h2>Recoveries in this batch</h2>
+<p class="note">Each bar spans the acceptance limits that judged that control; the mark is its recovery.</p>
+${recoverySections}
+</section>
+${
+  options.history
+    ? html`<section id="history">
+<h2>Across runs: control charts</h2>
+<p class="note">Recoveries from the QC history in run order, this batch in dark marks. Lines: mean, ±2s (warning) and ±3s (control), from all points of the series once it has ${MIN_POINTS} or more (US EPA SW-846 Method 8000 practice). Rings mark points that broke a Westgard rule (Westgard et al., Clin. Chem. 1981).</p>
+${historySections}
+</section>`
+    : ''
+}
+<footer>Written by phasebook ${options.run.version} at ${options.run.timestamp}. This file is complete in itself: no scripts, nothing loaded from elsewhere.</footer>
+</main>
+</body>
+</html>
+`;
+  return doc.text;
+}
+
+function rowsOfBatch(result: RecalcResult, batch: string): number[] {
+  const out: number[] = [];
+  for (let r = 0; r < result.rowsOut; r++) if (text(result, 'batch_id', r) === batch) out.push(r);
+  return out;
+}
+
+function text(result: RecalcResult, field: string, r: number): string {
+  return result.table.texts.get(field)?.[r] ?? '';
+}
+
+function summaryTable(groups: readonly GroupSummary[]): Markup {
+  if (groups.length === 0) return html`<p class="note">No rows.</p>`;
+  return html`<table id="summary-table">
+<thead><tr><th>Analyte</th><th>Verdict</th><th>Rows</th><th>Recovery (%)</th><th class="num">Max RPD (%)</th><th>Blank</th><th class="num">Mean E (%)</th><th>Reasons</th></tr></thead>
+<tbody>
+${groups.map(
+  (g) => html`<tr class="${g.verdict}"><td>${g.analyte}</td><td class="status">${g.verdict.toUpperCase()}</td><td>${counts(g)}</td><td>${g.recoveries.length ? g.recoveries.map((s) => html`<div>${recoveryText(s)}</div>`) : '–'}</td><td class="num">${num(g.maxRpd, 1)}</td><td>${g.blankStatus}</td><td class="num">${num(g.meanEfficiencyPct, 1)}</td><td>${g.reasons.length ? g.reasons.join('; ') : '–'}</td></tr>
+`,
+)}</tbody>
+</table>`;
+}
+
+function counts(g: GroupSummary): string {
+  return Object.entries(g.counts)
+    .filter(([, n]) => n > 0)
+    .map(([t, n]) => `${t} ${n}`)
+    .join(', ');
+}
+
+function recoveryText(s: GroupSummary['recoveries'][number]): string {
+  const what = s.level ? `${s.type} ${s.level}` : s.type;
+  if (s.n === 1) return `${what}: ${num(s.mean, 1)}${s.outside ? ' (outside limits)' : ''}`;
+  return `${what}: mean ${num(s.mean, 1)}, ${num(s.min, 1)}–${num(s.max, 1)}, SD ${num(s.sd, 1)}, n ${s.n}${s.outside ? `, ${s.outside} outside limits` : ''}`;
+}
+
+function flagsTable(result: RecalcResult, flags: readonly Flag[]): Markup {
+  if (flags.length === 0) return html`<p class="note" id="no-flags">No flags in this batch.</p>`;
+  return html`<table id="flags-table">
+<thead><tr><th class="num">Row</th><th>Sample</th><th>Analyte</th><th>Type</th><th>Code</th><th>Reason</th><th class="num">Value</th><th class="num">Limit</th></tr></thead>
+<tbody>
+${flags.map(
+  (f) => html`<tr><td class="num">${result.raw.rowNumbers[f.row]}</td><td>${text(result, 'sample_id', f.row)}</td><td>${text(result, 'analyte', f.row)}</td><td>${result.table.sampleType[f.row] ?? ''}</td><td class="mono">${f.code}</td><td>${f.message}</td><td class="num">${value(f.value)}</td><td class="num">${value(f.limit)}</td></tr>
+`,
+)}</tbody>
+</table>`;
+}
+
+async function recoverySection(result: RecalcResult, rows: readonly number[], analyte: string): Promise<Markup> {
+  const recovery = result.computed.get('spike_recovery_pct');
+  const points: RecoveryPoint[] = [];
+  const labels = new Set<string>();
+  for (const r of rows) {
+    if (text(result, 'analyte', r) !== analyte || result.qc.status[r] === '' || !recovery || !Number.isFinite(recovery[r]!)) continue;
+    const sampleId = text(result, 'sample_id', r);
+    const rowNumber = result.raw.rowNumbers[r]!;
+    let label = sampleId || `row ${rowNumber}`;
+    if (labels.has(label)) label = `${label} (row ${rowNumber})`;
+    labels.add(label);
+    const lim = result.qc.limits[r]?.recovery;
+    points.push({
+      label,
+      sampleId,
+      sampleType: result.table.sampleType[r] ?? '',
+      rowNumber,
+      value: recovery[r]!,
+      low: lim ? lim[0] : NaN,
+      high: lim ? lim[1] : NaN,
+    });
+  }
+  if (points.length === 0) return html`<h3>${analyte}</h3><p class="note">No control recoveries for ${analyte} in this batch.</p>`;
+  const svg = await renderSvg(recoveryChartSpec(points, { analyte }));
+  const withLimits = points.filter((p) => Number.isFinite(p.low)).length;
+  const outside = points.filter((p) => p.value < p.low || p.value > p.high).length;
+  return html`<h3>${analyte}</h3>
+<figure class="chart" data-chart="recovery" data-analyte="${analyte}" data-points="${points.length}" data-limits="${withLimits}" data-layer="${RECOVERY_LAYERS.points}">
+${trusted(svg)}
+<figcaption>${points.length} control recover${points.length === 1 ? 'y' : 'ies'} of ${analyte}; ${outside} outside ${outside === 1 ? 'its limits' : 'their limits'}.</figcaption>
+</figure>`;
+}
+
+async function historySection(result: RecalcResult, batch: string, history: readonly TrendSeries[], analyte: string): Promise<Markup> {
+  const series = history.filter((s) => s.analyte === analyte);
+  if (series.length === 0) return html`<h3>${analyte}</h3><p class="note">No recoveries of ${analyte} in the QC history.</p>`;
+  const parts: Markup[] = [];
+  for (const s of series) {
+    const isCurrent = (i: number) => s.points[i]!.worklistSha256 === result.worklist.sha256 && s.points[i]!.batchId === batch;
+    const svg = await renderSvg(controlChartSpec(s, { isCurrent }));
+    const l = s.limits;
+    const caption = l.sufficient
+      ? `n ${l.n}, mean ${num(l.mean, 2)} %, SD ${num(l.sd, 2)} %; warning limits ${num(l.warningLow, 1)}–${num(l.warningHigh, 1)} %, control limits ${num(l.controlLow, 1)}–${num(l.controlHigh, 1)} %; ${s.violations.length} rule violation${s.violations.length === 1 ? '' : 's'}.`
+      : `n ${l.n}${Number.isFinite(l.mean) ? `, mean ${num(l.mean, 2)} %` : ''}${Number.isFinite(l.sd) ? `, SD ${num(l.sd, 2)} %` : ''}; no in-house limits yet: ${MIN_POINTS} points needed, so no rule is judged.`;
+    const marked = new Set(s.violations.map((v) => v.index)).size;
+    parts.push(html`<h3>${analyte}, ${s.sampleType}</h3>
+<figure class="chart" data-chart="control" data-analyte="${analyte}" data-sample-type="${s.sampleType}" data-points="${s.points.length}" data-violations="${marked}" data-layer="${CONTROL_LAYERS.points}">
+${trusted(svg)}
+<figcaption>${caption}</figcaption>
+</figure>
+${s.violations.length ? violationsTable(s, isCurrent) : ''}`);
+  }
+  return html`${parts}`;
+}
+
+function violationsTable(s: TrendSeries, isCurrent: (i: number) => boolean): Markup {
+  return html`<table class="violations">
+<thead><tr><th>Rule</th><th>Kind</th><th>Batch</th><th>Sample</th><th>Worklist</th><th class="num">Point</th><th class="num">Recovery (%)</th></tr></thead>
+<tbody>
+${s.violations.map((v) => {
+  const p = s.points[v.index]!;
+  return html`<tr class="${isCurrent(v.index) ? 'current' : ''}"><td class="mono">${v.rule}</td><td class="${v.severity === 'reject' ? 'fail' : ''}">${v.severity === 'reject' ? 'rejection' : 'warning'}</td><td>${p.batchId}</td><td>${p.sampleId}</td><td>${p.worklistName}</td><td class="num">${v.index + 1}</td><td class="num">${num(v.value, 1)}</td></tr>
+`;
+})}</tbody>
+</table>`;
+}
+
+function num(x: number, digits: number): string {
+  return Number.isFinite(x) ? x.toFixed(digits) : '–';
+}
+
+function value(v: number | string | undefined): string {
+  if (v === undefined) return '';
+  if (typeof v === 'number') return Number.isFinite(v) ? String(Number(v.toPrecision(4))) : '–';
+  return v;
+}
