@@ -13,6 +13,7 @@ import { findLinks, type Links } from './engine/links.js';
 import { compileMethod, evaluateFormulas } from './engine/evaluate.js';
 import type { Flag, Note } from './issues.js';
 import { loadMethod } from './method/load.js';
+import type { OnProgress } from './progress.js';
 import type { Method } from './method/types.js';
 import { assessQc, type QcResult } from './qc/assess.js';
 import { readWorklist } from './read/worklist.js';
@@ -28,6 +29,8 @@ export interface RecalcOptions {
   maxBytes?: number;
   /** Refuse XLSX files that unpack past this many bytes (default 512 MiB). */
   maxUnpackedBytes?: number;
+  /** Told how far the run has got (rows read, evaluated); the CLI draws it on a terminal (progress.ts). */
+  onProgress?: OnProgress;
 }
 
 export interface WorklistInfo {
@@ -66,20 +69,25 @@ export async function recalculate(worklistPath: string, options: RecalcOptions):
     sheet: options.sheet,
     maxBytes: options.maxBytes,
     maxUnpackedBytes: options.maxUnpackedBytes,
+    onRows: options.onProgress && ((rows, fraction) => options.onProgress!({ stage: 'read', rows, fraction })),
   });
+  options.onProgress?.({ stage: 'read', rows: raw.rowCount, totalRows: raw.rowCount, fraction: 1 });
   const worklist = await describeFile(worklistPath);
-  return recalculateTable(raw, { method, worklist, compiled });
+  return recalculateTable(raw, { method, worklist, compiled, onProgress: options.onProgress });
 }
 
 /** The stages after reading, for callers that already hold a RawTable. */
 export function recalculateTable(
   raw: RawTable,
-  ctx: { method: Method; worklist: WorklistInfo; compiled?: ReturnType<typeof compileMethod> },
+  ctx: { method: Method; worklist: WorklistInfo; compiled?: ReturnType<typeof compileMethod>; onProgress?: OnProgress },
 ): RecalcResult {
   const { method } = ctx;
+  // The stages after reading take about equal time; each one done moves "evaluated" on.
+  const stageDone = (k: number) => ctx.onProgress?.({ stage: 'evaluate', rows: Math.round((raw.rowCount * k) / 5), totalRows: raw.rowCount });
   const compiled = ctx.compiled ?? compileMethod(method);
   const columnMap = mapColumns(raw, method);
   const table = buildTable(raw, columnMap, method);
+  stageDone(1);
   const texts = table.texts;
   const links = findLinks({
     rowCount: table.rowCount,
@@ -89,6 +97,7 @@ export function recalculateTable(
     analyte: texts.get('analyte')!,
     batchId: texts.get('batch_id')!,
   });
+  stageDone(2);
   const surrogate = new Float64Array(table.rowCount);
   for (let r = 0; r < table.rowCount; r++) {
     const a = table.analyteIndex[r]!;
@@ -104,6 +113,7 @@ export function recalculateTable(
     pairRow: links.pairRow,
     rowError: table.rowError,
   });
+  stageDone(3);
   const qc = assessQc({
     method,
     rowCount: table.rowCount,
@@ -116,6 +126,7 @@ export function recalculateTable(
     links,
     rowError: table.rowError,
   });
+  stageDone(4);
   const flags = [...table.errors, ...qc.flags].sort((a, b) => a.row - b.row);
   const { groups, overall } = summarize({
     rowCount: table.rowCount,
@@ -126,7 +137,8 @@ export function recalculateTable(
     flags,
     qc,
   });
-  const notes = [...table.notes, ...evaluated.notes].sort((a, b) => a.row - b.row);
+  const notes = [...table.notes, ...evaluated.notes, ...qc.notes].sort((a, b) => a.row - b.row);
+  stageDone(5);
   return {
     worklist: ctx.worklist,
     method,
@@ -162,9 +174,17 @@ const CODE_ORDER = [
 ];
 
 function joinRowFlags(n: number, flags: readonly Flag[]): string[] {
-  const perRow: Set<string>[] = Array.from({ length: n }, () => new Set());
-  for (const f of flags) perRow[f.row]?.add(f.code);
-  return perRow.map((s) => (s.size === 0 ? '' : CODE_ORDER.filter((c) => s.has(c)).join(';')));
+  // Sets only for rows that have a flag: most rows have none.
+  const perRow = new Map<number, Set<string>>();
+  for (const f of flags) {
+    if (!(f.row >= 0 && f.row < n)) continue;
+    let codes = perRow.get(f.row);
+    if (!codes) perRow.set(f.row, (codes = new Set()));
+    codes.add(f.code);
+  }
+  const out = new Array<string>(n).fill('');
+  for (const [row, codes] of perRow) out[row] = CODE_ORDER.filter((c) => codes.has(c)).join(';');
+  return out;
 }
 
 export async function describeFile(path: string): Promise<WorklistInfo> {

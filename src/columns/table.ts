@@ -166,6 +166,17 @@ export function buildTable(raw: RawTable, map: ColumnMap, method: Method): WorkT
     for (const f of ['extract_conc', 'sample_volume', 'solvent_volume'] as const) {
       if (Number.isNaN(get(f)[r]!)) fail(r, map.fields.get(f)?.header ?? f, `expected a value for ${f}, got an empty cell`);
     }
+    const type = sampleType[r];
+    if (!rowError[r] && (type === 'lcs' || type === 'lcsd' || type === 'ms' || type === 'msd' || type === 'qc')) {
+      // A spiked control without its spike cannot be judged: it must not pass silently.
+      const spike = get('spike_conc')[r]!;
+      if (!(spike > 0)) {
+        const header = map.fields.get('spike_conc')?.header ?? 'spike_conc';
+        const want = `expected a spike concentration above 0 for ${type === 'qc' ? 'a' : 'an'} ${type} row`;
+        if (Number.isNaN(spike)) fail(r, header, `${want}, got an empty cell`);
+        else fail(r, header, want, String(spike));
+      }
+    }
     if (!rowError[r] && Number.isNaN(get('partition_coeff')[r]!)) {
       notes.push({ row: r, column: 'extraction_efficiency_pct', message: 'no partition coefficient: extraction efficiency taken as 100 %' });
     }

@@ -31,44 +31,36 @@ export function findLinks(t: LinkInput): Links {
   const pairRow = new Int32Array(n).fill(-1);
   const noParent = new Uint8Array(n);
 
-  const index = (type: SampleType) => {
-    const m = new Map<string, number[]>();
-    for (let r = 0; r < n; r++) {
-      if (t.sampleType[r] !== type) continue;
-      const k = key(t.analyte[r]!, t.sampleId[r]!);
-      const list = m.get(k);
-      if (list) list.push(r);
-      else m.set(k, [r]);
-    }
-    return m;
-  };
-  const samples = index('sample');
-  const lcsById = index('lcs');
-  const msByParent = new Map<string, number[]>();
-  const lcsByBatch = new Map<string, number[]>();
+  // Look-ups by (analyte, id) through two levels of maps: no key strings are
+  // built per row, and a worklist's repeated ids share their cached hash.
+  const samples = new RowIndex(t.batchId);
+  const lcsById = new RowIndex(t.batchId);
+  const msByParent = new RowIndex(t.batchId);
+  const lcsByBatch = new RowIndex(t.batchId);
   for (let r = 0; r < n; r++) {
-    if (t.sampleType[r] === 'ms') push(msByParent, key(t.analyte[r]!, t.parentId[r]!), r);
-    if (t.sampleType[r] === 'lcs') push(lcsByBatch, key(t.analyte[r]!, t.batchId[r]!), r);
+    const type = t.sampleType[r];
+    if (type === 'sample') samples.add(t.analyte[r]!, t.sampleId[r]!, r);
+    else if (type === 'lcs') {
+      lcsById.add(t.analyte[r]!, t.sampleId[r]!, r);
+      lcsByBatch.add(t.analyte[r]!, t.batchId[r]!, r);
+    } else if (type === 'ms') msByParent.add(t.analyte[r]!, t.parentId[r]!, r);
   }
-  const pick = (rows: number[] | undefined, r: number): number => {
-    if (!rows || rows.length === 0) return -1;
-    return rows.find((x) => t.batchId[x] === t.batchId[r] && x !== r) ?? rows.find((x) => x !== r) ?? -1;
-  };
 
   for (let r = 0; r < n; r++) {
     const type = t.sampleType[r];
     const pid = t.parentId[r]!;
     if (type === 'ms' || type === 'msd' || type === 'dup') {
-      const p = pid === '' ? -1 : pick(samples.get(key(t.analyte[r]!, pid)), r);
+      const p = pid === '' ? -1 : samples.pick(t.analyte[r]!, pid, r);
       parentRow[r] = p;
       if (p < 0) noParent[r] = 1;
       if (type === 'dup') pairRow[r] = p;
-      if (type === 'msd' && pid !== '') pairRow[r] = pick(msByParent.get(key(t.analyte[r]!, pid)), r);
+      // An msd without its native sample gets no RPD either (NO_PARENT: recovery and RPD stay empty).
+      if (type === 'msd' && p >= 0) pairRow[r] = msByParent.pick(t.analyte[r]!, pid, r);
     } else if (type === 'lcsd') {
       let l = -1;
-      if (pid !== '') l = pick(lcsById.get(key(t.analyte[r]!, pid)), r);
+      if (pid !== '') l = lcsById.pick(t.analyte[r]!, pid, r);
       else {
-        const inBatch = lcsByBatch.get(key(t.analyte[r]!, t.batchId[r]!));
+        const inBatch = lcsByBatch.rows(t.analyte[r]!, t.batchId[r]!);
         if (inBatch && inBatch.length === 1) l = inBatch[0]!;
       }
       parentRow[r] = l;
@@ -78,12 +70,52 @@ export function findLinks(t: LinkInput): Links {
   return { parentRow, pairRow, noParent };
 }
 
-function key(a: string, b: string): string {
-  return `${a}\u0000${b}`;
+/** Rows by (analyte, id), in worklist order. */
+class RowIndex {
+  private readonly byAnalyte = new Map<string, Map<string, number[]>>();
+  /** For ids listed many times: their rows by batch, built on first use. */
+  private readonly byBatch = new Map<number[], Map<string, number[]>>();
+
+  constructor(private readonly batchId: readonly string[]) {}
+
+  add(analyte: string, id: string, row: number): void {
+    let ids = this.byAnalyte.get(analyte);
+    if (!ids) this.byAnalyte.set(analyte, (ids = new Map()));
+    const list = ids.get(id);
+    if (list) list.push(row);
+    else ids.set(id, [row]);
+  }
+
+  rows(analyte: string, id: string): number[] | undefined {
+    return this.byAnalyte.get(analyte)?.get(id);
+  }
+
+  /**
+   * The row for `row` to link to: the first listed in the same batch (other than
+   * `row` itself), else the first listed; −1 when none.
+   */
+  pick(analyte: string, id: string, row: number): number {
+    const rows = this.rows(analyte, id);
+    if (!rows || rows.length === 0) return -1;
+    const batch = this.batchId[row];
+    let sameBatch: number[] = rows;
+    if (rows.length > FEW) {
+      let m = this.byBatch.get(rows);
+      if (!m) {
+        m = new Map();
+        for (const x of rows) {
+          const list = m.get(this.batchId[x]!);
+          if (list) list.push(x);
+          else m.set(this.batchId[x]!, [x]);
+        }
+        this.byBatch.set(rows, m);
+      }
+      sameBatch = m.get(batch!) ?? [];
+    }
+    for (const x of sameBatch) if (x !== row && this.batchId[x] === batch) return x;
+    return rows[0] !== row ? rows[0]! : rows.length > 1 ? rows[1]! : -1;
+  }
 }
 
-function push(m: Map<string, number[]>, k: string, v: number): void {
-  const list = m.get(k);
-  if (list) list.push(v);
-  else m.set(k, [v]);
-}
+/** Lists longer than this are split by batch before picking (ids reused in every batch). */
+const FEW = 8;

@@ -8,6 +8,9 @@ import { isCanonicalField, type CanonicalField, type SampleType } from '../colum
 import { GENERIC_LIMITS, GENERIC_QC } from './defaults.js';
 import type { AnalyteInfo, FieldConfig, FormulaDef, LimitTable, Method } from './types.js';
 
+/** Significance levels of the Dixon's Q table phasebook carries (Rorabacher, Anal. Chem. 1991). */
+const DIXON_ALPHAS = [0.1, 0.05, 0.04, 0.02, 0.01];
+
 const SCHEMA_URL = new URL('../../templates/method.schema.json', import.meta.url);
 
 type AjvClass = typeof AjvModule.default;
@@ -136,6 +139,13 @@ export function parseMethod(text: string, options: { file: string }): Method {
     };
   });
 
+  const outlierTest = raw.qc?.outlier_test ?? GENERIC_QC.outlierTest;
+  const alpha = raw.qc?.alpha ?? GENERIC_QC.alpha;
+  if (outlierTest === 'dixon' && !DIXON_ALPHAS.some((a) => Math.abs(a - alpha) < 1e-12)) {
+    // Dixon's critical values exist only as a table (Rorabacher 1991): refuse an alpha it lacks.
+    throw new StopError('method', `expected an alpha of ${DIXON_ALPHAS.join(', ')} for Dixon's Q test, got ${alpha}`, at(['qc', 'alpha']));
+  }
+
   return {
     name: raw.name,
     title: raw.title ?? raw.name,
@@ -151,8 +161,8 @@ export function parseMethod(text: string, options: { file: string }): Method {
     defaults: { reporting_limit: raw.defaults?.reporting_limit },
     limits: mergeLimitTables(GENERIC_LIMITS, (raw.limits ?? {}) as LimitTable),
     qc: {
-      outlierTest: raw.qc?.outlier_test ?? GENERIC_QC.outlierTest,
-      alpha: raw.qc?.alpha ?? GENERIC_QC.alpha,
+      outlierTest,
+      alpha,
       runRule: raw.qc?.run_rule ?? GENERIC_QC.runRule,
       runRuleAll: raw.qc?.run_rule_all ?? GENERIC_QC.runRuleAll,
       runRulePerLevel: raw.qc?.run_rule_per_level ?? GENERIC_QC.runRulePerLevel,

@@ -1,18 +1,31 @@
 import { SAMPLE_TYPES, type SampleType } from '../columns/fields.js';
-import { FAILING_CODES, type Flag } from '../issues.js';
-import type { QcResult, QcStatus } from '../qc/assess.js';
+import { FAILING_CODES, type Flag, type FlagCode } from '../issues.js';
+import type { QcResult, QcStatus, RunRuleOutcome } from '../qc/assess.js';
 import { mean, minMax, rsdPct, sampleSd } from '../qc/stats.js';
 
+/** Recoveries of one row type (and, for qc rows, one level) within a batch and analyte. */
 export interface RecoveryStats {
   type: SampleType;
+  /** qc level (lower case) for qc rows, '' otherwise. */
   level: string;
   n: number;
   mean: number;
+  /** Sample SD (n − 1); NaN for one value. */
   sd: number;
   rsdPct: number;
   min: number;
   max: number;
+  /** Rows flagged REC_LOW or REC_HIGH. */
   outside: number;
+}
+
+/** Precision of the qc rows at one level: %CV of their pre-extraction concentrations (ICH M10). */
+export interface PrecisionStats {
+  level: string;
+  n: number;
+  meanConc: number;
+  sdConc: number;
+  cvPct: number;
 }
 
 export interface GroupSummary {
@@ -20,11 +33,26 @@ export interface GroupSummary {
   analyte: string;
   counts: Record<SampleType, number>;
   recoveries: RecoveryStats[];
+  precision: PrecisionStats[];
+  /** Largest RPD of the group; NaN when none. */
   maxRpd: number;
+  /** Rows outside their limits: REC_LOW, REC_HIGH or RPD_HIGH. */
+  outsideLimits: number;
   blankStatus: 'none' | 'clean' | 'hit';
+  /** Mean theoretical extraction efficiency E (%) over the rows that computed. */
   meanEfficiencyPct: number;
   inputErrors: number;
   failedControls: number;
+  runRule?: RunRuleOutcome;
+  verdict: 'pass' | 'fail';
+  /** Why the verdict is fail; empty when it passes. */
+  reasons: string[];
+  /** Findings that do not fail the verdict (e.g. qc rows the run rule tolerates). */
+  notes: string[];
+}
+
+export interface BatchVerdict {
+  batch: string;
   verdict: 'pass' | 'fail';
   reasons: string[];
 }
@@ -32,6 +60,8 @@ export interface GroupSummary {
 export interface Verdict {
   verdict: 'pass' | 'fail';
   reasons: string[];
+  /** One verdict per batch (fail when any analyte of the batch fails). */
+  batches: BatchVerdict[];
 }
 
 export interface SummaryInput {
@@ -44,33 +74,39 @@ export interface SummaryInput {
   qc: QcResult;
 }
 
-/** Per batch and analyte statistics and the verdict with its reasons (DESIGN.md §5–6). */
+/**
+ * Per batch and analyte statistics and the verdict with its reasons (DESIGN.md §5–6).
+ *
+ * Verdict of a (batch, analyte): fail when any control failed, any row has an
+ * input error, or the run rule rejects the run. Decision (ICH M10): where the run
+ * rule applies, single qc rows outside their limits are judged by the rule as a
+ * whole, so an accepted run passes with those rows listed in `notes`; their
+ * qc_status is still fail and the CLI still exits 1 for them.
+ */
 export function summarize(input: SummaryInput): { groups: GroupSummary[]; overall: Verdict } {
   const n = input.rowCount;
-  const batch = input.texts.get('batch_id')!;
-  const analyte = input.texts.get('analyte')!;
-  const level = input.texts.get('qc_level')!;
+  const text = (name: string) => input.texts.get(name) ?? new Array<string>(n).fill('');
+  const batch = text('batch_id');
+  const analyte = text('analyte');
+  const level = text('qc_level');
+  const sampleId = text('sample_id');
   const nan = new Float64Array(n).fill(NaN);
   const recovery = input.computed.get('spike_recovery_pct') ?? nan;
   const rpd = input.computed.get('rpd_pct') ?? nan;
   const eff = input.computed.get('extraction_efficiency_pct') ?? nan;
+  const conc = input.computed.get('pre_extraction_conc') ?? nan;
 
   const rowsByGroup = new Map<string, number[]>();
-  for (let r = 0; r < n; r++) {
-    const k = `${batch[r]}\u0000${analyte[r]}`;
-    const g = rowsByGroup.get(k);
-    if (g) g.push(r);
-    else rowsByGroup.set(k, [r]);
-  }
-  const failingByRow = new Map<number, Flag[]>();
-  const recFlagRows = new Set<number>();
+  for (let r = 0; r < n; r++) push(rowsByGroup, `${batch[r]}\u0000${analyte[r]}`, r);
+  const codesByRow = new Map<number, Set<FlagCode>>();
   for (const f of input.flags) {
-    if (f.code === 'REC_LOW' || f.code === 'REC_HIGH') recFlagRows.add(f.row);
-    if (!FAILING_CODES.has(f.code)) continue;
-    const list = failingByRow.get(f.row);
-    if (list) list.push(f);
-    else failingByRow.set(f.row, [f]);
+    const s = codesByRow.get(f.row) ?? new Set<FlagCode>();
+    s.add(f.code);
+    codesByRow.set(f.row, s);
   }
+  const has = (r: number, code: FlagCode) => codesByRow.get(r)?.has(code) === true;
+  const describe = (r: number) => `${input.sampleType[r] || 'row'} "${sampleId[r]}"`;
+  const failingCodes = (r: number) => [...(codesByRow.get(r) ?? [])].filter((c) => FAILING_CODES.has(c));
 
   const groups: GroupSummary[] = [];
   for (const rows of rowsByGroup.values()) {
@@ -81,16 +117,14 @@ export function summarize(input: SummaryInput): { groups: GroupSummary[]; overal
       const t = input.sampleType[r];
       if (t) counts[t]++;
     }
-    const recoveries: RecoveryStats[] = [];
+
     const byType = new Map<string, number[]>();
     for (const r of rows) {
       const t = input.sampleType[r];
       if (!t || !Number.isFinite(recovery[r]!)) continue;
-      const k = `${t}\u0000${t === 'qc' ? level[r]!.toLowerCase() : ''}`;
-      const g = byType.get(k);
-      if (g) g.push(r);
-      else byType.set(k, [r]);
+      push(byType, `${t}\u0000${t === 'qc' ? level[r]!.toLowerCase() : ''}`, r);
     }
+    const recoveries: RecoveryStats[] = [];
     for (const [k, rs] of byType) {
       const [type, lv] = k.split('\u0000') as [SampleType, string];
       const xs = rs.map((r) => recovery[r]!);
@@ -104,54 +138,100 @@ export function summarize(input: SummaryInput): { groups: GroupSummary[]; overal
         rsdPct: rsdPct(xs),
         min: mm.min,
         max: mm.max,
-        outside: rs.filter((r) => recFlagRows.has(r)).length,
+        outside: rs.filter((r) => has(r, 'REC_LOW') || has(r, 'REC_HIGH')).length,
       });
     }
-    recoveries.sort((x, y) => SAMPLE_TYPES.indexOf(x.type) - SAMPLE_TYPES.indexOf(y.type) || x.level.localeCompare(y.level));
+    recoveries.sort(byTypeThenLevel);
+
+    const byLevel = new Map<string, number[]>();
+    for (const r of rows) {
+      if (input.sampleType[r] !== 'qc' || input.rowError[r] || !Number.isFinite(conc[r]!)) continue;
+      push(byLevel, level[r]!.toLowerCase(), r);
+    }
+    const precision: PrecisionStats[] = [...byLevel]
+      .map(([lv, rs]) => {
+        const xs = rs.map((r) => conc[r]!);
+        return { level: lv, n: xs.length, meanConc: mean(xs), sdConc: sampleSd(xs), cvPct: rsdPct(xs) };
+      })
+      .sort((x, y) => x.level.localeCompare(y.level));
+
     const rpds = rows.map((r) => rpd[r]!).filter(Number.isFinite);
     const blanks = rows.filter((r) => input.sampleType[r] === 'blank');
-    const hit = blanks.some((r) => failingByRow.get(r)?.some((f) => f.code === 'BLANK_HIT'));
     const effs = rows.filter((r) => !input.rowError[r]).map((r) => eff[r]!);
-
-    const reasons: string[] = [];
-    const failed = rows.filter((r) => input.qc.status[r] === 'fail');
-    const byCode = new Map<string, string[]>();
-    for (const r of failed) {
-      const codes = failingByRow.get(r)?.map((f) => f.code) ?? (input.rowError[r] ? ['INPUT_ERROR'] : []);
-      const id = input.texts.get('sample_id')![r]!;
-      for (const c of new Set(codes)) {
-        const list = byCode.get(c) ?? [];
-        list.push(id);
-        byCode.set(c, list);
-      }
-    }
-    for (const [code, ids] of byCode) reasons.push(`${code}: ${ids.join(', ')}`);
-    const inputErrors = rows.filter((r) => input.rowError[r]).length;
-    const sampleErrors = rows.filter((r) => input.rowError[r] && input.sampleType[r] === 'sample').length;
-    if (sampleErrors) reasons.push(`${sampleErrors} sample row${sampleErrors > 1 ? 's' : ''} with input errors`);
     const rule = input.qc.runRule.find((o) => o.batch === b && o.analyte === a);
-    if (rule && !rule.accepted) reasons.push(`run rule rejects the run: ${rule.reason}`);
+
+    // Reasons: failed controls by code, input errors, the run rule.
+    const reasons: string[] = [];
+    const notes: string[] = [];
+    const failedRows = rows.filter((r) => input.qc.status[r] === 'fail' && !input.rowError[r]);
+    const judgedByRunRule = (r: number) => rule !== undefined && input.sampleType[r] === 'qc';
+    const byCode = new Map<FlagCode, number[]>();
+    const tolerated: number[] = [];
+    for (const r of failedRows) {
+      if (judgedByRunRule(r)) {
+        tolerated.push(r);
+        continue;
+      }
+      for (const c of failingCodes(r)) push(byCode, c, r);
+    }
+    for (const [code, rs] of byCode) reasons.push(`${code}: ${rs.map(describe).join(', ')}`);
+    const errorRows = rows.filter((r) => input.rowError[r]);
+    if (errorRows.length) reasons.push(`INPUT_ERROR: ${errorRows.map(describe).join(', ')}`);
+    const outside = tolerated.map((r) => `${describe(r)} (${failingCodes(r).join(', ')})`).join(', ');
+    if (rule && !rule.accepted) reasons.push(`run rule rejects the run: ${rule.reason}${outside ? `; failed: ${outside}` : ''}`);
+    else if (rule && outside) notes.push(`run rule accepts the run with ${rule.passed} of ${rule.total} qc rows passing; failed: ${outside}`);
 
     groups.push({
       batch: b,
       analyte: a,
       counts,
       recoveries,
+      precision,
       maxRpd: rpds.length ? Math.max(...rpds) : NaN,
-      blankStatus: blanks.length === 0 ? 'none' : hit ? 'hit' : 'clean',
+      outsideLimits: rows.filter((r) => has(r, 'REC_LOW') || has(r, 'REC_HIGH') || has(r, 'RPD_HIGH')).length,
+      blankStatus: blanks.length === 0 ? 'none' : blanks.some((r) => has(r, 'BLANK_HIT')) ? 'hit' : 'clean',
       meanEfficiencyPct: mean(effs),
-      inputErrors,
-      failedControls: failed.length,
+      inputErrors: errorRows.length,
+      failedControls: rows.filter((r) => input.qc.status[r] === 'fail').length,
+      runRule: rule,
       verdict: reasons.length ? 'fail' : 'pass',
       reasons,
+      notes,
     });
+  }
+
+  const batches: BatchVerdict[] = [];
+  const byBatch = new Map<string, GroupSummary[]>();
+  for (const g of groups) {
+    const list = byBatch.get(g.batch) ?? [];
+    list.push(g);
+    byBatch.set(g.batch, list);
+  }
+  for (const [b, gs] of byBatch) {
+    const failed = gs.filter((g) => g.verdict === 'fail');
+    batches.push({ batch: b, verdict: failed.length ? 'fail' : 'pass', reasons: failed.map((g) => `${analyteLabel(g.analyte)}: ${g.reasons.join('; ')}`) });
   }
   const failedGroups = groups.filter((g) => g.verdict === 'fail');
   const overall: Verdict = {
     verdict: failedGroups.length ? 'fail' : 'pass',
-    reasons: failedGroups.map((g) => `${g.batch ? `batch ${g.batch}, ` : ''}${g.analyte}: ${g.reasons.join('; ')}`),
+    reasons: failedGroups.map((g) => `${g.batch ? `batch ${g.batch}, ` : ''}${analyteLabel(g.analyte)}: ${g.reasons.join('; ')}`),
+    batches,
   };
   return { groups, overall };
+}
+
+function analyteLabel(a: string): string {
+  return a === '' ? '(no analyte)' : a;
+}
+
+function byTypeThenLevel(x: RecoveryStats, y: RecoveryStats): number {
+  return SAMPLE_TYPES.indexOf(x.type) - SAMPLE_TYPES.indexOf(y.type) || x.level.localeCompare(y.level);
+}
+
+function push<K>(m: Map<K, number[]>, k: K, v: number): void {
+  const list = m.get(k);
+  if (list) list.push(v);
+  else m.set(k, [v]);
 }
 
 export type { QcStatus };

@@ -125,7 +125,11 @@ describe('the demo and the basics of the CLI', () => {
     const r = runCli(['recalc', 'samples/kestrel-brook-2026-11.csv', '--method', 'templates/surface-water.yaml', '--out', out]);
     expect(r.stderr).toMatch(/Batch verdict: PASS/);
     expect(r.code).toBe(0);
-    expect(readdirSync(out).sort()).toEqual(['kestrel-brook-2026-11.results.csv', 'kestrel-brook-2026-11.xlsx']);
+    expect(readdirSync(out).sort()).toEqual([
+      'kestrel-brook-2026-11.MB-2611-A.report.html',
+      'kestrel-brook-2026-11.results.csv',
+      'kestrel-brook-2026-11.xlsx',
+    ]);
   });
 
   it('--version prints the package version; --help lists recalc', () => {

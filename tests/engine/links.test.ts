@@ -37,7 +37,17 @@ describe('cross-row links (DESIGN.md §4–5)', () => {
       ['C', 'dup', 'BLK', 'y', 'B1'],
       ['D', 'ms', '', 'x', 'B1'],
     ]);
-    expect([...findLinks(t).noParent]).toEqual([0, 0, 1, 1, 1, 1]);
+    const l = findLinks(t);
+    expect([...l.noParent]).toEqual([0, 0, 1, 1, 1, 1]);
+    expect([...l.pairRow]).toEqual([-1, -1, -1, -1, -1, -1]); // no RPD without a native sample
+  });
+
+  it('an msd whose parent is missing is not paired with an ms of the same parent_id', () => {
+    const t = table([
+      ['X-MS', 'ms', 'GONE', 'x', 'B1'],
+      ['X-MSD', 'msd', 'GONE', 'x', 'B1'],
+    ]);
+    expect([...findLinks(t).pairRow]).toEqual([-1, -1]);
   });
 
   it('lcsd pairs with the lcs it names, or the only lcs of its analyte in the batch', () => {

@@ -40,6 +40,7 @@ describe('method files', () => {
     [`name: x\ncolour: blue\n${OK_FORMULAS}`, 'm.yaml, line 2, key "colour": unknown key "colour"'],
     [`name: x\nlimits:\n  lcs:\n    recovery: [70]\n${OK_FORMULAS}`, 'm.yaml, line 4, key "limits.lcs.recovery": must NOT have fewer than 2 items, got [70]'],
     [`name: x\nqc:\n  outlier_test: chauvenet\n${OK_FORMULAS}`, 'm.yaml, line 3, key "qc.outlier_test": expected one of "grubbs", "dixon", "none", got "chauvenet"'],
+    [`name: x\nqc:\n  outlier_test: dixon\n  alpha: 0.03\n${OK_FORMULAS}`, 'm.yaml, line 4, key "qc.alpha": expected an alpha of 0.1, 0.05, 0.04, 0.02, 0.01 for Dixon\'s Q test, got 0.03'],
     [`name: x\nfields:\n  volume_sample: { aliases: [V] }\n${OK_FORMULAS}`, 'm.yaml, line 3, key "fields.volume_sample": "volume_sample" is not a canonical field'],
     [`name: x\nanalytes:\n  A: { acid_base: acid }\n${OK_FORMULAS}`, 'm.yaml, line 3, key "analytes.A.acid_base": analyte "A" is marked acid but has no pka'],
     ['name: x\nformulas:\n  - name: y\n    expr: import("fs")\n', 'm.yaml, line 4, key "formulas[0].expr": formula "y": the function "import" is not allowed'],

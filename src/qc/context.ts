@@ -1,0 +1,118 @@
+import type { SampleType } from '../columns/fields.js';
+import { conversionFactor } from '../columns/units.js';
+import type { Links } from '../engine/links.js';
+import { rowMessage, type Flag, type FlagCode } from '../issues.js';
+import type { AnalyteInfo, Method } from '../method/types.js';
+import { limitsFor, type AppliedLimits } from './limits.js';
+
+/** What QC reads: finished columns, nothing else (it never reaches back). */
+export interface QcInput {
+  method: Method;
+  rowCount: number;
+  rowNumbers: Int32Array;
+  sampleType: readonly (SampleType | '')[];
+  analyteIndex: Int32Array;
+  texts: ReadonlyMap<string, readonly string[]>;
+  numbers: ReadonlyMap<string, Float64Array>;
+  computed: ReadonlyMap<string, Float64Array>;
+  links: Links;
+  rowError: Uint8Array;
+}
+
+/**
+ * Everything a QC rule looks at, gathered once: the columns rules read by their
+ * canonical names, the limits that judge each row, and a few look-ups.
+ */
+export interface QcContext {
+  input: QcInput;
+  method: Method;
+  rowCount: number;
+  type: readonly (SampleType | '')[];
+  recovery: Float64Array;
+  rpd: Float64Array;
+  /** pre_extraction_conc, the row's result. */
+  result: Float64Array;
+  /** extract_conc as held by the engine (in the method's concentration unit). */
+  extract: Float64Array;
+  reportingLimit: Float64Array;
+  batch: readonly string[];
+  analyte: readonly string[];
+  sampleId: readonly string[];
+  parentId: readonly string[];
+  qcLevel: readonly string[];
+  limits: AppliedLimits[];
+  analyteOf(row: number): AnalyteInfo | undefined;
+  isSurrogate(row: number): boolean;
+  /** Divide an engine extract_conc by this to get it in the extract unit (the calibration range's unit). */
+  extractUnitFactor: number;
+}
+
+/** A rule's finding on one row, before it becomes a Flag. */
+export interface Finding {
+  column?: string;
+  text: string;
+  value?: number | string;
+  limit?: number | string;
+}
+
+const NaNColumn = (n: number) => new Float64Array(n).fill(NaN);
+const emptyText = (n: number): readonly string[] => new Array<string>(n).fill('');
+
+export function buildContext(input: QcInput): QcContext {
+  const { method, rowCount: n } = input;
+  const col = (name: string) => input.computed.get(name) ?? input.numbers.get(name) ?? NaNColumn(n);
+  const text = (name: string) => input.texts.get(name) ?? emptyText(n);
+  const analyteOf = (r: number): AnalyteInfo | undefined =>
+    input.analyteIndex[r]! >= 0 ? method.analytes[input.analyteIndex[r]!] : undefined;
+  const qcLevel = text('qc_level');
+  const limits: AppliedLimits[] = new Array(n);
+  for (let r = 0; r < n; r++) {
+    const type = input.sampleType[r];
+    limits[r] = type ? limitsFor(method, { analyte: analyteOf(r), sampleType: type, qcLevel: qcLevel[r]! }) : { origin: 'none' };
+  }
+  return {
+    input,
+    method,
+    rowCount: n,
+    type: input.sampleType,
+    recovery: col('spike_recovery_pct'),
+    rpd: col('rpd_pct'),
+    result: col('pre_extraction_conc'),
+    extract: col('extract_conc'),
+    reportingLimit: col('reporting_limit'),
+    batch: text('batch_id'),
+    analyte: text('analyte'),
+    sampleId: text('sample_id'),
+    parentId: text('parent_id'),
+    qcLevel,
+    limits,
+    analyteOf,
+    isSurrogate: (r) => analyteOf(r)?.surrogate === true,
+    // Calibration ranges are written in the extract unit; extract_conc is held in the sample unit (columns/map.ts).
+    extractUnitFactor: conversionFactor(method.units.extract_concentration, method.units.concentration),
+  };
+}
+
+export function toFlag(ctx: QcContext, row: number, code: FlagCode, f: Finding): Flag {
+  return {
+    row,
+    code,
+    column: f.column,
+    message: rowMessage(ctx.input.rowNumbers[row]!, f.column, f.text),
+    value: f.value,
+    limit: f.limit,
+  };
+}
+
+/** Numbers in messages: up to 6 significant figures (enough to see why 130.04 broke 130), no exponent for ordinary sizes. */
+export function fmt(x: number): string {
+  if (!Number.isFinite(x)) return String(x);
+  const a = Math.abs(x);
+  if (a !== 0 && (a < 1e-4 || a >= 1e9)) return x.toExponential(3);
+  return String(Number(x.toPrecision(6)));
+}
+
+/** Key of a (batch, analyte) group. */
+export function batchAnalyteKey(ctx: QcContext, row: number): string {
+  return `${ctx.batch[row]}\u0000${ctx.analyte[row]}`;
+}
