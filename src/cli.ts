@@ -8,10 +8,17 @@
  */
 import { Command, CommanderError, InvalidArgumentError, Option } from 'commander';
 import { StopError } from './errors.js';
+import { registerTrendsCommand } from './commands/trends.js';
+import { registerMethodCommand } from './commands/method.js';
+import { registerPlanCommand } from './commands/plan.js';
+import { registerVerifyCommand } from './commands/verify.js';
 import { recalculate, type RecalcResult } from './pipeline.js';
+import { recordRun } from './history/store.js';
+import { trendsIncludingRun } from './history/trends.js';
 import { VERSION } from './version.js';
 import { installInterruptCleanup } from './write/atomic.js';
-import { OUTPUT_KINDS, writeOutputs, type OutputKind } from './write/outputs.js';
+import { OUTPUT_KINDS, workbookDeclined, writeOutputs, type OutputKind } from './write/outputs.js';
+import { createProgress, type ProgressLine } from './progress.js';
 
 const EXIT_OK = 0;
 const EXIT_FINDINGS = 1;
@@ -64,10 +71,15 @@ export function buildProgram(io: { exit: (code: number) => void }): Command {
     .addOption(new Option('--timestamp <iso>', 'time recorded in the outputs (default: now), for reproducible files').argParser(parseTimestamp))
     .addOption(new Option('--max-bytes <size>', 'refuse worklists larger than this').default(256 * 1024 ** 2, '256MB').argParser(parseBytes))
     .addOption(new Option('--max-unpacked <size>', 'refuse XLSX worklists that unpack past this').default(512 * 1024 ** 2, '512MB').argParser(parseBytes))
+    .option('--history <file>', 'QC history database (SQLite): control charts in the report, and this run recorded in it')
     .option('-q, --quiet', 'print nothing but errors')
     .action(async (worklist: string, opts: RecalcCliOptions) => {
       io.exit(await runRecalc(worklist, opts));
     });
+  registerTrendsCommand(program, io);
+  registerMethodCommand(program, io);
+  registerPlanCommand(program, io);
+  registerVerifyCommand(program, io);
 
   return program;
 }
@@ -81,29 +93,55 @@ interface RecalcCliOptions {
   timestamp?: string;
   maxBytes: number;
   maxUnpacked: number;
+  history?: string;
   quiet?: boolean;
 }
 
 async function runRecalc(worklist: string, opts: RecalcCliOptions): Promise<number> {
+  // On a terminal, work over a second shows a progress line on stderr (progress.ts).
+  const progress = createProgress({ quiet: opts.quiet });
+  try {
+    return await recalcWithProgress(worklist, opts, progress);
+  } finally {
+    progress?.finish();
+  }
+}
+
+async function recalcWithProgress(worklist: string, opts: RecalcCliOptions, progress: ProgressLine | undefined): Promise<number> {
   installInterruptCleanup();
   const result = await recalculate(worklist, {
     method: opts.method,
     sheet: opts.sheet,
     maxBytes: opts.maxBytes,
     maxUnpackedBytes: opts.maxUnpacked,
+    onProgress: progress?.update,
   });
-  const written = await writeOutputs(result, {
-    outDir: opts.out,
-    outputs: opts.outputs,
-    force: opts.force,
-    run: {
-      timestamp: opts.timestamp ?? new Date().toISOString(),
-      command: ['phasebook', ...process.argv.slice(2)].join(' '),
-      version: VERSION,
-    },
-  });
+  const run = {
+    timestamp: opts.timestamp ?? new Date().toISOString(),
+    command: ['phasebook', ...process.argv.slice(2)].join(' '),
+    version: VERSION,
+  };
+  // Read the history first: a foreign file or a missing SQLite package stops the run before anything is written.
+  const history = opts.history ? await trendsIncludingRun(opts.history, result, { run }) : undefined;
+  const written = await writeOutputs(result, { outDir: opts.out, outputs: opts.outputs, force: opts.force, run, history, onProgress: progress?.update });
+  progress?.finish();
+  const declined = (opts.outputs ?? OUTPUT_KINDS).includes('xlsx') ? workbookDeclined(result.rowsOut) : undefined;
+  if (declined) process.stderr.write(`phasebook: ${declined}\n`);
+  let recorded = '';
+  if (opts.history) {
+    try {
+      const r = await recordRun(opts.history, result, { timestamp: run.timestamp });
+      recorded = r.alreadyRecorded
+        ? `This worklist and method were already in ${opts.history}; nothing added.`
+        : `Recorded ${r.added} control row${r.added === 1 ? '' : 's'} in ${opts.history}.`;
+    } catch (err) {
+      const why = err instanceof StopError ? err.describe() : (err as Error).message;
+      process.stderr.write(`phasebook: the outputs were written, but the run could not be recorded in the history: ${why}\n`);
+      return EXIT_STOP;
+    }
+  }
   const code = exitCodeOf(result);
-  if (!opts.quiet) process.stderr.write(describeRun(result, written));
+  if (!opts.quiet) process.stderr.write(describeRun(result, written) + (recorded ? `${recorded}\n` : ''));
   return code;
 }
 
@@ -114,7 +152,7 @@ export function exitCodeOf(result: RecalcResult): number {
   return inputErrors || failedControl || result.verdict.verdict === 'fail' ? EXIT_FINDINGS : EXIT_OK;
 }
 
-function describeRun(result: RecalcResult, written: Record<string, string>): string {
+function describeRun(result: RecalcResult, written: Record<string, string[]>): string {
   const errors = result.table.rowError.reduce((a, b) => a + b, 0);
   const controls = result.qc.status.filter((s) => s !== '').length;
   const failed = result.qc.status.filter((s) => s === 'fail').length;
@@ -122,7 +160,7 @@ function describeRun(result: RecalcResult, written: Record<string, string>): str
   lines.push(
     `phasebook: read ${result.rowsIn} row${result.rowsIn === 1 ? '' : 's'} from ${result.worklist.path} with method ${result.method.name}; ` +
       `${errors} row${errors === 1 ? '' : 's'} with input errors; ${controls} control row${controls === 1 ? '' : 's'}, ${failed} failed; ` +
-      `wrote ${Object.values(written).join(' and ')}.`,
+      `wrote ${Object.values(written).flat().join(', ')}.`,
   );
   for (const g of result.groups) {
     if (g.verdict === 'fail') lines.push(`  FAIL ${g.batch ? `batch ${g.batch}, ` : ''}${g.analyte}: ${g.reasons.join('; ')}`);

@@ -1,0 +1,112 @@
+/**
+ * `phasebook method check METHOD` and `phasebook method draft WORKLIST`.
+ *
+ * check: load and compile the method; print it in plain words (exit 0), or the
+ * located reason it is not valid (exit 2).
+ * draft: write a first method from a worklist's headers, to stdout or --out
+ * (never replacing a file without --force); a summary goes to stderr.
+ */
+import { writeFile } from 'node:fs/promises';
+import { dirname, relative, resolve, sep } from 'node:path';
+import { fileURLToPath } from 'node:url';
+import { InvalidArgumentError, type Command } from 'commander';
+import { compileMethod } from '../engine/evaluate.js';
+import { StopError } from '../errors.js';
+import { describeMethod } from '../method/describe.js';
+import { draftMethod, type DraftResult } from '../method/draft.js';
+import { loadMethod, parseMethod } from '../method/load.js';
+import { readWorklist } from '../read/worklist.js';
+import { writeFileAtomic } from '../write/atomic.js';
+
+const EXIT_OK = 0;
+const EXIT_STOP = 2;
+
+const SCHEMA_PATH = fileURLToPath(new URL('../../templates/method.schema.json', import.meta.url));
+
+export interface MethodCommandIo {
+  exit: (code: number) => void;
+  /** Where results go; default process.stdout. */
+  stdout?: (text: string) => void;
+  /** Where summaries and errors go; default process.stderr. */
+  stderr?: (text: string) => void;
+}
+
+interface DraftCliOptions {
+  out?: string;
+  force?: boolean;
+  sheet?: string;
+  name?: string;
+}
+
+export function registerMethodCommand(program: Command, io: MethodCommandIo): Command {
+  const stdout = io.stdout ?? ((t: string) => void process.stdout.write(t));
+  const stderr = io.stderr ?? ((t: string) => void process.stderr.write(t));
+
+  const method = program
+    .command('method')
+    .description('check a method file, or draft a first one from a worklist');
+
+  method
+    .command('check')
+    .description('validate a method and print it in plain words: fields and units, lab names, limits, formula order')
+    .argument('<method>', 'method file (YAML)')
+    .action((file: string) => {
+      try {
+        const loaded = loadMethod(file);
+        stdout(describeMethod(loaded, compileMethod(loaded)));
+        io.exit(EXIT_OK);
+      } catch (err) {
+        if (!(err instanceof StopError)) throw err;
+        stderr(`phasebook: ${err.describe()}\nThe method is not valid.\n`);
+        io.exit(EXIT_STOP);
+      }
+    });
+
+  method
+    .command('draft')
+    .description("write a first method from a worklist's headers, for the analyst to finish")
+    .argument('<worklist>', 'worklist file (.csv or .xlsx)')
+    .option('-o, --out <file>', 'write the method to this file (default: print it)')
+    .option('-f, --force', 'replace the --out file if it exists')
+    .option('--sheet <name>', 'XLSX worklist: the sheet to read (default: the first)')
+    .option('--name <name>', 'method name (default: from the worklist file name)', parseMethodName)
+    .action(async (worklist: string, opts: DraftCliOptions) => {
+      const raw = await readWorklist(worklist, { sheet: opts.sheet });
+      const target = opts.out === undefined ? undefined : resolve(opts.out);
+      const schemaRef = relative(target ? dirname(target) : process.cwd(), SCHEMA_PATH).split(sep).join('/');
+      const draft = draftMethod(raw, { name: opts.name, schemaRef });
+      // The draft must load and compile; a failure here is a fault of the drafter, not of the worklist.
+      compileMethod(parseMethod(draft.text, { file: opts.out ?? '(draft)' }));
+      if (target) {
+        await writeFileAtomic(target, (tmp) => writeFile(tmp, draft.text, 'utf8'), { force: opts.force });
+      } else {
+        stdout(draft.text);
+      }
+      stderr(draftSummary(draft, opts.out));
+      io.exit(EXIT_OK);
+    });
+
+  return method;
+}
+
+function parseMethodName(text: string): string {
+  if (!/^[A-Za-z0-9][A-Za-z0-9_.-]*$/.test(text)) {
+    throw new InvalidArgumentError(`expected a name of letters, digits, "_", "." and "-", starting with a letter or digit, got "${text}"`);
+  }
+  return text;
+}
+
+function draftSummary(d: DraftResult, out: string | undefined): string {
+  const total = d.placed.length + d.unplaced.length;
+  const lines = [`phasebook: placed ${d.placed.length} of ${total} header${total === 1 ? '' : 's'} on canonical fields`];
+  if (d.unplaced.length) lines.push(`  not placed: ${d.unplaced.map((u) => `"${u.header}"`).join(', ')}`);
+  if (d.missing.length) lines.push(`  required fields with no column: ${d.missing.join(', ')}`);
+  const guessed = d.sampleTypes.filter((c) => c.type && c.type !== c.code.toLowerCase()).length;
+  const open = d.sampleTypes.filter((c) => !c.type).length;
+  if (d.sampleTypes.length) {
+    lines.push(`  sample-type codes: ${d.sampleTypes.length} found, ${guessed} guessed${open ? `, ${open} to complete` : ''}`);
+  }
+  lines.push(`  analytes: ${d.analytes.length} found, their data to fill in`);
+  lines.push(out ? `Wrote ${out}. Finish it, then run: phasebook method check ${out}` : 'Finish the method, then run phasebook method check on it.');
+  return lines.join('\n') + '\n';
+}
