@@ -10,6 +10,7 @@
  * below that the series has mean and SD but no limits, and no rule is judged.
  * The rules run over the whole series against those limits.
  */
+import { inHouseKey, type InHouseLimits } from '../qc/limits.js';
 import { existsSync } from 'node:fs';
 import { SAMPLE_TYPES } from '../columns/fields.js';
 import type { RecalcResult } from '../pipeline.js';
@@ -156,4 +157,19 @@ export function trendsJson(series: readonly TrendSeries[]): TrendJson[] {
 
 function finiteOrNull(x: number): number | null {
   return Number.isFinite(x) ? x : null;
+}
+
+/**
+ * In-house recovery control limits (mean ± 3s) per analyte and control type, from
+ * the series that hold enough points, for a method whose qc.limits is in_house.
+ * A missing history file gives none (fixed limits then judge every control).
+ */
+export async function inHouseLimitsFrom(historyPath: string, options: TrendOptions = {}): Promise<InHouseLimits> {
+  const out = new Map<string, { low: number; high: number; n: number }>();
+  if (!existsSync(historyPath)) return out;
+  for (const series of await readTrends(historyPath, options)) {
+    const l = series.limits;
+    if (l.sufficient) out.set(inHouseKey(series.analyte, series.sampleType), { low: l.controlLow, high: l.controlHigh, n: l.n });
+  }
+  return out;
 }

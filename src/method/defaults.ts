@@ -18,6 +18,7 @@ export const GENERIC_LIMITS: LimitTable = {
 
 /** ICH M10: at least 2/3 of all QC samples and at least 50 % at each level within limits. */
 export const GENERIC_QC: QcOptions = {
+  limitsSource: 'fixed',
   outlierTest: 'grubbs',
   alpha: 0.05,
   runRule: 'auto',

@@ -161,6 +161,7 @@ export function parseMethod(text: string, options: { file: string }): Method {
     defaults: { reporting_limit: raw.defaults?.reporting_limit },
     limits: mergeLimitTables(GENERIC_LIMITS, (raw.limits ?? {}) as LimitTable),
     qc: {
+      limitsSource: raw.qc?.limits ?? GENERIC_QC.limitsSource,
       outlierTest,
       alpha,
       runRule: raw.qc?.run_rule ?? GENERIC_QC.runRule,
@@ -270,6 +271,7 @@ interface RawMethod {
   defaults?: { reporting_limit?: number };
   limits?: Record<string, RawLimitSet>;
   qc?: {
+    limits?: 'fixed' | 'in_house';
     outlier_test?: 'grubbs' | 'dixon' | 'none';
     alpha?: number;
     run_rule?: 'auto' | 'on' | 'off';

@@ -45,6 +45,11 @@ export interface FormulaDef {
 }
 
 export interface QcOptions {
+  /**
+   * Which recovery limits judge controls: the method's fixed ones, or in-house control
+   * limits (mean ± 3s) from the QC history where it holds enough points.
+   */
+  limitsSource: 'fixed' | 'in_house';
   outlierTest: 'grubbs' | 'dixon' | 'none';
   alpha: number;
   runRule: 'auto' | 'on' | 'off';

@@ -3,7 +3,7 @@ import { conversionFactor } from '../columns/units.js';
 import type { Links } from '../engine/links.js';
 import { rowMessage, type Flag, type FlagCode } from '../issues.js';
 import type { AnalyteInfo, Method } from '../method/types.js';
-import { limitsFor, type AppliedLimits } from './limits.js';
+import { limitsFor, type AppliedLimits, type InHouseLimits } from './limits.js';
 
 /** What QC reads: finished columns, nothing else (it never reaches back). */
 export interface QcInput {
@@ -17,6 +17,8 @@ export interface QcInput {
   computed: ReadonlyMap<string, Float64Array>;
   links: Links;
   rowError: Uint8Array;
+  /** In-house limits from the QC history, used when the method asks for them. */
+  inHouse?: InHouseLimits;
 }
 
 /**
@@ -65,10 +67,11 @@ export function buildContext(input: QcInput): QcContext {
   const analyteOf = (r: number): AnalyteInfo | undefined =>
     input.analyteIndex[r]! >= 0 ? method.analytes[input.analyteIndex[r]!] : undefined;
   const qcLevel = text('qc_level');
+  const analyteNames = text('analyte');
   const limits: AppliedLimits[] = new Array(n);
   for (let r = 0; r < n; r++) {
     const type = input.sampleType[r];
-    limits[r] = type ? limitsFor(method, { analyte: analyteOf(r), sampleType: type, qcLevel: qcLevel[r]! }) : { origin: 'none' };
+    limits[r] = type ? limitsFor(method, { analyte: analyteOf(r), analyteName: analyteNames[r], sampleType: type, qcLevel: qcLevel[r]! }, input.inHouse) : { origin: 'none' };
   }
   return {
     input,

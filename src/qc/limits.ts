@@ -1,6 +1,17 @@
 import type { SampleType } from '../columns/fields.js';
 import type { AnalyteInfo, ControlKind, LimitSet, Method, Range } from '../method/types.js';
 
+/**
+ * In-house recovery control limits from the QC history, by analyte and control
+ * type (key `inHouseKey(analyte, type)`): mean ± 3s once enough points exist
+ * (US EPA SW-846 Method 8000 practice).
+ */
+export type InHouseLimits = ReadonlyMap<string, { low: number; high: number; n: number }>;
+
+export function inHouseKey(analyte: string, sampleType: string): string {
+  return `${analyte.trim().toLowerCase()}\u0000${sampleType}`;
+}
+
 export interface AppliedLimits {
   recovery?: Range;
   rpdMax?: number;
@@ -16,7 +27,8 @@ export interface AppliedLimits {
  */
 export function limitsFor(
   method: Method,
-  row: { analyte?: AnalyteInfo; sampleType: SampleType; qcLevel: string },
+  row: { analyte?: AnalyteInfo; analyteName?: string; sampleType: SampleType; qcLevel: string },
+  inHouse?: InHouseLimits,
 ): AppliedLimits {
   const kind: ControlKind | undefined = row.analyte?.surrogate
     ? 'surrogate'
@@ -47,6 +59,15 @@ export function limitsFor(
     if (out.rpdMax === undefined && set.rpd_max !== undefined && kind !== 'surrogate') {
       out.rpdMax = set.rpd_max;
       origins.push(`RPD from ${where}`);
+    }
+  }
+  // A method that asks for in-house limits gets them where the history holds enough points.
+  const name = row.analyte?.name ?? row.analyteName;
+  if (method.qc.limitsSource === 'in_house' && inHouse && name !== undefined && out.recovery) {
+    const own = inHouse.get(inHouseKey(name, row.sampleType));
+    if (own) {
+      out.recovery = [own.low, own.high];
+      origins[0] = `recovery from in-house control limits (mean ± 3s of ${own.n} ${row.sampleType} points in the QC history)`;
     }
   }
   out.origin = origins.join('; ') || 'none';
