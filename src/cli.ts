@@ -14,7 +14,8 @@ import { registerPlanCommand } from './commands/plan.js';
 import { registerVerifyCommand } from './commands/verify.js';
 import { recalculate, type RecalcResult } from './pipeline.js';
 import { recordRun } from './history/store.js';
-import { trendsIncludingRun } from './history/trends.js';
+import { inHouseLimitsFrom, trendsIncludingRun } from './history/trends.js';
+import { loadMethod } from './method/load.js';
 import { VERSION } from './version.js';
 import { installInterruptCleanup } from './write/atomic.js';
 import { OUTPUT_KINDS, workbookDeclined, writeOutputs, type OutputKind } from './write/outputs.js';
@@ -109,8 +110,13 @@ async function runRecalc(worklist: string, opts: RecalcCliOptions): Promise<numb
 
 async function recalcWithProgress(worklist: string, opts: RecalcCliOptions, progress: ProgressLine | undefined): Promise<number> {
   installInterruptCleanup();
+  const method = loadMethod(opts.method);
+  // A method that judges controls by in-house limits reads them from the history as it was before this run.
+  const inHouse =
+    opts.history && method.qc.limitsSource === 'in_house' ? await inHouseLimitsFrom(opts.history) : undefined;
   const result = await recalculate(worklist, {
-    method: opts.method,
+    method,
+    inHouse,
     sheet: opts.sheet,
     maxBytes: opts.maxBytes,
     maxUnpackedBytes: opts.maxUnpacked,
@@ -171,6 +177,14 @@ function describeRun(result: RecalcResult, written: Record<string, string[]>): s
 
 export async function main(argv: string[]): Promise<number> {
   let code = EXIT_OK;
+  // An error outside this promise chain (a late stream error, a timer) gets the same one line: no stack without --debug.
+  const crash = (err: unknown) => {
+    process.stderr.write(`phasebook: unexpected error: ${(err as Error)?.message ?? String(err)}\nNothing was written.${debug ? '' : ' (run with --debug for details)'}\n`);
+    if (debug && (err as Error)?.stack) process.stderr.write((err as Error).stack + '\n');
+    process.exit(EXIT_STOP); // the exit handler of write/atomic.ts removes temp files
+  };
+  process.on('uncaughtException', crash);
+  process.on('unhandledRejection', crash);
   const program = buildProgram({ exit: (c) => (code = c) });
   try {
     await program.parseAsync(argv);

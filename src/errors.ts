@@ -15,6 +15,13 @@ export interface StopLocation {
   file?: string;
   /** 1-based line (method YAML, CSV text) or spreadsheet row (header = row 1). */
   line?: number;
+  /**
+   * What `line` counts, for the printed place: a spreadsheet `row` or a text
+   * `line` (default: line for a method file, row otherwise). A CSV problem
+   * found in the text itself (an unclosed quote, a bad byte) is on a text line,
+   * which differs from the row after a quoted cell with line breaks.
+   */
+  lineKind?: 'row' | 'line';
   /** Column header, or the method key path (e.g. "formulas[2].expr"). */
   column?: string;
 }
@@ -35,7 +42,7 @@ export class StopError extends Error {
     const parts: string[] = [];
     if (this.location.file) parts.push(this.location.file);
     if (this.location.line !== undefined) {
-      parts.push(`${this.kind === 'method' ? 'line' : 'row'} ${this.location.line}`);
+      parts.push(`${this.location.lineKind ?? (this.kind === 'method' ? 'line' : 'row')} ${this.location.line}`);
     }
     if (this.location.column !== undefined) {
       parts.push(`${this.kind === 'method' ? 'key' : 'column'} "${this.location.column}"`);

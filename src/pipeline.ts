@@ -16,6 +16,7 @@ import { loadMethod } from './method/load.js';
 import type { OnProgress } from './progress.js';
 import type { Method } from './method/types.js';
 import { assessQc, type QcResult } from './qc/assess.js';
+import type { InHouseLimits } from './qc/limits.js';
 import { readWorklist } from './read/worklist.js';
 import type { RawTable } from './read/types.js';
 import { summarize, type GroupSummary, type Verdict } from './summary/summarize.js';
@@ -31,6 +32,8 @@ export interface RecalcOptions {
   maxUnpackedBytes?: number;
   /** Told how far the run has got (rows read, evaluated); the CLI draws it on a terminal (progress.ts). */
   onProgress?: OnProgress;
+  /** In-house recovery limits from the QC history (used when the method's qc.limits is in_house). */
+  inHouse?: InHouseLimits;
 }
 
 export interface WorklistInfo {
@@ -73,13 +76,13 @@ export async function recalculate(worklistPath: string, options: RecalcOptions):
   });
   options.onProgress?.({ stage: 'read', rows: raw.rowCount, totalRows: raw.rowCount, fraction: 1 });
   const worklist = await describeFile(worklistPath);
-  return recalculateTable(raw, { method, worklist, compiled, onProgress: options.onProgress });
+  return recalculateTable(raw, { method, worklist, compiled, onProgress: options.onProgress, inHouse: options.inHouse });
 }
 
 /** The stages after reading, for callers that already hold a RawTable. */
 export function recalculateTable(
   raw: RawTable,
-  ctx: { method: Method; worklist: WorklistInfo; compiled?: ReturnType<typeof compileMethod>; onProgress?: OnProgress },
+  ctx: { method: Method; worklist: WorklistInfo; compiled?: ReturnType<typeof compileMethod>; onProgress?: OnProgress; inHouse?: InHouseLimits },
 ): RecalcResult {
   const { method } = ctx;
   // The stages after reading take about equal time; each one done moves "evaluated" on.
@@ -125,6 +128,7 @@ export function recalculateTable(
     computed: evaluated.columns,
     links,
     rowError: table.rowError,
+    inHouse: ctx.inHouse,
   });
   stageDone(4);
   const flags = [...table.errors, ...qc.flags].sort((a, b) => a.row - b.row);

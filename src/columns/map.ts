@@ -48,6 +48,7 @@ export function methodUnit(method: Method, dimension: Dimension): string {
  * required column, a field given twice, or a unit that cannot be converted.
  */
 export function mapColumns(table: RawTable, method: Method): ColumnMap {
+  const line = table.headerRow ?? 1;
   const byKey = new Map<string, CanonicalField>();
   // Canonical names first, so a method alias may take over a canonical spelling on purpose.
   for (const field of CANONICAL_FIELDS) byKey.set(headerKey(field), field);
@@ -65,9 +66,9 @@ export function mapColumns(table: RawTable, method: Method): ColumnMap {
     }
     const previous = fields.get(field);
     if (previous) {
-      throw new StopError('input', `the field ${field} is given twice, in columns "${previous.header}" and "${header}"`, {
+      throw new StopError('input', `the field ${field} is given twice, in columns "${previous.header}" and "${header}"; expected one column per field`, {
         file: table.source,
-        line: 1,
+        line,
         column: header,
       });
     }
@@ -77,7 +78,7 @@ export function mapColumns(table: RawTable, method: Method): ColumnMap {
     let fromUnit = split.unit ?? method.fields.get(field)?.unit ?? writtenIn;
     if (spec.dimension === 'none') {
       if (split.unit && !whole && !isDimensionlessUnit(split.unit)) {
-        throw new StopError('input', `expected no unit for ${field}, got "${split.unit}"`, { file: table.source, line: 1, column: header });
+        throw new StopError('input', `expected no unit for ${field}, got "${split.unit}"`, { file: table.source, line, column: header });
       }
       fromUnit = '';
     }
@@ -86,7 +87,7 @@ export function mapColumns(table: RawTable, method: Method): ColumnMap {
       const kindFrom = unitKind(fromUnit);
       const kindTo = unitKind(toUnit);
       if (!kindFrom) {
-        throw new StopError('input', `cannot read "${fromUnit}" as a unit`, { file: table.source, line: 1, column: header });
+        throw new StopError('input', `cannot read "${fromUnit}" as a unit; expected ${unitWanted(spec.dimension)}`, { file: table.source, line, column: header });
       }
       const molarInvolved = kindFrom === 'molar_concentration' || kindTo === 'molar_concentration';
       const sameKind = kindFrom === kindTo;
@@ -95,15 +96,15 @@ export function mapColumns(table: RawTable, method: Method): ColumnMap {
         const concFrom = kindFrom !== 'volume';
         const concTo = kindTo !== 'volume';
         if (!concFrom || !concTo) {
-          throw new StopError('input', `cannot convert "${fromUnit}" to ${toUnit}`, { file: table.source, line: 1, column: header });
+          throw new StopError('input', `cannot convert "${fromUnit}" to ${toUnit}; expected ${unitWanted(spec.dimension)}`, { file: table.source, line, column: header });
         }
       } else {
         try {
           factor = conversionFactor(fromUnit, toUnit);
         } catch (err) {
-          throw new StopError('input', `cannot convert "${fromUnit}" to ${toUnit}: ${(err as Error).message}`, {
+          throw new StopError('input', `${(err as Error).message}; expected ${unitWanted(spec.dimension)}`, {
             file: table.source,
-            line: 1,
+            line,
             column: header,
           });
         }
@@ -118,10 +119,15 @@ export function mapColumns(table: RawTable, method: Method): ColumnMap {
     const cfg = method.fields.get(spec.name);
     if (cfg?.default !== undefined) continue;
     const aliases = cfg?.aliases.length ? ` (or ${cfg.aliases.map((a) => `"${a}"`).join(', ')})` : '';
-    throw new StopError('input', `missing the required column "${spec.name}"${aliases}`, { file: table.source, line: 1 });
+    throw new StopError('input', `missing the required column "${spec.name}"${aliases}`, { file: table.source, line });
   }
   void hasK;
   return { fields, unmapped };
+}
+
+/** What a header's unit should have been, for messages. */
+function unitWanted(dimension: Dimension): string {
+  return dimension === 'volume' ? 'a volume unit such as mL, uL or L' : 'a concentration unit such as ng/mL, ug/L or nmol/L';
 }
 
 function isDimensionlessUnit(unit: string): boolean {

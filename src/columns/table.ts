@@ -4,7 +4,7 @@ import type { AnalyteInfo, Method } from '../method/types.js';
 import type { RawTable } from '../read/types.js';
 import { FIELD_SPECS, SAMPLE_TYPES, type CanonicalField, type SampleType } from './fields.js';
 import type { ColumnMap, FieldSource } from './map.js';
-import { cellText, parseNumberCell } from './numbers.js';
+import { cellText, parseNumberCell, type NumberCell } from './numbers.js';
 import { conversionFactor } from './units.js';
 
 /** Where a value in the work table came from, per cell. */
@@ -58,7 +58,11 @@ export function buildTable(raw: RawTable, map: ColumnMap, method: Method): WorkT
     errors.push({ row, code: 'INPUT_ERROR', column, message: rowMessage(raw.rowNumbers[row]!, column, shown), value });
     rowError[row] = 1;
   };
-  for (const p of raw.rowProblems) fail(p.row, p.column, p.message);
+  // A reader's message already names its row (and column): kept as written, not prefixed again.
+  for (const p of raw.rowProblems) {
+    errors.push({ row: p.row, code: 'INPUT_ERROR', column: p.column, message: p.message });
+    rowError[p.row] = 1;
+  }
 
   const texts = new Map<string, string[]>();
   const readText = (field: CanonicalField): string[] => {
@@ -220,9 +224,22 @@ function readNumbers(
     perAnalyte.set(ai, f);
     return f;
   };
+  // A worklist repeats most numbers (volumes, K, pH): each distinct text is parsed once.
+  const parsedText = new Map<string, NumberCell>();
+  let cacheOn = true;
+  let misses = 0;
   for (let r = 0; r < raw.rowCount; r++) {
     const cell = cells[r] ?? null;
-    const parsed = parseNumberCell(cell, raw.format.decimalComma);
+    let parsed: NumberCell | undefined;
+    if (cacheOn && typeof cell === 'string') {
+      parsed = parsedText.get(cell);
+      if (parsed === undefined) {
+        parsed = parseNumberCell(cell, raw.format.decimalComma);
+        parsedText.set(cell, parsed);
+        // A column of mostly distinct values (results) gains nothing: stop looking up.
+        if (++misses > 1024 && misses > (r + 1) / 2) cacheOn = false;
+      }
+    } else parsed = parseNumberCell(cell, raw.format.decimalComma);
     if (!parsed.ok) {
       ctx.fail(r, src.header, parsed.reason, cellText(cell));
       continue;

@@ -1,4 +1,4 @@
-import { unit as mathUnit } from 'mathjs';
+import { unit as mathUnit } from '../mathjs.js';
 import { normaliseUnitText } from '../method/load.js';
 
 /**

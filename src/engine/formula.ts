@@ -46,6 +46,8 @@ export class FormulaError extends Error {
 
 export const MAX_DEPTH = 64;
 export const MAX_NODES = 2000;
+/** Longest formula text parsed (the node and depth limits only apply after parsing). */
+export const MAX_EXPR_CHARS = 10_000;
 
 /** Constants a formula may name. */
 const CONSTANTS: Record<string, number> = { pi: Math.PI, e: Math.E, NaN: NaN };
@@ -161,6 +163,9 @@ export function compileFormula(
   symbols: ReadonlyMap<string, SymbolKind>,
 ): CompiledFormula {
   let node: MathNode;
+  if (def.expr.length > MAX_EXPR_CHARS) {
+    throw new FormulaError(`the formula is ${def.expr.length} characters long; expected at most ${MAX_EXPR_CHARS}`);
+  }
   try {
     node = parseFormula(def.expr);
   } catch (err) {
@@ -183,13 +188,15 @@ export function compileFormula(
       }
       case 'SymbolNode': {
         const name = any.name as string;
-        if (name in CONSTANTS) {
+        // Own keys only: `name in CONSTANTS` would also find constructor, __proto__,
+        // toString ... on Object.prototype and hand a function to the formula.
+        if (Object.hasOwn(CONSTANTS, name)) {
           const c = CONSTANTS[name]!;
           return () => () => c;
         }
         const kind = symbols.get(name);
         if (!kind) {
-          if (name in FUNCTIONS) throw new FormulaError(`"${name}" is a function; call it with arguments`);
+          if (Object.hasOwn(FUNCTIONS, name)) throw new FormulaError(`"${name}" is a function; call it with arguments`);
           throw new FormulaError(`unknown name "${name}"`);
         }
         deps.add(name);
@@ -274,7 +281,14 @@ export function compileFormula(
         const call = spec.call!;
         return (ctx) => {
           const fs = args.map((f) => f(ctx));
-          return (r) => call(fs.map((f) => f(r)));
+          const k = fs.length;
+          // One argument list per call site, refilled for every row (no array per row).
+          // Safe: arguments are evaluated before the call, and no function keeps the list.
+          const argv: Value[] = new Array(k);
+          return (r) => {
+            for (let i = 0; i < k; i++) argv[i] = fs[i]!(r);
+            return call(argv);
+          };
         };
       }
       default:

@@ -11,13 +11,20 @@
  *   is an empty row, so it still counts. Blank records (every cell empty or only
  *   spaces, papaparse's "greedy" sense) carry no data and are skipped.
  * - Line numbers in stop messages are text lines as an editor counts them.
+ * - The whole file must be UTF-8 text without NUL bytes: a bad byte anywhere
+ *   stops the run (never a silent U+FFFD). Line ends are read as one kind: CRLF,
+ *   lone CR and LF all end a record, even mixed in one file (a file edited on two
+ *   systems), so no row is glued to the next; a line break inside a quoted cell
+ *   is kept as LF.
  */
 import { createReadStream } from 'node:fs';
 import { open, stat } from 'node:fs/promises';
+import { Transform } from 'node:stream';
 import Papa from 'papaparse';
 import { StopError } from '../errors.js';
 import { rowMessage } from '../issues.js';
-import type { RawCell, RawTable, RowProblem } from './types.js';
+import { ColumnBuilder, estimateRows } from './column-builder.js';
+import type { RawTable, RowProblem } from './types.js';
 import { formatBytes } from './zip-guard.js';
 
 export type CsvDelimiter = ',' | ';' | '\t';
@@ -27,6 +34,8 @@ export interface CsvReadOptions {
   maxBytes?: number;
   /** Field delimiter; default: sniffed from the header line. */
   delimiter?: CsvDelimiter;
+  /** Called now and then while reading: data rows so far and the part of the file read (0..1). */
+  onRows?: (rows: number, fraction: number) => void;
 }
 
 /** How much of the start of the file is checked for binary content. */
@@ -34,14 +43,16 @@ const HEAD_BYTES = 64 * 1024;
 export const DEFAULT_MAX_BYTES = 256 * 1024 * 1024;
 /** Longest record accepted, in characters (a worklist row is a few hundred). */
 const MAX_RECORD_CHARS = 1024 * 1024;
+/** Rows between two progress reports. */
+const REPORT_EVERY_ROWS = 8192;
 
 export async function readCsv(path: string, options: CsvReadOptions = {}): Promise<RawTable> {
-  await checkInputFile(path, { maxBytes: options.maxBytes });
+  const size = await checkInputFile(path, { maxBytes: options.maxBytes });
   const head = await readHead(path, HEAD_BYTES);
   const text = checkTextHead(path, head.bytes, head.complete);
   if (text.trim() === '') throw new StopError('input', 'is empty, expected a header row and data rows', { file: path });
   const delimiter = options.delimiter ?? sniffDelimiter(text);
-  return parseStream(path, delimiter);
+  return parseStream(path, delimiter, { expectedRows: estimateRows(size, text, { complete: head.complete }), fileBytes: size, onRows: options.onRows });
 }
 
 /**
@@ -113,7 +124,7 @@ export async function readHead(path: string, limit: number): Promise<{ bytes: Bu
  */
 export function checkTextHead(path: string, head: Buffer, complete: boolean): string {
   const notText = (why: string, line?: number) =>
-    new StopError('input', `does not look like a CSV text file: ${why}`, line === undefined ? { file: path } : { file: path, line });
+    new StopError('input', `does not look like a CSV text file: ${why}`, line === undefined ? { file: path } : { file: path, line, lineKind: 'line' });
   if (head.length >= 2 && ((head[0] === 0xff && head[1] === 0xfe) || (head[0] === 0xfe && head[1] === 0xff))) {
     throw notText('it is UTF-16 text; save it as UTF-8 CSV');
   }
@@ -154,7 +165,11 @@ export function sniffDelimiter(text: string): CsvDelimiter {
 
 interface ParseState {
   headers: string[] | null;
-  columns: RawCell[][];
+  /** Spreadsheet row of the header record. */
+  headerRow: number;
+  /** Created at the header, sized for the rows the file probably holds. */
+  columns: ColumnBuilder | null;
+  expectedRows: number;
   rowNumbers: number[];
   rowProblems: RowProblem[];
   /** Spreadsheet row of the record being read (1-based, blank records counted). */
@@ -164,10 +179,16 @@ interface ParseState {
   stop: StopError | null;
 }
 
-function parseStream(path: string, delimiter: CsvDelimiter): Promise<RawTable> {
+function parseStream(
+  path: string,
+  delimiter: CsvDelimiter,
+  options: { expectedRows?: number; fileBytes?: number; onRows?: CsvReadOptions['onRows'] } = {},
+): Promise<RawTable> {
   const st: ParseState = {
     headers: null,
-    columns: [],
+    headerRow: 1,
+    columns: null,
+    expectedRows: options.expectedRows ?? 0,
     rowNumbers: [],
     rowProblems: [],
     record: 0,
@@ -176,21 +197,32 @@ function parseStream(path: string, delimiter: CsvDelimiter): Promise<RawTable> {
   };
 
   return new Promise<RawTable>((resolve, reject) => {
-    const stream = createReadStream(path, { encoding: 'utf8' });
+    const file = createReadStream(path);
+    const text = new TextChecker();
+    const stream = file.pipe(text);
     let failed = false;
     const fail = (err: StopError) => {
       if (failed) return;
       failed = true;
+      file.destroy();
       stream.destroy();
       reject(err);
     };
-    stream.on('error', (err) => fail(new StopError('input', `cannot be read: ${fsReason(err)}`, { file: path })));
+    file.on('error', (err) => fail(new StopError('input', `cannot be read: ${fsReason(err)}`, { file: path })));
+    // A bad byte found while streaming: say where, with the text line counted from the file.
+    const failOnText = () => {
+      const p = text.problem!;
+      const stop = (line?: number) =>
+        fail(new StopError('input', `does not look like a CSV text file: ${p.why}`, line === undefined ? { file: path } : { file: path, line, lineKind: 'line' }));
+      lineOfByte(path, p.offset).then(stop, () => stop());
+    };
 
     // papaparse re-reads an unfinished record with every new chunk, so an
     // unclosed quote early in a large file would cost time quadratic in its size.
     // A record still open after MAX_RECORD_CHARS is refused right away.
     let charsRead = 0;
     let recordEnd = 0;
+    let reported = 0;
     stream.on('data', (chunk: string | Buffer) => {
       charsRead += chunk.length;
       if (!failed && charsRead - recordEnd > MAX_RECORD_CHARS + chunk.length) {
@@ -198,7 +230,7 @@ function parseStream(path: string, delimiter: CsvDelimiter): Promise<RawTable> {
           new StopError(
             'input',
             `a quoted cell that starts on line ${st.nextLine} runs on for more than 1 MiB without a closing "; expected a closing " (a quote is probably missing)`,
-            { file: path, line: st.nextLine },
+            { file: path, line: st.nextLine, lineKind: 'line' },
           ),
         );
       }
@@ -206,6 +238,7 @@ function parseStream(path: string, delimiter: CsvDelimiter): Promise<RawTable> {
 
     Papa.parse<string[]>(stream, {
       delimiter,
+      newline: '\n', // TextChecker turned every CRLF and lone CR into LF
       dynamicTyping: false,
       // Blank records are skipped below instead, so that they still count as rows.
       skipEmptyLines: false,
@@ -214,8 +247,13 @@ function parseStream(path: string, delimiter: CsvDelimiter): Promise<RawTable> {
         if (st.stop) return;
         takeRecord(path, st, results.data, results.errors);
         if (st.stop) parser.abort();
+        else if (options.onRows && st.rowNumbers.length - reported >= REPORT_EVERY_ROWS) {
+          reported = st.rowNumbers.length;
+          options.onRows(reported, options.fileBytes ? Math.min(1, file.bytesRead / options.fileBytes) : 0);
+        }
       },
       complete() {
+        if (text.problem) return failOnText();
         if (st.stop) return fail(st.stop);
         try {
           resolve(finish(path, st, delimiter));
@@ -224,6 +262,7 @@ function parseStream(path: string, delimiter: CsvDelimiter): Promise<RawTable> {
         }
       },
       error(err: Error) {
+        if (text.problem) return failOnText();
         fail(new StopError('input', `cannot be read: ${err.message}`, { file: path }));
       },
     });
@@ -248,7 +287,7 @@ function takeRecord(path: string, st: ParseState, cells: string[], errors: Papa.
       invalid
         ? `a quoted cell on line ${openLine} has text after its closing quote; expected the delimiter or the end of the line right after a closing "`
         : `a quoted cell that starts on line ${openLine} is never closed; expected a closing " before the end of the file`,
-      { file: path, line: openLine },
+      { file: path, line: openLine, lineKind: 'line' },
     );
     return;
   }
@@ -273,14 +312,15 @@ function takeRecord(path: string, st: ParseState, cells: string[], errors: Papa.
       seen.set(key, c);
     }
     st.headers = headers;
-    st.columns = headers.map(() => []);
+    st.headerRow = st.record;
+    st.columns = new ColumnBuilder(headers.length, { expectedRows: st.expectedRows });
     return;
   }
 
   const width = st.headers.length;
   const dataRow = st.rowNumbers.length;
   st.rowNumbers.push(st.record);
-  for (let c = 0; c < width; c++) st.columns[c]!.push(c < cells.length ? cells[c]! : null);
+  for (let c = 0; c < width; c++) st.columns!.set(c, dataRow, c < cells.length ? cells[c]! : null);
   if (cells.length < width) {
     st.rowProblems.push({
       row: dataRow,
@@ -290,7 +330,8 @@ function takeRecord(path: string, st: ParseState, cells: string[], errors: Papa.
     // Extra empty cells (a trailing delimiter) lose nothing; extra values are reported.
     const extra = cells.slice(width).filter((v) => v.trim() !== '');
     if (extra.length > 0) {
-      const shown = extra.slice(0, 3).map((v) => `"${v}"`).join(', ') + (extra.length > 3 ? ', ...' : '');
+      // Every extra value is named: the message is the only place they survive.
+      const shown = extra.map((v) => `"${v}"`).join(', ');
       st.rowProblems.push({
         row: dataRow,
         message: rowMessage(st.record, undefined, `expected ${width} cells, got ${cells.length}; extra values ${shown} were dropped`),
@@ -302,12 +343,13 @@ function takeRecord(path: string, st: ParseState, cells: string[], errors: Papa.
 function finish(path: string, st: ParseState, delimiter: CsvDelimiter): RawTable {
   if (st.headers === null) throw new StopError('input', 'is empty, expected a header row and data rows', { file: path });
   if (st.rowNumbers.length === 0) {
-    throw new StopError('input', 'has a header row but no data rows', { file: path });
+    throw new StopError('input', 'has a header row but no data rows, expected at least one row of data below the header', { file: path });
   }
   return {
     source: path,
     headers: st.headers,
-    columns: st.columns,
+    headerRow: st.headerRow,
+    columns: st.columns!.finish(st.rowNumbers.length),
     rowCount: st.rowNumbers.length,
     rowNumbers: Int32Array.from(st.rowNumbers),
     rowProblems: st.rowProblems,
@@ -372,4 +414,94 @@ export function firstInvalidUtf8(buf: Buffer, complete: boolean): number {
     i += need + 1;
   }
   return -1;
+}
+
+/**
+ * Bytes in, text out (one string per chunk): refuses a NUL byte or invalid
+ * UTF-8 anywhere in the file (the head check sees only the first 64 KiB), and
+ * turns CRLF and lone CR into LF. On a problem it stops with `problem` set and
+ * an error, which the parser's error callback reports.
+ */
+class TextChecker extends Transform {
+  problem: { offset: number; why: string } | null = null;
+  private readonly decoder = new TextDecoder('utf-8', { fatal: true });
+  private offset = 0;
+  private previous: Buffer = Buffer.alloc(0);
+  private pendingCr = false;
+
+  constructor() {
+    super({ readableObjectMode: true });
+  }
+
+  override _transform(chunk: Buffer, _encoding: BufferEncoding, callback: (err?: Error | null) => void): void {
+    const nul = chunk.indexOf(0);
+    if (nul >= 0) return callback(this.refuse(this.offset + nul, `it holds binary data (a NUL byte at byte ${this.offset + nul + 1})`));
+    let text: string;
+    try {
+      text = this.decoder.decode(chunk, { stream: true });
+    } catch {
+      // Find the byte: the incomplete sequence the previous chunk ended with, then this chunk.
+      const tail = incompleteTail(this.previous);
+      const joined = Buffer.concat([this.previous.subarray(this.previous.length - tail), chunk]);
+      const at = Math.max(0, firstInvalidUtf8(joined, false));
+      return callback(this.refuse(this.offset - tail + at, invalidUtf8(this.offset - tail + at, joined[at])));
+    }
+    this.offset += chunk.length;
+    this.previous = chunk;
+    this.pushText(text, false);
+    callback();
+  }
+
+  override _flush(callback: (err?: Error | null) => void): void {
+    let text: string;
+    try {
+      text = this.decoder.decode();
+    } catch {
+      const at = this.offset - incompleteTail(this.previous);
+      return callback(this.refuse(at, invalidUtf8(at, this.previous[this.previous.length - (this.offset - at)])));
+    }
+    this.pushText(text, true);
+    callback();
+  }
+
+  private pushText(text: string, last: boolean): void {
+    if (this.pendingCr) text = '\r' + text;
+    this.pendingCr = !last && text.endsWith('\r'); // its LF may start the next chunk
+    if (this.pendingCr) text = text.slice(0, -1);
+    if (text.includes('\r')) text = text.replace(/\r\n?/g, '\n');
+    if (text !== '') this.push(text);
+  }
+
+  private refuse(offset: number, why: string): Error {
+    this.problem = { offset, why };
+    return new Error(why);
+  }
+}
+
+function invalidUtf8(offset: number, byte: number | undefined): string {
+  const hex = byte === undefined ? '' : ` (0x${byte.toString(16).toUpperCase().padStart(2, '0')})`;
+  return `invalid UTF-8 at byte ${offset + 1}${hex}; save it as UTF-8 CSV`;
+}
+
+/** How many bytes at the end of `buf` start a UTF-8 sequence that is not finished (0–3). */
+function incompleteTail(buf: Buffer): number {
+  for (let k = 1; k <= Math.min(3, buf.length); k++) {
+    const b = buf[buf.length - k]!;
+    if ((b & 0xc0) === 0x80) continue; // a continuation byte: look further back
+    if (b < 0xc0) return 0;
+    const need = b >= 0xf0 ? 4 : b >= 0xe0 ? 3 : 2;
+    return need > k ? k : 0;
+  }
+  return 0;
+}
+
+/** 1-based text line of byte `offset` of a file (LF-counted; only read when reporting a problem). */
+async function lineOfByte(path: string, offset: number): Promise<number> {
+  let line = 1;
+  if (offset <= 0) return line;
+  for await (const chunk of createReadStream(path, { start: 0, end: offset - 1 })) {
+    const buf = chunk as Buffer;
+    for (let i = buf.indexOf(10); i >= 0; i = buf.indexOf(10, i + 1)) line++;
+  }
+  return line;
 }

@@ -12,6 +12,8 @@ export interface RawTable {
   source: string;
   /** Header texts, verbatim (a UTF-8 BOM removed). */
   headers: string[];
+  /** 1-based spreadsheet row of the header (1 unless blank rows come first). */
+  headerRow?: number;
   /** Column-major cells: columns[c][r]; a short row's missing cells are null. */
   columns: RawCell[][];
   /** Number of data rows. */

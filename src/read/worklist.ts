@@ -10,7 +10,6 @@ import { extname } from 'node:path';
 import { StopError } from '../errors.js';
 import { checkInputFile, readCsv, readHead, type CsvDelimiter } from './csv.js';
 import type { RawTable } from './types.js';
-import { readXlsx } from './xlsx.js';
 
 export interface WorklistReadOptions {
   /** XLSX only: sheet to read, by exact name. Default: the first sheet. */
@@ -21,6 +20,8 @@ export interface WorklistReadOptions {
   maxUnpackedBytes?: number;
   /** CSV only: field delimiter. Default: sniffed from the header line. */
   delimiter?: CsvDelimiter;
+  /** CSV only: called now and then while reading, with the data rows so far and the part of the file read (0..1). */
+  onRows?: (rows: number, fraction: number) => void;
 }
 
 const CSV_EXTENSIONS = new Set(['.csv', '.txt', '.tsv']);
@@ -52,8 +53,9 @@ export async function readWorklist(path: string, options: WorklistReadOptions = 
       { file: path },
     );
   }
-  const xlsx = () => readXlsx(path, { sheet: options.sheet, maxBytes: options.maxBytes, maxUnpackedBytes: options.maxUnpackedBytes });
-  const csv = () => readCsv(path, { maxBytes: options.maxBytes, delimiter: options.delimiter });
+  // The XLSX reader (and exceljs) is loaded only for a workbook: it is a noticeable part of start-up.
+  const xlsx = async () => (await import('./xlsx.js')).readXlsx(path, { sheet: options.sheet, maxBytes: options.maxBytes, maxUnpackedBytes: options.maxUnpackedBytes });
+  const csv = () => readCsv(path, { maxBytes: options.maxBytes, delimiter: options.delimiter, onRows: options.onRows });
 
   if (XLSX_EXTENSIONS.has(ext)) {
     if (content !== 'zip') {

@@ -38,8 +38,7 @@ export async function readXlsx(path: string, options: XlsxReadOptions = {}): Pro
   try {
     await wb.xlsx.readFile(path);
   } catch (err) {
-    const reason = err instanceof Error ? err.message : String(err);
-    throw new StopError('input', `is not a readable XLSX workbook: ${reason}`, { file: path });
+    throw new StopError('input', `is not a readable XLSX workbook: ${damageReason(err)}; expected a workbook as a spreadsheet program saves it`, { file: path });
   }
   const sheets = wb.worksheets;
   if (sheets.length === 0) {
@@ -123,7 +122,8 @@ function sheetToTable(path: string, ws: ExcelJS.Worksheet): RawTable {
       if (!isEmpty(cells[c]!)) extra.push(`"${String(cells[c]!.value)}" in column ${columnLetters(c + 1)}`);
     }
     if (extra.length > 0) {
-      const shown = extra.slice(0, 3).join(', ') + (extra.length > 3 ? ', ...' : '');
+      // Every extra value is named: the message is the only place they survive.
+      const shown = extra.join(', ');
       problems.push({
         row: dataRow,
         message: rowMessage(r, undefined, `values beyond the last header column were dropped: ${shown}`),
@@ -131,12 +131,13 @@ function sheetToTable(path: string, ws: ExcelJS.Worksheet): RawTable {
     }
   }
   if (rowNumbers.length === 0) {
-    throw new StopError('input', `${where} has a header row but no data rows`, { file: path });
+    throw new StopError('input', `${where} has a header row but no data rows, expected at least one row of data below the header`, { file: path });
   }
 
   return {
     source: path,
     headers,
+    headerRow,
     columns,
     rowCount: rowNumbers.length,
     rowNumbers: Int32Array.from(rowNumbers),
@@ -209,6 +210,18 @@ function isEmpty(cell: CellRead): boolean {
 
 function isBlank(cells: CellRead[]): boolean {
   return cells.every((c) => isEmpty(c) && c.formulaWithoutResult === undefined);
+}
+
+/**
+ * Words for an exceljs failure on a zip that passed the guard: a part that is not
+ * well-formed XML, or a part missing or not as the format wants (exceljs then
+ * fails on an undefined property). The library's own text follows in brackets.
+ */
+function damageReason(err: unknown): string {
+  const text = (err instanceof Error ? err.message : String(err)).split('\n')[0]!.replace(/\.$/, '');
+  if (err instanceof TypeError) return `a part of the workbook is damaged or missing (${text})`;
+  if (/^\d+:\d+:/.test(text) || /xml|entity|tag|root node/i.test(text)) return `a part of the workbook is not well-formed XML (${text})`;
+  return text;
 }
 
 /** 1 → "A", 27 → "AA". */

@@ -96,9 +96,12 @@ export async function commitAll(jobs: readonly WriteJob[], options: AtomicWriteO
   }
 
   // 3. Rename into place, keeping a backup of each replaced file until all are in.
+  //    A signal here waits (see onSignal): the set is rolled back, then the process exits.
   let done = 0;
+  renaming++;
   try {
     for (let i = 0; i < jobs.length; i++) {
+      if (deferredExit !== null) throw new Error('interrupted');
       const target = jobs[i]!.target;
       let backup: string | null = null;
       if (existed[i]) {
@@ -125,6 +128,7 @@ export async function commitAll(jobs: readonly WriteJob[], options: AtomicWriteO
       live.delete(temps[i]!);
       done++;
     }
+    if (deferredExit !== null) throw new Error('interrupted');
   } catch (err) {
     for (let i = done - 1; i >= 0; i--) {
       const target = jobs[i]!.target;
@@ -138,19 +142,37 @@ export async function commitAll(jobs: readonly WriteJob[], options: AtomicWriteO
     }
     await removeAll([...temps, ...backups.filter((b): b is string => b !== null)]);
     throw err;
+  } finally {
+    renaming--;
+    if (renaming === 0 && deferredExit !== null) {
+      removeLiveTempFiles();
+      process.exit(deferredExit);
+    }
   }
   await removeAll(backups.filter((b): b is string => b !== null));
   await fsyncFolders(targets);
 }
 
-const onSigint = () => {
+/** commitAll calls in their rename phase, and the exit code of a signal that came meanwhile. */
+let renaming = 0;
+let deferredExit: number | null = null;
+
+/**
+ * A signal while outputs are being renamed into place would leave a mix of new
+ * and old outputs (and delete the backups of the replaced ones), so it waits:
+ * commitAll puts every output back as it was, then exits with the signal's code.
+ * At any other time the temp files are removed and the process exits at once.
+ */
+const onSignal = (code: number) => () => {
+  if (renaming > 0) {
+    deferredExit = code;
+    return;
+  }
   removeLiveTempFiles();
-  process.exit(130);
+  process.exit(code);
 };
-const onSigterm = () => {
-  removeLiveTempFiles();
-  process.exit(143);
-};
+const onSigint = onSignal(130);
+const onSigterm = onSignal(143);
 
 /**
  * Remove live temp files when the process is interrupted (SIGINT, SIGTERM) or

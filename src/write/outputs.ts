@@ -5,9 +5,10 @@ import type { RecalcResult } from '../pipeline.js';
 import { commitAll, type WriteJob } from './atomic.js';
 import { writeResultsCsv } from './csv.js';
 import { outputColumns } from './output-columns.js';
-import { writeWorkbook, type RunInfo } from './workbook.js';
+import type { RunInfo } from './workbook.js';
 import { htmlReportJobs } from '../report/html.js';
 import type { TrendSeries } from '../history/trends.js';
+import type { OnProgress } from '../progress.js';
 
 export const OUTPUT_KINDS = ['csv', 'xlsx', 'html'] as const;
 export type OutputKind = (typeof OUTPUT_KINDS)[number];
@@ -23,6 +24,25 @@ export interface WriteOptions {
   run: RunInfo;
   /** QC history series (history/trends.ts) for the report's control charts and the workbook's Trends sheet. */
   history?: readonly TrendSeries[];
+  /** Told how many rows have been written (progress.ts draws it on a terminal). */
+  onProgress?: OnProgress;
+}
+
+/** Rows a spreadsheet sheet holds, the header included (Excel's limit, 2^20). */
+export const MAX_SHEET_ROWS = 1_048_576;
+
+/**
+ * Why the workbook is not written for this many rows, or undefined when it is.
+ * A worklist longer than one sheet gets no workbook (its Results would not fit
+ * on one sheet, and a Results sheet split over several is no longer one table
+ * a reviewer can sort and filter); the results CSV is still written in full.
+ */
+export function workbookDeclined(rowsOut: number): string | undefined {
+  if (rowsOut + 1 <= MAX_SHEET_ROWS) return undefined;
+  return (
+    `the workbook was not written: the worklist has ${rowsOut.toLocaleString('en-US')} rows and a spreadsheet sheet holds ` +
+    `${(MAX_SHEET_ROWS - 1).toLocaleString('en-US')} below its header; the results CSV holds every row`
+  );
 }
 
 /** Paths of the single-file outputs of a worklist: `<stem>.results.csv`, `<stem>.xlsx` (reports: one per batch). */
@@ -44,28 +64,48 @@ export async function writeOutputs(result: RecalcResult, options: WriteOptions):
   const paths = outputPaths(result.worklist.path, options.outDir);
   const columns = outputColumns(result);
   const jobs: WriteJob[] = [];
+  // Progress: rows written by the output being written, and the part of all outputs done.
+  let jobsDone = 0;
+  const report = (rows: number, partOfJob: number) =>
+    options.onProgress?.({ stage: 'write', rows, totalRows: result.rowsOut, fraction: (jobsDone + partOfJob) / Math.max(1, jobs.length) });
   if (kinds.includes('csv')) {
     jobs.push({
       target: paths.csv,
       write: (tmp) =>
-        writeResultsCsv(tmp, {
-          headers: columns.map((c) => c.header),
-          columns: columns.map((c) => (c.kind === 'number' ? { kind: 'number', values: c.values } : { kind: 'text', values: c.values })),
-          rowCount: result.rowsOut,
-        }),
+        writeResultsCsv(
+          tmp,
+          {
+            headers: columns.map((c) => c.header),
+            columns: columns.map((c) => (c.kind === 'number' ? { kind: 'number', values: c.values } : { kind: 'text', values: c.values })),
+            rowCount: result.rowsOut,
+          },
+          { onRows: options.onProgress && ((rows) => report(rows, rows / Math.max(1, result.rowsOut))) },
+        ),
     });
   }
-  if (kinds.includes('xlsx')) {
-    jobs.push({ target: paths.xlsx, write: (tmp) => writeWorkbook(tmp, result, { run: options.run }) });
+  const workbook = kinds.includes('xlsx') && workbookDeclined(result.rowsOut) === undefined;
+  if (workbook) {
+    // Loaded only when a workbook is written: exceljs takes a noticeable part of start-up.
+    jobs.push({ target: paths.xlsx, write: async (tmp) => (await import('./workbook.js')).writeWorkbook(tmp, result, { run: options.run }) });
   }
   const written: Record<string, string[]> = {};
   if (kinds.includes('csv')) written.csv = [paths.csv];
-  if (kinds.includes('xlsx')) written.xlsx = [paths.xlsx];
+  if (workbook) written.xlsx = [paths.xlsx];
   if (kinds.includes('html')) {
     const stem = basename(result.worklist.path, extname(result.worklist.path));
     const html = htmlReportJobs(result, { outDir: options.outDir, stem, history: options.history, run: options.run });
     jobs.push(...html);
     written.html = html.map((j) => j.target);
+  }
+  if (options.onProgress) {
+    for (const job of jobs) {
+      const write = job.write;
+      job.write = async (tmp) => {
+        await write(tmp);
+        jobsDone++;
+        report(result.rowsOut, 0);
+      };
+    }
   }
   await commitAll(jobs, { force: options.force });
   return written;

@@ -29,15 +29,26 @@ describe('column mapping', () => {
     }
     expect(err).toBeInstanceOf(StopError);
     expect((err as StopError).describe()).toBe(
-      'test.csv, row 1, column "Sample Volume [L]": the field sample_volume is given twice, in columns "sample_volume" and "Sample Volume [L]"',
+      'test.csv, row 1, column "Sample Volume [L]": the field sample_volume is given twice, in columns "sample_volume" and "Sample Volume [L]"; expected one column per field',
     );
+  });
+
+  it('names the row the header is on when blank rows come first', () => {
+    const raw = { ...rawTable(['sample_id', 'analyte', 'extract_conc', 'sample_volume'], []), headerRow: 3 };
+    let err: unknown;
+    try {
+      mapColumns(raw, generic);
+    } catch (e) {
+      err = e;
+    }
+    expect((err as StopError).describe()).toBe('test.csv, row 3: missing the required column "solvent_volume"');
   });
 
   it('stops on a unit it cannot convert, naming the column', () => {
     const raw = rawTable(['sample_id', 'analyte', 'extract_conc [furlongs]', 'sample_volume', 'solvent_volume'], []);
-    expect(() => mapColumns(raw, generic)).toThrow(/cannot read "furlongs" as a unit/);
+    expect(() => mapColumns(raw, generic)).toThrow(/^cannot read "furlongs" as a unit; expected a concentration unit such as ng\/mL, ug\/L or nmol\/L$/);
     const raw2 = rawTable(['sample_id', 'analyte', 'extract_conc', 'sample_volume [ng/mL]', 'solvent_volume'], []);
-    expect(() => mapColumns(raw2, generic)).toThrow(/cannot convert "ng\/mL" to mL/);
+    expect(() => mapColumns(raw2, generic)).toThrow(/^cannot convert "ng\/mL" \(a mass concentration\) to "mL" \(a volume\); expected a volume unit such as mL, uL or L$/);
   });
 
   it('keeps headers it does not know as extra columns', () => {
@@ -74,6 +85,14 @@ describe('row validation (DESIGN.md §7): the row stays, marked INPUT_ERROR with
     const t = build(headers, [row, ['s2', 'x', '1', '100', '10', 'sample', '1', '1', '5', '7', '']]);
     expect(t.errors.map((e) => e.message)).toEqual([message]);
     expect([...t.rowError]).toEqual([1, 0]);
+  });
+
+  it("a reader's row problem (short or long row) is kept as the reader worded it, not prefixed twice", () => {
+    const raw = rawTable(BASE, [['s1', 'x', '1', '100', '10'], ['s2', 'x', null, null, null]]);
+    raw.rowProblems.push({ row: 1, message: 'row 3: expected 5 cells, got 2' });
+    const t = buildTable(raw, mapColumns(raw, generic), generic);
+    expect(t.errors.map((e) => [e.row, e.code, e.message])).toEqual([[1, 'INPUT_ERROR', 'row 3: expected 5 cells, got 2']]);
+    expect([...t.rowError]).toEqual([0, 1]);
   });
 
   it('a slightly negative extract concentration is a real result, not an error', () => {

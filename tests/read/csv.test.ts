@@ -211,8 +211,8 @@ describe('readCsv: whole-file stops name the file and, where there is one, the l
   it.each<{ name: string; content: string | Buffer; options?: CsvReadOptions; message: RegExp; line?: number; column?: string }>([
     { name: 'empty file', content: '', message: /^is empty, expected a header row and data rows$/ },
     { name: 'only a BOM and blank lines', content: '\uFEFF\n\n  \r\n', message: /^is empty, expected a header row and data rows$/ },
-    { name: 'header only', content: 'a,b\n', message: /^has a header row but no data rows$/ },
-    { name: 'header and blank lines only', content: 'a,b\n\n,\n', message: /^has a header row but no data rows$/ },
+    { name: 'header only', content: 'a,b\n', message: /^has a header row but no data rows, expected at least one row of data below the header$/ },
+    { name: 'header and blank lines only', content: 'a,b\n\n,\n', message: /^has a header row but no data rows, expected at least one row of data below the header$/ },
     {
       name: 'NUL bytes (binary)',
       content: Buffer.from([0x61, 0x2c, 0x62, 0x0a, 0x31, 0x00, 0x02, 0x0a]),
@@ -328,6 +328,71 @@ describe('readCsv: streaming over many chunks', () => {
     // Lines: header 1, 3000 records over textLine - 1 lines, so the bad record starts on textLine + 1.
     expect(err.location.line).toBe(textLine + 1);
     expect(err.message).toContain(`starts on line ${textLine + 1}`);
+  });
+});
+
+describe('readCsv: the whole file is checked, not only its first 64 KiB', () => {
+  /** About 100 KiB of good rows (text lines 2..1601), so damage after them is past the head check. */
+  const body = ['sample_id,conc,note', ...Array.from({ length: 1600 }, (_, i) => `S${i},${i}.5,plain note text for padding`)].join('\n') + '\n';
+  const bodyBytes = Buffer.byteLength(body);
+
+  it.each([
+    {
+      name: 'a Latin-1 byte (µ) at row 1602',
+      tail: Buffer.from([0x53, 0x2c, 0x31, 0x2c, 0xb5, 0x67, 0x0a]), // "S,1,\xB5g\n"
+      // RFC 3629: 0xB5 alone is not UTF-8. The byte is the 5th of the last line.
+      message: `does not look like a CSV text file: invalid UTF-8 at byte ${bodyBytes + 5} (0xB5); save it as UTF-8 CSV`,
+    },
+    {
+      name: 'a NUL byte at row 1602',
+      tail: Buffer.from([0x53, 0x2c, 0x00, 0x0a]),
+      message: `does not look like a CSV text file: it holds binary data (a NUL byte at byte ${bodyBytes + 3})`,
+    },
+    {
+      name: 'a UTF-8 sequence cut short by the end of the file',
+      tail: Buffer.from([0x53, 0x2c, 0xe2, 0x82]), // the first two bytes of "€"
+      message: `does not look like a CSV text file: invalid UTF-8 at byte ${bodyBytes + 3} (0xE2); save it as UTF-8 CSV`,
+    },
+  ])('$name stops the run with the byte and its text line', async ({ tail, message }) => {
+    const err = await stopOf(readCsv(await csvFile(Buffer.concat([Buffer.from(body), tail]))));
+    expect(err.message).toBe(message);
+    expect(err.location.line).toBe(1602);
+    expect(err.describe()).toMatch(/, line 1602: does not look like a CSV text file: /);
+  });
+
+  it('multi-byte characters split across stream chunks are read whole', async () => {
+    // "µ" (2 bytes) and "😀" (4 bytes) repeated, so some straddle a 64 KiB chunk edge.
+    const note = 'µ😀'.repeat(20);
+    const text = ['sample_id,note', ...Array.from({ length: 3000 }, (_, i) => `S${i},${note}`)].join('\n') + '\n';
+    const t = await readCsv(await csvFile(text));
+    expect(t.rowCount).toBe(3000);
+    expect(t.columns[1]!.every((v) => v === note)).toBe(true);
+  });
+});
+
+describe('readCsv: line ends', () => {
+  it('CRLF, LF and lone CR mixed in one file each end a record: no row is glued to the next', async () => {
+    const t = await readCsv(await csvFile('a,b\r\n1,x\r\n2,y\n3,z\r4,w\r\n'));
+    expect(t.columns[0]).toEqual(['1', '2', '3', '4']);
+    expect(t.columns[1]).toEqual(['x', 'y', 'z', 'w']);
+    expect(Array.from(t.rowNumbers)).toEqual([2, 3, 4, 5]);
+    expect(t.rowProblems).toEqual([]);
+  });
+
+  it('a CRLF split across two stream chunks is one line end', async () => {
+    // A 17-byte header, then rows of 16 bytes: CRs sit at byte offsets 15 + 16m, so the CR of
+    // row 4095 is the last byte of the first 64 KiB stream chunk (offset 65535) and its LF starts the next.
+    const rows = Array.from({ length: 9000 }, (_, i) => `${String(i).padStart(5, '0')},abcdefgh\r\n`);
+    const t = await readCsv(await csvFile('sample_id,numbr\r\n' + rows.join('')));
+    expect(t.rowCount).toBe(9000);
+    expect(Array.from(t.rowNumbers)).toEqual(Array.from({ length: 9000 }, (_, i) => i + 2));
+    expect(t.columns[1]!.every((v) => v === 'abcdefgh')).toBe(true);
+  });
+
+  it('the header row is recorded when blank lines come first', async () => {
+    const t = await readCsv(await csvFile('\n\na,b\n1,2\n'));
+    expect(t.headerRow).toBe(3);
+    expect(Array.from(t.rowNumbers)).toEqual([4]);
   });
 });
 

@@ -109,7 +109,8 @@ describe('readWorklist catches a file that is not what its name says', () => {
     expect(err.kind).toBe('input');
     expect(err.message).toBe(message);
     expect(err.location.line).toBe(line);
-    expect(err.describe()).toBe(`${p}${line === undefined ? '' : `, row ${line}`}: ${message}`);
+    // A place found in the text itself is a text line, printed as such.
+    expect(err.describe()).toBe(`${p}${line === undefined ? '' : `, line ${line}`}: ${message}`);
   });
 
   it('a missing file', async () => {

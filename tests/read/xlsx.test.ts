@@ -155,7 +155,7 @@ describe('readXlsx: whole-file stops', () => {
     {
       name: 'header only',
       make: () => workbook('header.xlsx', (wb) => void wb.addWorksheet('H').addRow(['a', 'b'])),
-      message: /^sheet "H" has a header row but no data rows$/,
+      message: /^sheet "H" has a header row but no data rows, expected at least one row of data below the header$/,
     },
     {
       name: 'a duplicated header',

@@ -1,0 +1,76 @@
+/**
+ * `phasebook verify WORKBOOK`: recompute every computed cell of a handed-over
+ * workbook from its own input cells with the method it carries, compare with what
+ * is stored, and check the integrity digest.
+ *
+ * Exit 0: untouched. Exit 1: one line per difference on standard output (sheet,
+ * cell, worklist row, sample id, the two values). Exit 2: not a phasebook
+ * workbook, or unreadable.
+ */
+import type { Command } from 'commander';
+import { StopError } from '../errors.js';
+import { formatDifference } from '../verify/difference.js';
+import { verifyWorkbook } from '../verify/verify.js';
+
+const EXIT_OK = 0;
+const EXIT_DIFFERENCES = 1;
+const EXIT_STOP = 2;
+
+export interface VerifyIo {
+  exit: (code: number) => void;
+  /** Difference lines; default process.stdout. */
+  stdout?: (text: string) => void;
+  /** The summary line and errors; default process.stderr. */
+  stderr?: (text: string) => void;
+}
+
+interface VerifyCliOptions {
+  quiet?: boolean;
+}
+
+/** Standard output that tolerates a reader going away (`phasebook verify x.xlsx | head`). */
+function writeToStdout(text: string): void {
+  if (!process.stdout.listeners('error').includes(ignoreEpipe)) process.stdout.on('error', ignoreEpipe);
+  process.stdout.write(text);
+}
+
+function ignoreEpipe(err: NodeJS.ErrnoException): void {
+  if (err.code !== 'EPIPE') throw err;
+}
+
+export function registerVerifyCommand(program: Command, io: VerifyIo): void {
+  const stdout = io.stdout ?? writeToStdout;
+  const stderr = io.stderr ?? ((t: string) => void process.stderr.write(t));
+  program
+    .command('verify')
+    .description('check a phasebook workbook: recompute it from its own input cells and method, compare, and check its integrity digest')
+    .argument('<workbook>', 'workbook (.xlsx) written by "phasebook recalc"')
+    .option('-q, --quiet', 'print the differences only, not the summary line')
+    .action(async (workbook: string, opts: VerifyCliOptions) => {
+      let report;
+      try {
+        report = await verifyWorkbook(workbook);
+      } catch (err) {
+        if (!(err instanceof StopError)) throw err;
+        stderr(`phasebook: ${err.describe()}\n`);
+        io.exit(EXIT_STOP);
+        return;
+      }
+      const n = report.differences.length;
+      if (n > 0) stdout(report.differences.map(formatDifference).join('\n') + '\n');
+      if (!opts.quiet) {
+        const digest =
+          report.digestMatches === undefined
+            ? 'the integrity digest could not be checked'
+            : report.digestMatches
+              ? 'the integrity digest matches'
+              : 'the integrity digest does not match';
+        stderr(
+          n === 0
+            ? `phasebook verify: ${workbook}: untouched: ${report.rows} rows recomputed, every cell matches; ${digest}\n`
+            : `phasebook verify: ${workbook}: ${n} difference${n === 1 ? '' : 's'}; ${digest}\n`,
+        );
+      }
+      io.exit(n === 0 ? EXIT_OK : EXIT_DIFFERENCES);
+    });
+}

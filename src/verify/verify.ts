@@ -1,0 +1,386 @@
+/**
+ * `phasebook verify WORKBOOK`: is this workbook what phasebook wrote, and do its
+ * numbers follow from its own inputs?
+ *
+ * 1. Read the workbook; a file that is not a phasebook workbook stops (StopError).
+ * 2. Re-read the method from the Method sheet's text and rebuild the worklist from
+ *    the Results sheet's input columns (worklist row numbers and reading problems
+ *    from the Provenance sheet).
+ * 3. Recalculate (recalculateTable) and plan the workbook again with the facts of
+ *    the original run (time, command, versions) as stored.
+ * 4. Compare every cell of every sheet, formulas included, with the plan; recompute
+ *    the integrity digest from the stored cells and compare it with the recorded one;
+ *    report worklist rows that are missing or new.
+ *
+ * Every difference is data (a Difference); nothing is printed here.
+ */
+import { StopError } from '../errors.js';
+import { parseMethod } from '../method/load.js';
+import type { Method } from '../method/types.js';
+import { recalculateTable, type RecalcResult } from '../pipeline.js';
+import type { RawCell, RawTable, RowProblem } from '../read/types.js';
+import type { CellValue, RowContext } from '../write/workbook/cells.js';
+import { IntegrityDigest, sha256Text } from '../write/workbook/digest.js';
+import { FLAGS_SHEET } from '../write/workbook/flags-sheet.js';
+import { IN_HOUSE_TITLE, LIMITS_TITLE, LINE_ENDS_KEY, METHOD_SHEET, METHOD_TEXT_TITLE, lineEndOf } from '../write/workbook/method-sheet.js';
+import { inHouseKey, type InHouseLimits } from '../qc/limits.js';
+import { WORKBOOK_FORMAT } from '../write/workbook/options.js';
+import { SHEET_ORDER, planWorkbook } from '../write/workbook/plan.js';
+import {
+  FORMULAS_LIVE,
+  KEYS,
+  PROVENANCE_MARKER,
+  PROVENANCE_SHEET,
+  READING_PROBLEMS_TITLE,
+} from '../write/workbook/provenance-sheet.js';
+import { QC_SHEET } from '../write/workbook/qc-sheet.js';
+import { RESULTS_SHEET, WORKLIST_ROW_HEADER } from '../write/workbook/results-sheet.js';
+import { SUMMARY_SHEET } from '../write/workbook/summary-sheet.js';
+import { compareSheet } from './compare.js';
+import { showValue, type Difference } from './difference.js';
+import { readStoredWorkbook, type StoredCell, type StoredSheet, type StoredWorkbook } from './read.js';
+
+export interface VerifyOptions {
+  /** Refuse workbooks that unpack past this many bytes (default 512 MiB). */
+  maxUnpackedBytes?: number;
+}
+
+export interface VerifyReport {
+  path: string;
+  differences: Difference[];
+  /** Data rows found on the Results sheet. */
+  rows: number;
+  /** True when the digest recorded in the Provenance sheet matches the stored cells; undefined when it could not be checked. */
+  digestMatches: boolean | undefined;
+}
+
+const notPhasebook = (path: string, why: string) => new StopError('input', `is not a phasebook workbook: ${why}`, { file: path });
+
+export async function verifyWorkbook(path: string, options: VerifyOptions = {}): Promise<VerifyReport> {
+  const stored = await readStoredWorkbook(path, { maxUnpackedBytes: options.maxUnpackedBytes });
+  const provenance = stored.sheet(PROVENANCE_SHEET);
+  if (!provenance) throw notPhasebook(path, `it has no "${PROVENANCE_SHEET}" sheet`);
+  const marker = provenance.row(1);
+  if (marker.get(1)?.value !== PROVENANCE_MARKER) {
+    throw notPhasebook(path, `cell ${PROVENANCE_SHEET}!A1 holds ${showValue(marker.get(1)?.value)}, expected "${PROVENANCE_MARKER}"`);
+  }
+  const format = marker.get(2)?.value;
+  if (format !== WORKBOOK_FORMAT) {
+    throw notPhasebook(path, `it was written in the format ${showValue(format)}; this phasebook reads "${WORKBOOK_FORMAT}"`);
+  }
+  const results = stored.sheet(RESULTS_SHEET);
+  const methodSheet = stored.sheet(METHOD_SHEET);
+  if (!results) throw notPhasebook(path, `it has no "${RESULTS_SHEET}" sheet`);
+  if (!methodSheet) throw notPhasebook(path, `it has no "${METHOD_SHEET}" sheet`);
+
+  const facts = keyValues(provenance);
+  const need = (key: string): CellValue => {
+    const v = facts.get(key)?.value;
+    if (v === undefined) throw notPhasebook(path, `the ${PROVENANCE_SHEET} sheet has no "${key}"`);
+    return v;
+  };
+  const needNumber = (key: string): number => {
+    const v = need(key);
+    if (typeof v !== 'number') throw notPhasebook(path, `the ${PROVENANCE_SHEET} sheet's "${key}" is ${showValue(v)}, expected a number`);
+    return v;
+  };
+  const needText = (key: string): string => {
+    const v = need(key);
+    return v === null ? '' : String(v);
+  };
+  const inputCount = needNumber(KEYS.inputColumns);
+  const differences: Difference[] = [];
+
+  const order = stored.order.join(', ');
+  if (order !== SHEET_ORDER.join(', ')) {
+    differences.push({ sheet: 'Workbook', message: `the sheets are ${order}, expected ${SHEET_ORDER.join(', ')}` });
+  }
+
+  // The method, from its text on the Method sheet.
+  const text = readMethodText(methodSheet);
+  let method: Method;
+  try {
+    method = parseMethod(text.text, { file: needText(KEYS.methodFile) });
+  } catch (err) {
+    if (!(err instanceof StopError)) throw err;
+    differences.push({
+      sheet: METHOD_SHEET,
+      address: `B${text.firstRow}`,
+      label: METHOD_TEXT_TITLE,
+      message: `the method text no longer reads as a method: ${err.describe()}`,
+    });
+    return finish(path, differences, results, { digestMatches: undefined });
+  }
+
+  // The worklist, from the Results sheet's input columns.
+  const raw = rebuildWorklist(results, provenance, {
+    path,
+    inputCount,
+    decimalComma: facts.get(KEYS.decimalComma)?.value === 'yes',
+  });
+  let result: RecalcResult;
+  try {
+    result = recalculateTable(raw, {
+      method,
+      inHouse: storedInHouseLimits(methodSheet),
+      worklist: {
+        path: needText(KEYS.worklistName),
+        name: needText(KEYS.worklistName),
+        bytes: needNumber(KEYS.worklistBytes),
+        sha256: needText(KEYS.worklistSha),
+      },
+    });
+  } catch (err) {
+    if (!(err instanceof StopError)) throw err;
+    differences.push({ sheet: RESULTS_SHEET, address: 'A1', message: `the worklist columns can no longer be read: ${err.describe()}` });
+    return finish(path, differences, results, { digestMatches: undefined });
+  }
+
+  const plan = planWorkbook(result, {
+    run: {
+      timestamp: needText(KEYS.time),
+      command: needText(KEYS.command),
+      version: needText(KEYS.version),
+      node: needText(KEYS.node),
+    },
+    formulaRowLimit: needNumber(KEYS.formulaRowLimit),
+    maxNotes: needNumber(KEYS.maxNotes),
+    formulas: need(KEYS.formulas) === FORMULAS_LIVE,
+    readAs: needText(KEYS.readAs),
+    decimalComma: facts.get(KEYS.decimalComma)?.value === 'yes',
+  });
+
+  // Compare sheet by sheet, taking the digest over the stored Results rows on the way.
+  const digest = new IntegrityDigest();
+  const sheetOrMissing = (name: string): StoredSheet | undefined => {
+    const s = stored.sheet(name);
+    if (!s) differences.push({ sheet: name, message: 'the sheet is missing' });
+    return s;
+  };
+  // Root causes first: the method, then the Results rows, then what follows from them.
+  differences.push(...compareSheet(plan.method, methodSheet));
+  const resultsWidth = plan.results.layout.columns.length;
+  differences.push(...missingRows(stored, provenance, raw));
+  differences.push(
+    ...compareSheet(plan.results.plan, results, {
+      onStoredRow: (_r, cells) => digest.addResultsRow(rowValues(cells, resultsWidth), plan.approximate),
+    }),
+  );
+  const qc = sheetOrMissing(QC_SHEET);
+  if (qc) differences.push(...compareSheet(plan.qc, qc));
+  const flags = sheetOrMissing(FLAGS_SHEET);
+  if (flags) differences.push(...compareSheet(plan.flags, flags));
+  const summary = sheetOrMissing(SUMMARY_SHEET);
+  if (summary) differences.push(...compareSheet(plan.summary, summary));
+
+  digest.addMethod(sha256Text(text.text), storedLimits(methodSheet));
+  const recomputed = digest.hex();
+  const recorded = facts.get(KEYS.digest)?.value;
+  differences.push(...compareSheet(plan.provenance(recomputed), provenance));
+  return finish(path, differences, results, { digestMatches: recorded === recomputed });
+}
+
+function finish(path: string, differences: Difference[], results: StoredSheet, extra: { digestMatches: boolean | undefined }): VerifyReport {
+  return { path, differences, rows: Math.max(0, results.lastRow - 1), ...extra };
+}
+
+/** Column A key → column B cell of the Provenance sheet (the first time a key appears). */
+function keyValues(sheet: StoredSheet): Map<string, StoredCell> {
+  const out = new Map<string, StoredCell>();
+  for (let r = 1; r <= sheet.lastRow; r++) {
+    const cells = sheet.row(r);
+    const key = cells.get(1)?.value;
+    if (typeof key === 'string' && !out.has(key)) out.set(key, cells.get(2) ?? { value: null });
+  }
+  return out;
+}
+
+/** The row whose column A holds `title`, or 0. */
+function findTitle(sheet: StoredSheet, title: string): number {
+  for (let r = 1; r <= sheet.lastRow; r++) if (sheet.row(r).get(1)?.value === title) return r;
+  return 0;
+}
+
+function readMethodText(sheet: StoredSheet): { text: string; firstRow: number } {
+  const title = findTitle(sheet, METHOD_TEXT_TITLE);
+  let ends = '\n';
+  for (let r = 1; r <= sheet.lastRow; r++) {
+    const cells = sheet.row(r);
+    if (cells.get(1)?.value === LINE_ENDS_KEY) ends = lineEndOf(String(cells.get(2)?.value ?? ''));
+  }
+  const lines: string[] = [];
+  const firstRow = title + 2;
+  if (title > 0) {
+    for (let r = firstRow; r <= sheet.lastRow; r++) {
+      const cells = sheet.row(r);
+      if (typeof cells.get(1)?.value !== 'number') break;
+      const v = cells.get(2)?.value;
+      lines.push(v === null || v === undefined ? '' : String(v));
+    }
+  }
+  return { text: lines.join(ends), firstRow };
+}
+
+/** The in-house limits the run applied, as the Method sheet recorded them (undefined when it records none). */
+function storedInHouseLimits(sheet: StoredSheet): InHouseLimits | undefined {
+  const title = findTitle(sheet, IN_HOUSE_TITLE);
+  if (title === 0) return undefined;
+  const out = new Map<string, { low: number; high: number; n: number }>();
+  for (let r = title + 2; r <= sheet.lastRow; r++) {
+    const cells = sheet.row(r);
+    if (cells.size === 0) break;
+    const [analyte, type, low, high, n] = [1, 2, 3, 4, 5].map((c) => cells.get(c)?.value);
+    if (typeof low !== 'number' || typeof high !== 'number') continue;
+    out.set(inHouseKey(String(analyte ?? ''), String(type ?? '')), { low, high, n: typeof n === 'number' ? n : 0 });
+  }
+  return out;
+}
+
+/** The stored acceptance limits table (six columns) and in-house limits table (five), for the digest. */
+function storedLimits(sheet: StoredSheet): CellValue[][] {
+  const rows: CellValue[][] = [];
+  const table = (title: string, width: number) => {
+    const at = findTitle(sheet, title);
+    if (at === 0) return;
+    for (let r = at + 2; r <= sheet.lastRow; r++) {
+      const cells = sheet.row(r);
+      if (cells.size === 0) break;
+      rows.push(Array.from({ length: width }, (_, i) => cells.get(i + 1)?.value ?? null));
+    }
+  };
+  table(LIMITS_TITLE, 6);
+  table(IN_HOUSE_TITLE, 5);
+  return rows;
+}
+
+function rowValues(cells: ReadonlyMap<number, StoredCell>, width: number): CellValue[] {
+  const w = Math.max(width, cells.size ? Math.max(...cells.keys()) : 0);
+  const out = new Array<CellValue>(w).fill(null);
+  for (const [c, cell] of cells) out[c - 1] = cell.value;
+  return out;
+}
+
+/** The worklist as the Results sheet holds it: its input columns, worklist row numbers, reading problems. */
+function rebuildWorklist(
+  results: StoredSheet,
+  provenance: StoredSheet,
+  options: { path: string; inputCount: number; decimalComma: boolean },
+): RawTable {
+  const n = options.inputCount;
+  const header = results.row(1);
+  const headers: string[] = [];
+  for (let c = 1; c <= n; c++) {
+    const v = header.get(c)?.value;
+    headers.push(v === null || v === undefined ? '' : String(v));
+  }
+  const worklistRowColumn = n + 1;
+  const columns: RawCell[][] = headers.map(() => []);
+  const rowNumbers: number[] = [];
+  for (let r = 2; r <= results.lastRow; r++) {
+    const cells = results.row(r);
+    for (let c = 1; c <= n; c++) columns[c - 1]!.push(cells.get(c)?.value ?? null);
+    const wr = cells.get(worklistRowColumn)?.value;
+    rowNumbers.push(typeof wr === 'number' && Number.isInteger(wr) && wr > 0 ? wr : r);
+  }
+  const byWorklistRow = new Map<number, number>();
+  rowNumbers.forEach((w, i) => {
+    if (!byWorklistRow.has(w)) byWorklistRow.set(w, i);
+  });
+  const rowProblems: RowProblem[] = [];
+  const title = findTitle(provenance, READING_PROBLEMS_TITLE);
+  if (title > 0) {
+    for (let r = title + 2; r <= provenance.lastRow; r++) {
+      const cells = provenance.row(r);
+      const w = cells.get(1)?.value;
+      if (typeof w !== 'number') break;
+      const row = byWorklistRow.get(w);
+      if (row === undefined) continue;
+      const column = cells.get(2)?.value;
+      rowProblems.push({ row, column: column === null || column === undefined ? undefined : String(column), message: String(cells.get(3)?.value ?? '') });
+    }
+  }
+  return {
+    source: options.path,
+    headers,
+    columns,
+    rowCount: rowNumbers.length,
+    rowNumbers: Int32Array.from(rowNumbers),
+    rowProblems,
+    format: { kind: 'xlsx', decimalComma: options.decimalComma },
+  };
+}
+
+/** Worklist rows the Provenance sheet lists that the Results sheet no longer holds, and rows it never listed. */
+function missingRows(stored: StoredWorkbook, provenance: StoredSheet, raw: RawTable): Difference[] {
+  const out: Difference[] = [];
+  const listed = keyValues(provenance).get(KEYS.worklistRows)?.value;
+  if (typeof listed !== 'string' && typeof listed !== 'number') return out;
+  const expected = parseRanges(String(listed));
+  if (expected === undefined) return out;
+  const present = new Set(raw.rowNumbers);
+  const expectedSet = new Set(expected);
+  // Where each missing row would have been: after the last present row before it.
+  let sheetRow = 2;
+  let next = 0;
+  const rows = Array.from(raw.rowNumbers);
+  for (const w of expected) {
+    while (next < rows.length && rows[next]! < w) {
+      next++;
+      sheetRow = next + 2;
+    }
+    if (present.has(w)) continue;
+    const before = next > 0 ? `worklist row ${rows[next - 1]}` : 'the header';
+    const after = next < rows.length ? `worklist row ${rows[next]}` : 'the end';
+    out.push({
+      sheet: RESULTS_SHEET,
+      address: `A${sheetRow}`,
+      context: { worklistRow: w, sampleId: sampleIdOf(stored, w) ?? '(not recorded on the QC or Flags sheet)' },
+      message: `the row is missing: it was written between ${before} and ${after} but is no longer in the sheet (deleted?)`,
+    });
+  }
+  rows.forEach((w, i) => {
+    if (!expectedSet.has(w)) {
+      out.push({
+        sheet: RESULTS_SHEET,
+        address: `A${i + 2}`,
+        label: WORKLIST_ROW_HEADER,
+        message: `worklist row ${w} was not in the workbook as written (added?)`,
+      });
+    }
+  });
+  return out;
+}
+
+/** A worklist row's sample id as the QC or Flags sheet recorded it. */
+function sampleIdOf(stored: StoredWorkbook, worklistRow: number): string | undefined {
+  for (const name of [QC_SHEET, FLAGS_SHEET]) {
+    const sheet = stored.sheet(name);
+    if (!sheet) continue;
+    for (let r = 1; r <= sheet.lastRow; r++) {
+      const cells = sheet.row(r);
+      // Both sheets: worklist row in column A, sample_id in column C.
+      if (cells.get(1)?.value !== worklistRow) continue;
+      const id = cells.get(3)?.value;
+      if (id !== null && id !== undefined) return String(id);
+    }
+  }
+  return undefined;
+}
+
+/** `2-41` or `2-10, 12-41` → the row numbers; undefined when unreadable. */
+export function parseRanges(text: string): number[] | undefined {
+  const out: number[] = [];
+  if (text.trim() === '') return out;
+  for (const part of text.split(',')) {
+    const m = /^\s*(\d+)(?:\s*-\s*(\d+))?\s*$/.exec(part);
+    if (!m) return undefined;
+    const a = Number(m[1]);
+    const b = m[2] === undefined ? a : Number(m[2]);
+    if (b < a || b - a > 10_000_000) return undefined;
+    for (let x = a; x <= b; x++) out.push(x);
+  }
+  return out;
+}
+
+export type { Difference } from './difference.js';
+export type { RowContext };

@@ -1,0 +1,68 @@
+/**
+ * The integrity digest recorded in the Provenance sheet: SHA-256 over a canonical
+ * serialisation of what was handed over, so `phasebook verify` can recompute it
+ * from the stored cells.
+ *
+ * Serialisation (UTF-8, one line each, "\n" after every line):
+ *   `phasebook integrity digest 1`
+ *   every row of the Results sheet, header included: a JSON array with one entry per
+ *     column: a number, a text, or null for an empty cell; numbers of the as-used and
+ *     computed columns are taken to 12 significant digits (so a spreadsheet that
+ *     recalculates and saves its own last-digit differences does not break the
+ *     digest), every other cell exactly;
+ *   `method <SHA-256 of the method text on the Method sheet>`;
+ *   every row of the acceptance limits table on the Method sheet, then of the in-house
+ *     limits table where the method uses one, as a JSON array.
+ */
+import { createHash, type Hash } from 'node:crypto';
+import type { CellValue } from './cells.js';
+
+export const DIGEST_HEADER = 'phasebook integrity digest 1';
+
+export const DIGEST_DESCRIPTION =
+  'SHA-256 over, one line each: "phasebook integrity digest 1"; every row of the Results sheet, header included, as a JSON array ' +
+  '(empty cells null; as-used and computed numbers to 12 significant digits, all other cells exact); "method " and the SHA-256 of ' +
+  'the method text on the Method sheet; every row of the acceptance limits table on the Method sheet (and of the in-house limits ' +
+  'table, when the method uses in-house limits) as a JSON array. ' +
+  'phasebook verify recomputes it from the stored cells.';
+
+function canonical(v: CellValue | undefined, approximate: boolean): CellValue {
+  if (v === undefined || v === null || v === '') return null;
+  if (typeof v === 'number' && approximate) return Number(v.toPrecision(12));
+  return v;
+}
+
+export class IntegrityDigest {
+  private readonly hash: Hash = createHash('sha256');
+
+  constructor() {
+    this.hash.update(`${DIGEST_HEADER}\n`, 'utf8');
+  }
+
+  /** One Results row; `approximate[c]` marks the as-used and computed columns. */
+  addResultsRow(values: readonly (CellValue | undefined)[], approximate: readonly boolean[]): void {
+    // The JSON array of the canonical values, built directly (this runs once per row).
+    const width = Math.max(values.length, approximate.length);
+    let line = '[';
+    for (let c = 0; c < width; c++) {
+      const v = canonical(values[c], approximate[c] === true);
+      if (c > 0) line += ',';
+      line += v === null ? 'null' : typeof v === 'number' ? String(v) : JSON.stringify(v);
+    }
+    this.hash.update(`${line}]\n`, 'utf8');
+  }
+
+  addMethod(textSha256: string, limits: readonly (readonly (CellValue | undefined)[])[]): void {
+    this.hash.update(`method ${textSha256}\n`, 'utf8');
+    for (const row of limits) this.hash.update(`${JSON.stringify(row.map((v) => canonical(v, false)))}\n`, 'utf8');
+  }
+
+  hex(): string {
+    return this.hash.digest('hex');
+  }
+}
+
+/** SHA-256 of a text (the method file as the Method sheet holds it). */
+export function sha256Text(text: string): string {
+  return createHash('sha256').update(text, 'utf8').digest('hex');
+}

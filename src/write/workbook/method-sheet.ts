@@ -1,0 +1,336 @@
+/**
+ * The Method sheet: the method as applied to this worklist. Fields with their
+ * units and the worklist column each came from, the look-up tables the Results
+ * sheet's "as used" formulas read (sample type codes, acid/base words, analyte
+ * names), analyte data, acceptance limits, every formula as written, the QC
+ * options, and the method file's full text, one line per row; `phasebook verify`
+ * re-reads the method from that text.
+ *
+ * Cells the Results formulas reference (analyte data, field defaults, look-up
+ * ranges) are handed back as absolute references in MethodRefs.
+ */
+import { FIELD_SPECS, SAMPLE_TYPES, type CanonicalField } from '../../columns/fields.js';
+import { conversionFactor } from '../../columns/units.js';
+import type { ControlKind, LimitSet, LimitTable, Method } from '../../method/types.js';
+import type { RecalcResult } from '../../pipeline.js';
+import { COMPARISON_RULE } from '../../qc/compare.js';
+import { ACID_WORDS, BASE_WORDS, NEUTRAL_WORDS } from '../sheet-formula.js';
+import { SheetBuilder } from './builder.js';
+import { absoluteRange, absoluteRef, cell, sheetText, type CellValue, type SheetPlan } from './cells.js';
+
+export const METHOD_SHEET = 'Method';
+export const METHOD_TEXT_TITLE = 'Method file text';
+export const LIMITS_TITLE = 'Acceptance limits';
+export const LINE_ENDS_KEY = 'line ends of the method file';
+export const IN_HOUSE_TITLE = 'In-house recovery limits applied (from the QC history)';
+
+/** The in-house limits that judged this run's controls, one per (analyte, control type), from the rows they judged. */
+export function inHouseApplied(result: RecalcResult): { analyte: string; type: string; low: number; high: number; n: number }[] {
+  const seen = new Map<string, { analyte: string; type: string; low: number; high: number; n: number }>();
+  const analyte = result.table.texts.get('analyte')!;
+  result.qc.limits.forEach((lim, r) => {
+    const m = /in-house control limits \(mean ± 3s of (\d+) /.exec(lim?.origin ?? '');
+    if (!m || !lim.recovery) return;
+    const type = result.table.sampleType[r]!;
+    const key = `${analyte[r]!.trim().toLowerCase()}\u0000${type}`;
+    if (!seen.has(key)) seen.set(key, { analyte: analyte[r]!, type, low: lim.recovery[0], high: lim.recovery[1], n: Number(m[1]) });
+  });
+  return [...seen.values()];
+}
+
+const LINE_END_TEXT: Record<string, string> = { '\n': 'LF', '\r\n': 'CRLF', '\r': 'CR' };
+
+/** The method file's line ends (the first one found), by name; verify joins the text lines with it. */
+export function lineEnds(text: string): string {
+  const m = /\r\n|\r|\n/.exec(text);
+  return m ? LINE_END_TEXT[m[0]]! : 'LF';
+}
+
+/** The line end a name stands for (LF when unknown). */
+export function lineEndOf(name: string): string {
+  return Object.entries(LINE_END_TEXT).find(([, v]) => v === name)?.[0] ?? '\n';
+}
+
+/** The method text split into the lines the Method sheet shows. */
+export function methodLines(text: string): string[] {
+  return text.split(/\r\n|\r|\n/);
+}
+
+/** Analyte data the Results formulas may reference. */
+export type AnalyteKey = 'partition_coeff' | 'pka' | 'ph' | 'reporting_limit' | 'acid_base' | 'surrogate';
+
+export interface MethodRefs {
+  /** The default of a field (a number or text cell), when there is one. */
+  fieldDefault(field: CanonicalField): string | undefined;
+  /** An analyte's value; undefined when the method gives none (acid_base and surrogate always exist). */
+  analyte(index: number, key: AnalyteKey): string | undefined;
+  /** The method's default reporting limit, when it has one. */
+  defaultReportingLimit: string | undefined;
+  /** Look-up ranges, two columns each: key (lower case) → value. */
+  sampleTypeCodes: string;
+  acidBaseWords: string;
+  analyteNames: string;
+  /** Keys of each look-up table, for deciding whether a look-up is safe (no wildcards). */
+  lookupKeys: { sampleTypeCodes: string[]; analyteNames: string[] };
+}
+
+/** Numeric defaults phasebook itself applies (DESIGN.md §4) when the method names none. */
+const DESIGN_DEFAULTS: Partial<Record<CanonicalField, number>> = { extractions: 1, dilution: 1 };
+
+const WHEN_EMPTY: Partial<Record<CanonicalField, string>> = {
+  sample_type: 'sample (or the field default)',
+  batch_id: 'one batch',
+  extractions: 'the default',
+  final_volume: 'extractions × solvent_volume',
+  dilution: 'the default',
+  partition_coeff: "10^log_k of the row, else the analyte's partition_coeff (Analytes), else the default; none: E = 100 %",
+  ph: "the analyte's ph (Analytes), else the default",
+  pka: "the analyte's pka (Analytes), else the default",
+  acid_base: "the analyte's acid_base (Analytes), else neutral",
+  reporting_limit: "the analyte's reporting limit (Analytes), else the method's default reporting limit, else the default",
+};
+
+export interface MethodSheet {
+  plan: SheetPlan;
+  refs: MethodRefs;
+}
+
+/**
+ * Plan the Method sheet. `formulaForms` gives, per formula column, how the
+ * Results sheet carries it (a formula, or why not); cell positions do not depend
+ * on it, so refs can be taken from a first call without it.
+ */
+export function planMethodSheet(result: RecalcResult, options: { formulaForms?: readonly string[] } = {}): MethodSheet {
+  const { method } = result;
+  const b = new SheetBuilder();
+  const conc = method.units.concentration;
+  const vol = method.units.volume;
+
+  b.title('Method as applied');
+  b.keyValue('name', method.name);
+  b.keyValue('title', method.title);
+  b.keyValue('version', method.version ?? null);
+  b.keyValue('description', method.description?.trim() ?? null);
+  b.keyValue('file', method.file);
+  b.keyValue('SHA-256 of the method file', method.sha256);
+  b.keyValue(LINE_ENDS_KEY, lineEnds(method.text));
+  b.keyValue('volume unit', vol);
+  b.keyValue('concentration unit', conc);
+  b.keyValue('extract concentration unit', method.units.extract_concentration);
+  const rlRow = b.keyValue(`default reporting limit [${conc}]`, method.defaults.reporting_limit ?? null);
+  const defaultReportingLimit = method.defaults.reporting_limit === undefined ? undefined : absoluteRef(METHOD_SHEET, 2, rlRow);
+  b.blank();
+
+  // Fields.
+  b.title('Fields', 'section');
+  const fieldDefaults = new Map<CanonicalField, string>();
+  const fieldRows: CellValue[][] = [];
+  const fieldHeaderRow = b.nextRow;
+  for (const spec of FIELD_SPECS.values()) {
+    const src = result.columnMap.fields.get(spec.name);
+    const cfg = method.fields.get(spec.name);
+    // The engine fills a numeric field only from a numeric default (columns/table.ts).
+    const methodDefault = spec.kind === 'number' && typeof cfg?.default !== 'number' ? undefined : cfg?.default;
+    const designDefault = DESIGN_DEFAULTS[spec.name];
+    const dflt = methodDefault ?? designDefault ?? null;
+    const from = methodDefault !== undefined ? 'method' : designDefault !== undefined ? 'phasebook' : null;
+    const unit = spec.dimension === 'none' ? '' : spec.dimension === 'volume' ? vol : conc;
+    let factor: CellValue = null;
+    if (src && spec.kind === 'number') factor = src.factor ?? 'per analyte (from its molar mass)';
+    if (dflt !== null) fieldDefaults.set(spec.name, absoluteRef(METHOD_SHEET, 9, fieldHeaderRow + 1 + fieldRows.length));
+    fieldRows.push([
+      spec.name,
+      spec.description,
+      spec.kind,
+      unit || null,
+      src?.header ?? '(none)',
+      src ? src.fromUnit || null : null,
+      factor,
+      cfg?.aliases.length ? cfg.aliases.join('; ') : null,
+      dflt,
+      from,
+      WHEN_EMPTY[spec.name] ?? (spec.required ? 'required' : 'empty'),
+    ]);
+  }
+  b.table(
+    ['field', 'meaning', 'kind', 'unit in the method', 'worklist column', 'written in', 'factor to the method unit', 'aliases', 'default', 'default from', 'when the cell is empty'],
+    fieldRows,
+  );
+  b.blank();
+
+  // Look-up tables.
+  b.title('Sample type codes (code in lower case → sample type)', 'section');
+  const codes: [string, string][] = [];
+  for (const [code, type] of method.sampleTypes) if (code !== '') codes.push([code, type]);
+  for (const t of SAMPLE_TYPES) if (!method.sampleTypes.has(t)) codes.push([t, t]);
+  const codeTable = b.table(['code', 'sample type'], codes);
+  b.blank();
+
+  b.title('Acid/base words (word in lower case → form)', 'section');
+  const words: [string, string][] = [
+    ...ACID_WORDS.map((w): [string, string] => [w, 'acid']),
+    ...BASE_WORDS.map((w): [string, string] => [w, 'base']),
+    ...NEUTRAL_WORDS.filter((w) => w !== '').map((w): [string, string] => [w, 'neutral']),
+  ];
+  const wordTable = b.table(['word', 'form'], words);
+  b.blank();
+
+  b.title('Analyte names (name or alias in lower case → analyte)', 'section');
+  const names: [string, string][] = [];
+  const seenNames = new Set<string>();
+  method.analytes.forEach((a) => {
+    for (const n of [a.name, ...a.aliases]) {
+      const key = n.trim().toLowerCase();
+      // The engine keeps the last analyte that claims a name (columns/table.ts).
+      if (seenNames.has(key)) {
+        const i = names.findIndex(([k]) => k === key);
+        names[i] = [key, a.name];
+      } else {
+        seenNames.add(key);
+        names.push([key, a.name]);
+      }
+    }
+  });
+  const nameTable = b.table(['name or alias', 'analyte'], names.length ? names : [['', '']]);
+  b.blank();
+
+  // Analytes.
+  b.title('Analytes', 'section');
+  const extractUnit = method.units.extract_concentration;
+  const analyteCols: Record<AnalyteKey, number> = { partition_coeff: 3, pka: 5, acid_base: 6, ph: 7, reporting_limit: 8, surrogate: 12 };
+  const analyteHeader = b.nextRow;
+  b.table(
+    [
+      'analyte',
+      'aliases',
+      'partition_coeff',
+      'log_k',
+      'pka',
+      'acid_base',
+      'ph',
+      `reporting_limit [${conc}]`,
+      `calibration low [${extractUnit}]`,
+      `calibration high [${extractUnit}]`,
+      'molar_mass [g/mol]',
+      'surrogate (1 = yes)',
+    ],
+    method.analytes.map((a) => [
+      a.name,
+      a.aliases.length ? a.aliases.join('; ') : null,
+      a.partition_coeff ?? null,
+      a.log_k ?? null,
+      a.pka ?? null,
+      a.acid_base ?? 'neutral',
+      a.ph ?? null,
+      a.reporting_limit ?? null,
+      a.calibration_range?.[0] ?? null,
+      a.calibration_range?.[1] ?? null,
+      a.molar_mass ?? null,
+      a.surrogate ? 1 : 0,
+    ]),
+  );
+  b.blank();
+
+  // Limits.
+  b.title(LIMITS_TITLE, 'section');
+  b.table(['scope', 'control type', 'qc level', 'recovery low %', 'recovery high %', 'RPD max %'], limitRows(method));
+  b.blank();
+
+  // In-house limits: where the method judges recovery by the QC history's limits, the
+  // ones applied are recorded here, so verify can judge again without the history.
+  if (method.qc.limitsSource === 'in_house') {
+    b.title(IN_HOUSE_TITLE, 'section');
+    b.table(
+      ['analyte', 'control type', 'recovery low %', 'recovery high %', 'points'],
+      inHouseApplied(result).map((e) => [e.analyte, e.type, e.low, e.high, e.n]),
+    );
+    b.blank();
+  }
+
+  // Formulas.
+  b.title('Formula columns', 'section');
+  b.table(
+    ['column', 'unit', 'expression as written', 'description', 'in the Results sheet'],
+    method.formulas.map((f, i) => [
+      f.name,
+      f.unit || null,
+      f.expr,
+      f.description ?? null,
+      options.formulaForms?.[i] ?? null,
+    ]).map((r) => r.map((v, j) => (j >= 2 ? cell(v, { style: 'wrap' }) : v))),
+  );
+  b.blank();
+
+  b.title('QC options', 'section');
+  b.keyValue('outlier test', method.qc.outlierTest);
+  b.keyValue('alpha', method.qc.alpha);
+  b.keyValue('run rule', method.qc.runRule);
+  b.keyValue('run rule: fraction of all qc rows that must pass', method.qc.runRuleAll);
+  b.keyValue('run rule: fraction at each level that must pass', method.qc.runRulePerLevel);
+  b.keyValue('comparison with limits', COMPARISON_RULE);
+  b.blank();
+
+  b.title(METHOD_TEXT_TITLE, 'section');
+  const lines = methodLines(method.text).map(sheetText);
+  b.table(
+    ['line', 'text'],
+    lines.map((line, i) => [i + 1, line === '' ? null : line]),
+  );
+
+  const refs: MethodRefs = {
+    fieldDefault: (field) => fieldDefaults.get(field),
+    analyte: (index, key) => {
+      const a = method.analytes[index];
+      if (!a) return undefined;
+      if (key !== 'acid_base' && key !== 'surrogate' && a[key] === undefined) return undefined;
+      return absoluteRef(METHOD_SHEET, analyteCols[key], analyteHeader + 1 + index);
+    },
+    defaultReportingLimit,
+    sampleTypeCodes: absoluteRange(METHOD_SHEET, { column: 1, row: codeTable.firstRow }, { column: 2, row: codeTable.lastRow }),
+    acidBaseWords: absoluteRange(METHOD_SHEET, { column: 1, row: wordTable.firstRow }, { column: 2, row: wordTable.lastRow }),
+    analyteNames: absoluteRange(METHOD_SHEET, { column: 1, row: nameTable.firstRow }, { column: 2, row: nameTable.lastRow }),
+    lookupKeys: { sampleTypeCodes: codes.map(([k]) => k), analyteNames: names.map(([k]) => k) },
+  };
+
+  return {
+    plan: b.plan(METHOD_SHEET, { widths: [30, 40, 16, 16, 18, 14, 16, 18, 16, 16, 16, 30] }),
+    refs,
+  };
+}
+
+const KINDS: readonly ControlKind[] = ['lcs', 'lcsd', 'ms', 'msd', 'dup', 'qc', 'surrogate'];
+
+/** One row per (scope, control type, qc level) that sets a limit. */
+export function limitRows(method: Method): CellValue[][] {
+  const rows: CellValue[][] = [];
+  const addTable = (scope: string, table: LimitTable) => {
+    for (const kind of KINDS) {
+      const set = table[kind];
+      if (!set) continue;
+      const push = (level: string, s: LimitSet) => {
+        if (!s.recovery && s.rpd_max === undefined) return;
+        rows.push([scope, kind, level || null, s.recovery?.[0] ?? null, s.recovery?.[1] ?? null, s.rpd_max ?? null]);
+      };
+      push('', set);
+      for (const [level, s] of Object.entries(set.levels ?? {})) push(level, s);
+    }
+  };
+  addTable('method', method.limits);
+  for (const a of method.analytes) addTable(`analyte ${a.name}`, a.limits);
+  return rows;
+}
+
+/** The factor that converts this row's cell of a field into the method's unit; undefined when it cannot. */
+export function rowFactor(result: RecalcResult, field: CanonicalField, row: number): number | undefined {
+  const src = result.columnMap.fields.get(field);
+  if (!src) return undefined;
+  if (src.factor !== undefined) return src.factor;
+  const ai = result.table.analyteIndex[row]!;
+  const molarMass = ai >= 0 ? result.method.analytes[ai]!.molar_mass : undefined;
+  if (!molarMass) return undefined;
+  try {
+    return conversionFactor(src.fromUnit, src.toUnit, { molarMass });
+  } catch {
+    return undefined;
+  }
+}

@@ -1,0 +1,30 @@
+/** Facts about the run that only the caller knows. */
+export interface RunInfo {
+  /** ISO 8601 UTC time of the run (fixed with --timestamp for reproducible files). */
+  timestamp: string;
+  /** The command line as typed. */
+  command: string;
+  /** phasebook version. */
+  version: string;
+  /** Node.js version (default: this process's, `process.version`). */
+  node?: string;
+}
+
+export interface WorkbookOptions {
+  run: RunInfo;
+  /**
+   * Largest worklist (rows) whose Results sheet gets live formulas; above it the
+   * sheet holds values only and says so. Formulas about double the file and its
+   * writing time, and a spreadsheet program that recalculates millions of them on
+   * opening is slow to use. Default DEFAULT_FORMULA_ROW_LIMIT.
+   */
+  formulaRowLimit?: number;
+  /** Most cell notes written in the workbook; marked cells beyond it keep their fill. Default DEFAULT_MAX_NOTES. */
+  maxNotes?: number;
+}
+
+export const DEFAULT_FORMULA_ROW_LIMIT = 100_000;
+export const DEFAULT_MAX_NOTES = 10_000;
+
+/** Identifies a phasebook workbook and the layout `verify` expects. */
+export const WORKBOOK_FORMAT = 'phasebook-workbook 1';

@@ -1,0 +1,84 @@
+/**
+ * The whole workbook as a plan: the six sheets in order (Summary, Results, QC,
+ * Flags, Method, Provenance). The Provenance sheet needs the integrity digest,
+ * which is taken over the Results rows as they are written (or, in verify, as
+ * they are stored), so it is planned last from that digest.
+ */
+import type { RecalcResult } from '../../pipeline.js';
+import type { CellValue, SheetPlan } from './cells.js';
+import { sha256Text } from './digest.js';
+import { planFlagsSheet } from './flags-sheet.js';
+import { inHouseApplied, lineEndOf, lineEnds, limitRows, methodLines, planMethodSheet } from './method-sheet.js';
+import { DEFAULT_FORMULA_ROW_LIMIT, DEFAULT_MAX_NOTES, type RunInfo } from './options.js';
+import { describeFormat, planProvenanceSheet } from './provenance-sheet.js';
+import { planQcSheet } from './qc-sheet.js';
+import { planResultsSheet, type ResultsSheet } from './results-sheet.js';
+import { sheetText } from './cells.js';
+import { planSummarySheet } from './summary-sheet.js';
+
+export const SHEET_ORDER = ['Summary', 'Results', 'QC', 'Flags', 'Method', 'Provenance'] as const;
+
+export interface PlanOptions {
+  run: RunInfo;
+  formulaRowLimit?: number;
+  maxNotes?: number;
+  /** Live formulas or values only; default: live when the worklist has no more rows than formulaRowLimit. */
+  formulas?: boolean;
+  /** How the worklist was read, in words (default from result.raw.format). */
+  readAs?: string;
+  decimalComma?: boolean;
+}
+
+export interface WorkbookPlan {
+  formulas: boolean;
+  formulaRowLimit: number;
+  maxNotes: number;
+  summary: SheetPlan;
+  results: ResultsSheet;
+  qc: SheetPlan;
+  flags: SheetPlan;
+  method: SheetPlan;
+  /** Which Results columns the digest takes to 12 significant digits (as-used and computed). */
+  approximate: boolean[];
+  /** SHA-256 of the method text as the Method sheet holds it, and the limits tables (acceptance, in-house): the digest's tail. */
+  methodTextSha: string;
+  limits: CellValue[][];
+  provenance(digest: string): SheetPlan;
+}
+
+export function planWorkbook(result: RecalcResult, options: PlanOptions): WorkbookPlan {
+  const formulaRowLimit = options.formulaRowLimit ?? DEFAULT_FORMULA_ROW_LIMIT;
+  const maxNotes = options.maxNotes ?? DEFAULT_MAX_NOTES;
+  const formulas = options.formulas ?? result.rowsOut <= formulaRowLimit;
+  const { refs } = planMethodSheet(result);
+  const results = planResultsSheet(result, { refs, formulas });
+  const method = planMethodSheet(result, { formulaForms: results.formulaForms }).plan;
+  const layout = results.layout;
+  const sheetTextOfMethod = methodLines(result.method.text).map(sheetText).join(lineEndOf(lineEnds(result.method.text)));
+  return {
+    formulas,
+    formulaRowLimit,
+    maxNotes,
+    summary: planSummarySheet(result, { run: options.run, formulas, formulaRowLimit, maxNotes }),
+    results,
+    qc: planQcSheet(result, { layout, live: true }),
+    flags: planFlagsSheet(result, { layout }),
+    method,
+    approximate: layout.columns.map((c) => c.kind === 'as-used' || c.kind === 'computed'),
+    methodTextSha: sha256Text(sheetTextOfMethod),
+    limits: [
+      ...limitRows(result.method),
+      ...(result.method.qc.limitsSource === 'in_house' ? inHouseApplied(result).map((e) => [e.analyte, e.type, e.low, e.high, e.n]) : []),
+    ],
+    provenance: (digest) =>
+      planProvenanceSheet(result, {
+        run: options.run,
+        readAs: options.readAs ?? describeFormat(result.raw.format),
+        decimalComma: options.decimalComma ?? result.raw.format.decimalComma,
+        formulas,
+        formulaRowLimit,
+        maxNotes,
+        digest,
+      }),
+  };
+}

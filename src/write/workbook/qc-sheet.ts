@@ -1,0 +1,146 @@
+/**
+ * The QC sheet: every control row with the limits that judged it beside its
+ * values. Values are live references to the Results sheet (so they follow it),
+ * with the engine's values cached; then the run-rule outcome where it applied.
+ */
+import type { Flag, FlagCode } from '../../issues.js';
+import type { RecalcResult } from '../../pipeline.js';
+import { SheetBuilder } from './builder.js';
+import { cell, type CellValue, type Mark, type PlannedCell, type PlannedRow, type SheetPlan } from './cells.js';
+import { RESULTS_SHEET, type ResultsLayout } from './results-sheet.js';
+
+export const QC_SHEET = 'QC';
+
+const MARKS: Partial<Record<FlagCode, { column: 'recovery' | 'rpd' | 'result'; mark: Mark }>> = {
+  REC_LOW: { column: 'recovery', mark: 'fail' },
+  REC_HIGH: { column: 'recovery', mark: 'fail' },
+  OUTLIER: { column: 'recovery', mark: 'inform' },
+  RPD_HIGH: { column: 'rpd', mark: 'fail' },
+  BLANK_HIT: { column: 'result', mark: 'fail' },
+};
+
+export function planQcSheet(result: RecalcResult, options: { layout: ResultsLayout; live: boolean }): SheetPlan {
+  const { layout } = options;
+  const { table, method } = result;
+  const conc = method.units.concentration;
+  const texts = table.texts;
+  const flagsByRow = new Map<number, Flag[]>();
+  for (const f of result.flags) {
+    const list = flagsByRow.get(f.row) ?? [];
+    list.push(f);
+    flagsByRow.set(f.row, list);
+  }
+
+  /** A live reference to a Results cell (empty stays empty), or the value. */
+  const ref = (columnName: string, values: Float64Array | undefined, r: number, kind: 'as-used' | 'computed'): PlannedCell => {
+    const col = kind === 'as-used' ? layout.asUsed.get(columnName) : layout.computed.get(columnName);
+    const v = values?.[r];
+    const value = v !== undefined && Number.isFinite(v) ? v : null;
+    if (!col || !options.live) return cell(value);
+    const a = `${RESULTS_SHEET}!${col.letter}${r + 2}`;
+    return cell(value ?? '', { formula: `IF(${a}="","",${a})` });
+  };
+
+  const header = [
+    'worklist row',
+    'Results row',
+    'sample_id',
+    'analyte',
+    'batch',
+    'sample type',
+    'qc level',
+    `spike [${conc}]`,
+    `result [${conc}]`,
+    'recovery %',
+    'recovery low %',
+    'recovery high %',
+    'RPD %',
+    'RPD max %',
+    'limits from',
+    'flags',
+    'qc_status',
+  ];
+  const controls: number[] = [];
+  for (let r = 0; r < result.rowsOut; r++) if (result.qc.status[r] !== '') controls.push(r);
+
+  /** One control row, built when the writer (or verify) asks for it. */
+  const controlRow = (r: number): PlannedRow => {
+    const status = result.qc.status[r]!;
+    const limits = result.qc.limits[r];
+    const cells: Record<'spike' | 'result' | 'recovery' | 'rpd', PlannedCell> = {
+      spike: ref('spike_conc', table.numbers.get('spike_conc'), r, 'as-used'),
+      result: ref('pre_extraction_conc', result.computed.get('pre_extraction_conc'), r, 'computed'),
+      recovery: ref('spike_recovery_pct', result.computed.get('spike_recovery_pct'), r, 'computed'),
+      rpd: ref('rpd_pct', result.computed.get('rpd_pct'), r, 'computed'),
+    };
+    for (const f of flagsByRow.get(r) ?? []) {
+      const m = MARKS[f.code];
+      if (!m) continue;
+      const c = cells[m.column];
+      cells[m.column] = { ...c, mark: c.mark === 'fail' ? 'fail' : m.mark, note: c.note ? `${c.note}\n${f.code}: ${f.message}` : `${f.code}: ${f.message}` };
+    }
+    const sampleId = texts.get('sample_id')![r]!;
+    const values: (PlannedCell | CellValue)[] = [
+      result.raw.rowNumbers[r]!,
+      r + 2,
+      sampleId,
+      texts.get('analyte')![r]! || null,
+      texts.get('batch_id')![r]! || null,
+      table.sampleType[r]! || null,
+      texts.get('qc_level')![r]! || null,
+      { ...cells.spike, numFmt: '0.0###' },
+      { ...cells.result, numFmt: '0.0###' },
+      { ...cells.recovery, numFmt: '0.0' },
+      limits?.recovery?.[0] ?? null,
+      limits?.recovery?.[1] ?? null,
+      { ...cells.rpd, numFmt: '0.0' },
+      limits?.rpdMax ?? null,
+      limits?.origin ?? null,
+      result.rowFlags[r]! || null,
+      cell(status, status === 'fail' ? { mark: 'fail', note: 'This control row fails its QC: see its flags.' } : {}),
+    ];
+    return {
+      cells: values.map((v) => (v !== null && typeof v === 'object' ? v : cell(v))),
+      labels: header,
+      context: { worklistRow: result.raw.rowNumbers[r]!, sampleId },
+    };
+  };
+
+  // After the controls: a blank row and the run-rule table (small, built in full).
+  const tail = new SheetBuilder();
+  tail.blank();
+  if (result.qc.runRule.length > 0) {
+    tail.title('Run rule (at least the method fractions of all qc rows, and of the qc rows at each level, pass)', 'section');
+    tail.table(
+      ['batch', 'analyte', 'qc rows passing', 'qc rows', 'accepted', 'by level', 'reason'],
+      result.qc.runRule.map((o) => [
+        o.batch || '(one batch)',
+        o.analyte,
+        o.passed,
+        o.total,
+        cell(o.accepted ? 'yes' : 'no', { mark: o.accepted ? undefined : 'fail' }),
+        o.levels.map((l) => `${l.level}: ${l.passed} of ${l.total}`).join('; '),
+        o.reason ?? null,
+      ]),
+    );
+  }
+  const title: PlannedRow = { cells: [cell('QC: control rows and the limits that judged them', { style: 'title' })] };
+  const headerRow: PlannedRow = { cells: header.map((h) => cell(h, { style: 'header' })), labels: header };
+  const first = 2; // 0-based index of the first control row
+  const rowCount = first + controls.length + tail.rows.length;
+  const row = (i: number): PlannedRow => {
+    if (i === 0) return title;
+    if (i === 1) return headerRow;
+    if (i < first + controls.length) return controlRow(controls[i - first]!);
+    return tail.rows[i - first - controls.length]!;
+  };
+
+  return {
+    name: QC_SHEET,
+    widths: [12, 11, 22, 20, 14, 12, 10, 12, 12, 11, 11, 11, 10, 10, 40, 24, 10],
+    frozen: { rows: 2 },
+    autoFilter: { row: 2, columns: header.length },
+    rowCount,
+    row,
+  };
+}

@@ -1,0 +1,673 @@
+/**
+ * The Results sheet, planned row by row.
+ *
+ * Columns, left to right:
+ * 1. the worklist's columns, verbatim and in order (text stays text; a CSV cell of a
+ *    numeric field, or one that is plainly a number, is stored as a number);
+ * 2. `worklist row`: the row of the sample in the worklist file (messages name it);
+ * 3. "as used" columns, one per canonical field the formulas read, in the method's
+ *    units and canonical codes, each a formula over the verbatim input cell (unit
+ *    factor, default from the Method sheet, lab code look-up) with the engine's value
+ *    cached;
+ * 4. the computed columns (same headers as the results CSV), live formulas over the
+ *    as-used and computed cells of the row and, for parent()/pair(), of the linked row;
+ * 5. `flags`, `qc_status` (as in the CSV), and `row check`, a short hash of the row's
+ *    input cells that `phasebook verify` recomputes.
+ *
+ * Rows with an input error hold plain values (computed cells empty), since the
+ * spreadsheet cannot know the engine's row validation. A formula with no spreadsheet
+ * form is written as its value with a note. Above a row limit (an option) the whole
+ * sheet holds values only, and the Summary and Provenance sheets say so.
+ */
+import { createHash } from 'node:crypto';
+import { FunctionNode, SymbolNode, type ConstantNode, type MathNode } from 'mathjs';
+import { FIELD_SPECS, SAMPLE_TYPES, isCanonicalField, type CanonicalField } from '../../columns/fields.js';
+import { parseNumberCell } from '../../columns/numbers.js';
+import { parseAcidBase } from '../../chemistry/partition.js';
+import { DERIVED_COLUMNS, compileMethod } from '../../engine/evaluate.js';
+import { FAILING_CODES, type Flag } from '../../issues.js';
+import type { RecalcResult } from '../../pipeline.js';
+import type { RawCell } from '../../read/types.js';
+import { computedHeader } from '../output-columns.js';
+import { toSheetFormula } from '../sheet-formula.js';
+import {
+  MAX_CELL_TEXT,
+  cell,
+  columnLetter,
+  formulaNumber,
+  formulaText,
+  sheetText,
+  type CellValue,
+  type Mark,
+  type PlannedCell,
+  type PlannedRow,
+  type SheetPlan,
+} from './cells.js';
+import { METHOD_SHEET, rowFactor, type MethodRefs } from './method-sheet.js';
+import { displayFormat, fitWidth, strongerMark } from './style.js';
+
+export const RESULTS_SHEET = 'Results';
+export const WORKLIST_ROW_HEADER = 'worklist row';
+export const ROW_CHECK_HEADER = 'row check';
+
+export type ResultsColumnKind = 'input' | 'worklist-row' | 'as-used' | 'computed' | 'flags' | 'qc-status' | 'row-check';
+
+export interface ResultsColumn {
+  kind: ResultsColumnKind;
+  header: string;
+  /** 1-based column number. */
+  column: number;
+  letter: string;
+  /** input: index into the worklist's columns. */
+  inputIndex?: number;
+  /** as-used: the canonical field (or a derived column such as `surrogate`). */
+  field?: string;
+  /** computed: the formula column's name. */
+  name?: string;
+}
+
+export interface ResultsLayout {
+  columns: ResultsColumn[];
+  headers: string[];
+  inputCount: number;
+  asUsed: Map<string, ResultsColumn>;
+  computed: Map<string, ResultsColumn>;
+  worklistRow: ResultsColumn;
+  flags: ResultsColumn;
+  qcStatus: ResultsColumn;
+  rowCheck: ResultsColumn;
+}
+
+export interface ResultsSheet {
+  plan: SheetPlan;
+  layout: ResultsLayout;
+  /** Per formula column, how the sheet carries it (for the Method sheet). */
+  formulaForms: string[];
+  /** The input cells of a row as written (also what the row check and digest read). */
+  inputValues(row: number): CellValue[];
+}
+
+/** The name the header of an as-used column gives a field. */
+export function asUsedHeader(field: string, unit: string): string {
+  return unit ? `${field} (as used) [${unit}]` : `${field} (as used)`;
+}
+
+/**
+ * Fields the formulas read, in canonical order, then derived columns; plus the
+ * fields another as-used cell needs (final_volume's default reads extractions and
+ * solvent_volume).
+ */
+export function asUsedFields(result: RecalcResult): string[] {
+  const compiled = compileMethod(result.method);
+  const used = new Set<string>();
+  for (const f of compiled.formulas) for (const d of f.dependencies) used.add(d);
+  if (used.has('final_volume')) {
+    used.add('extractions');
+    used.add('solvent_volume');
+  }
+  const out: string[] = [];
+  for (const spec of FIELD_SPECS.values()) if (used.has(spec.name)) out.push(spec.name);
+  for (const name of Object.keys(DERIVED_COLUMNS)) if (used.has(name)) out.push(name);
+  return out;
+}
+
+function fieldUnit(result: RecalcResult, field: string): string {
+  const spec = FIELD_SPECS.get(field as CanonicalField);
+  if (!spec || spec.dimension === 'none') return '';
+  return spec.dimension === 'volume' ? result.method.units.volume : result.method.units.concentration;
+}
+
+export function resultsLayout(result: RecalcResult): ResultsLayout {
+  const columns: ResultsColumn[] = [];
+  const push = (c: Omit<ResultsColumn, 'column' | 'letter'>): ResultsColumn => {
+    const column = columns.length + 1;
+    const col = { ...c, column, letter: columnLetter(column) };
+    columns.push(col);
+    return col;
+  };
+  result.raw.headers.forEach((header, i) => push({ kind: 'input', header, inputIndex: i }));
+  const worklistRow = push({ kind: 'worklist-row', header: WORKLIST_ROW_HEADER });
+  const asUsed = new Map<string, ResultsColumn>();
+  for (const field of asUsedFields(result)) {
+    asUsed.set(field, push({ kind: 'as-used', header: asUsedHeader(field, fieldUnit(result, field)), field }));
+  }
+  const computed = new Map<string, ResultsColumn>();
+  for (const def of result.method.formulas) {
+    computed.set(def.name, push({ kind: 'computed', header: computedHeader(def.name, def.unit), name: def.name }));
+  }
+  const flags = push({ kind: 'flags', header: 'flags' });
+  const qcStatus = push({ kind: 'qc-status', header: 'qc_status' });
+  const rowCheck = push({ kind: 'row-check', header: ROW_CHECK_HEADER });
+  return {
+    columns,
+    headers: columns.map((c) => c.header),
+    inputCount: result.raw.headers.length,
+    asUsed,
+    computed,
+    worklistRow,
+    flags,
+    qcStatus,
+    rowCheck,
+  };
+}
+
+// ---- input cells ----------------------------------------------------------------------------
+
+const PLAIN_NUMBER = /^-?(?:0|[1-9]\d*)(?:\.\d+)?$/;
+
+/**
+ * How a worklist cell is stored: XLSX cells as they were; from a CSV, a cell of a
+ * numeric field that reads as a number becomes that number, and a cell of any
+ * other column only when it is plainly one (`5`, `0.25`, not `007` or `1.50`, which
+ * stay text). Text is kept as written (see sheetText for the few characters XLSX
+ * cannot hold).
+ */
+export function inputCellWriter(result: RecalcResult): (column: number, row: number) => CellValue {
+  const { raw } = result;
+  const numericField = new Array<boolean>(raw.headers.length).fill(false);
+  const textField = new Array<boolean>(raw.headers.length).fill(false);
+  for (const src of result.columnMap.fields.values()) {
+    const kind = FIELD_SPECS.get(src.field)!.kind;
+    if (kind === 'number') numericField[src.column] = true;
+    else textField[src.column] = true;
+  }
+  const csv = raw.format.kind === 'csv';
+  const comma = raw.format.decimalComma;
+  return (column, row) => {
+    const v: RawCell = raw.columns[column]![row] ?? null;
+    if (v === null) return null;
+    if (typeof v === 'number') return Number.isFinite(v) ? v : String(v);
+    if (v === '') return null;
+    if (csv && numericField[column]) {
+      const parsed = parseNumberCell(v, comma);
+      if (parsed.ok && Number.isFinite(parsed.value)) return parsed.value;
+    } else if (csv && !textField[column]) {
+      const plain = comma && /^-?\d+,\d+$/.test(v) ? v.replace(',', '.') : v;
+      if (PLAIN_NUMBER.test(plain) && String(Number(plain)) === plain) return Number(plain);
+    }
+    return sheetText(v);
+  };
+}
+
+/** First 16 hex digits of SHA-256 over the row's input cells as written (JSON). */
+export function rowCheck(values: readonly CellValue[]): string {
+  return createHash('sha256').update(JSON.stringify(values), 'utf8').digest('hex').slice(0, 16);
+}
+
+// ---- formula templates ----------------------------------------------------------------------
+
+/** Stands for mathjs NaN (an empty value): a cross-row look-up with no row, which the translator empties. */
+const EMPTY_SYMBOL = '\u0000empty';
+const PLACEHOLDER = /\{\{([cpq]):(\d+)\}\}/;
+
+type Part = string | { which: 'c' | 'p' | 'q'; column: number };
+type Template = { parts: Part[] } | { unsupported: string };
+
+function replaceNaN(node: MathNode): MathNode {
+  return node.transform((n: MathNode) => {
+    if (n.type === 'ConstantNode') {
+      const v = (n as ConstantNode).value as unknown;
+      if (typeof v === 'number' && Number.isNaN(v)) return new FunctionNode(new SymbolNode('parent'), [new SymbolNode(EMPTY_SYMBOL)]);
+    }
+    return n;
+  });
+}
+
+function splitTemplate(text: string): Template {
+  const parts: Part[] = [];
+  const pieces = text.split(PLACEHOLDER);
+  for (let i = 0; i < pieces.length; i++) {
+    if (i % 3 === 0) {
+      if (pieces[i]) parts.push(pieces[i]!);
+    } else {
+      parts.push({ which: pieces[i] as 'c' | 'p' | 'q', column: Number(pieces[i + 1]) });
+      i++;
+    }
+  }
+  return { parts };
+}
+
+function renderTemplate(t: { parts: Part[] }, rows: { c: number; p: number; q: number }): string {
+  let s = '';
+  for (const p of t.parts) s += typeof p === 'string' ? p : `${columnLetter(p.column)}${rows[p.which]}`;
+  return s;
+}
+
+// ---- the sheet ------------------------------------------------------------------------------
+
+export interface ResultsOptions {
+  refs: MethodRefs;
+  /** Live formulas (true) or values only. */
+  formulas: boolean;
+}
+
+export function planResultsSheet(result: RecalcResult, options: ResultsOptions): ResultsSheet {
+  const { refs } = options;
+  const layout = resultsLayout(result);
+  const { table, raw } = result;
+  const n = result.rowsOut;
+  const inputValue = inputCellWriter(result);
+  const inputValues = (r: number): CellValue[] => raw.headers.map((_, c) => inputValue(c, r));
+  const inputLetter = (column: number) => columnLetter(column + 1);
+
+  // Formula templates, per formula column and per (parent row?, pair row?).
+  const compiled = compileMethod(result.method);
+  const nodes = compiled.formulas.map((f) => replaceNaN(f.node));
+  const isText = (s: string) => FIELD_SPECS.get(s as CanonicalField)?.kind === 'text';
+  const cellColumn = (s: string) => (layout.asUsed.get(s) ?? layout.computed.get(s))?.column;
+  const templates: Template[][] = nodes.map(() => []);
+  const templateFor = (i: number, hasParent: boolean, hasPair: boolean): Template => {
+    const key = (hasParent ? 1 : 0) | (hasPair ? 2 : 0);
+    let t = templates[i]![key];
+    if (!t) {
+      const translated = toSheetFormula(nodes[i]!, {
+        cellOf: (s) => {
+          const c = cellColumn(s);
+          return c === undefined ? undefined : `{{c:${c}}}`;
+        },
+        crossRowCellOf: (fn, s) => {
+          if (s === EMPTY_SYMBOL || (fn === 'parent' ? !hasParent : !hasPair)) return undefined;
+          const c = cellColumn(s);
+          return c === undefined ? undefined : `{{${fn === 'parent' ? 'p' : 'q'}:${c}}}`;
+        },
+        isText,
+      });
+      t = 'unsupported' in translated ? { unsupported: translated.unsupported } : splitTemplate(translated.formula);
+      templates[i]![key] = t;
+    }
+    return t;
+  };
+  // An example row for the Method sheet: the first computed row with both a parent and a
+  // pair row, else with one of them, else the first computed row.
+  const { parentRow, pairRow } = result.links;
+  const computedRows = (test: (r: number) => boolean) => {
+    for (let r = 0; r < n; r++) if (!table.rowError[r] && test(r)) return r;
+    return -1;
+  };
+  const example = [
+    computedRows((r) => parentRow[r]! >= 0 && pairRow[r]! >= 0),
+    computedRows((r) => parentRow[r]! >= 0 || pairRow[r]! >= 0),
+    computedRows(() => true),
+  ].find((r) => r >= 0);
+  const formulaForms = result.method.formulas.map((_, i) => {
+    const t = templateFor(i, true, true);
+    if ('unsupported' in t) return `values only: no spreadsheet form (${t.unsupported})`;
+    if (!options.formulas) return 'values only (the sheet is above the formula row limit)';
+    if (example === undefined) return 'live formula';
+    const e = templateFor(i, parentRow[example]! >= 0, pairRow[example]! >= 0);
+    return 'parts' in e
+      ? `live formula, e.g. row ${example + 2}: =${renderTemplate(e, { c: example + 2, p: parentRow[example]! + 2, q: pairRow[example]! + 2 })}`
+      : 'live formula';
+  });
+
+  // Marks and notes per row.
+  const flagsByRow = new Map<number, Flag[]>();
+  for (const f of result.flags) {
+    const list = flagsByRow.get(f.row);
+    if (list) list.push(f);
+    else flagsByRow.set(f.row, [f]);
+  }
+  const notesByRow = new Map<number, { column?: string; message: string }[]>();
+  for (const note of result.notes) {
+    const list = notesByRow.get(note.row);
+    if (list) list.push(note);
+    else notesByRow.set(note.row, [note]);
+  }
+  const targetColumn = (column: string | undefined): number => targetColumnOf(result, layout, column);
+
+  // Display formats and widths.
+  const numFmt = new Map<number, string>();
+  for (const col of layout.asUsed.values()) {
+    const values = table.numbers.get(col.field!);
+    if (values) numFmt.set(col.column, displayFormat(values));
+  }
+  for (const def of result.method.formulas) {
+    numFmt.set(layout.computed.get(def.name)!.column, displayFormat(result.computed.get(def.name)!, { percent: def.unit === '%' || def.name.endsWith('_pct') }));
+  }
+  const asUsedPlanners = [...layout.asUsed.values()].map((col) =>
+    asUsedPlanner(result, { col, layout, refs, inputValue, inputLetter, numFmt: numFmt.get(col.column) }),
+  );
+  const widths = layout.columns.map((col) => {
+    if (col.kind === 'input') {
+      const texts = [col.header];
+      for (let r = 0; r < Math.min(n, 200); r++) {
+        const v = inputValue(col.inputIndex!, r);
+        if (v !== null) texts.push(String(v));
+      }
+      return fitWidth(texts, { max: 40 });
+    }
+    if (col.kind === 'flags') return fitWidth([col.header, ...result.rowFlags.slice(0, 500)], { min: 10, max: 40 });
+    if (col.kind === 'row-check') return 18;
+    return fitWidth([col.header, '0.000000000'], { min: 10, max: 30 });
+  });
+
+  const headerNotes = headerNotesFor(result, layout, formulaForms);
+  const headerRow: PlannedRow = {
+    cells: layout.columns.map((col) =>
+      cell(col.header, {
+        style:
+          col.kind === 'input'
+            ? 'header-input'
+            : col.kind === 'as-used'
+              ? 'header-as-used'
+              : col.kind === 'computed'
+                ? 'header-computed'
+                : 'header-status',
+        note: headerNotes.get(col.column),
+      }),
+    ),
+    labels: layout.headers,
+  };
+
+  // Difference lines name an as-used cell with the worklist column it reads.
+  const rowLabels = layout.columns.map((col) => {
+    const src = col.kind === 'as-used' && isCanonicalField(col.field!) ? result.columnMap.fields.get(col.field) : undefined;
+    return src ? `${col.header} from column ${columnLetter(src.column + 1)}` : col.header;
+  });
+  const sampleIds = table.texts.get('sample_id')!;
+  const computedColumns = result.method.formulas.map((def) => {
+    const col = layout.computed.get(def.name)!;
+    return { index: col.column - 1, values: result.computed.get(def.name)!, numFmt: numFmt.get(col.column) };
+  });
+  const row = (index: number): PlannedRow => {
+    if (index === 0) return headerRow;
+    const r = index - 1;
+    const R = index + 1;
+    const cells: (PlannedCell | undefined)[] = new Array(layout.columns.length);
+    const inputs = inputValues(r);
+    for (let c = 0; c < inputs.length; c++) {
+      const v = inputs[c]!;
+      if (v === null) continue;
+      const rawCell = raw.columns[c]![r];
+      // Input values are storable already (inputCellWriter); the plain object saves a copy per cell.
+      cells[c] =
+        typeof rawCell === 'string' && rawCell.length > MAX_CELL_TEXT
+          ? cell(v, {
+              mark: 'note',
+              note: `This cell of the worklist holds ${rawCell.length} characters; a spreadsheet cell holds ${MAX_CELL_TEXT}, so the first ${MAX_CELL_TEXT} are written here. phasebook computed with the whole text; the results CSV has it.`,
+            })
+          : { value: v };
+    }
+    cells[layout.worklistRow.column - 1] = { value: raw.rowNumbers[r]! };
+    const error = table.rowError[r] === 1;
+    const live = options.formulas && !error;
+    for (const planner of asUsedPlanners) cells[planner.column - 1] = planner.plan(r, R, live);
+
+    const parentRow = result.links.parentRow[r]!;
+    const pairRow = result.links.pairRow[r]!;
+    for (let i = 0; i < computedColumns.length; i++) {
+      const { index, values, numFmt: fmt } = computedColumns[i]!;
+      const v = values[r]!;
+      const value = Number.isFinite(v) ? v : null;
+      if (error) {
+        cells[index] = { value: null, numFmt: fmt };
+        continue;
+      }
+      const t = templateFor(i, parentRow >= 0, pairRow >= 0);
+      if ('unsupported' in t) {
+        cells[index] = { value, numFmt: fmt, mark: 'note', note: `No spreadsheet formula: ${t.unsupported}. The engine's value is written.` };
+      } else if (!live) {
+        cells[index] = { value, numFmt: fmt };
+      } else {
+        cells[index] = { value: value ?? '', formula: renderTemplate(t, { c: R, p: parentRow + 2, q: pairRow + 2 }), numFmt: fmt };
+      }
+    }
+
+    const flags = result.rowFlags[r]!;
+    const status = result.qc.status[r]!;
+    cells[layout.flags.column - 1] = cell(flags === '' ? null : flags);
+    cells[layout.qcStatus.column - 1] = cell(status === '' ? null : status);
+    cells[layout.rowCheck.column - 1] = cell(rowCheck(inputs));
+
+    // Marks: each flag on its cell, all of the row's flags on the flags cell.
+    const rowFlags = flagsByRow.get(r);
+    if (rowFlags) {
+      const byColumn = new Map<number, { mark: Mark | undefined; lines: string[] }>();
+      let worst: Mark | undefined;
+      const all: string[] = [];
+      for (const f of rowFlags) {
+        const mark: Mark = f.code === 'INPUT_ERROR' || FAILING_CODES.has(f.code) ? 'fail' : 'inform';
+        const line = `${f.code}: ${f.message}`;
+        worst = strongerMark(worst, mark);
+        all.push(line);
+        const c = targetColumn(f.column);
+        if (c === layout.flags.column) continue;
+        const entry = byColumn.get(c) ?? { mark: undefined, lines: [] };
+        entry.mark = strongerMark(entry.mark, mark);
+        entry.lines.push(line);
+        byColumn.set(c, entry);
+      }
+      for (const [c, entry] of byColumn) addMark(cells, c, entry.mark!, entry.lines.join('\n'));
+      addMark(cells, layout.flags.column, worst!, all.join('\n'));
+    }
+    if (status === 'fail') {
+      addMark(cells, layout.qcStatus.column, 'fail', 'This control row fails its QC: the flags cell and the Flags sheet say why.');
+    }
+    for (const note of notesByRow.get(r) ?? []) {
+      const c = note.column === undefined ? layout.flags.column : targetColumn(note.column);
+      addMark(cells, c, 'note', note.message);
+    }
+    return { cells, context: { worklistRow: raw.rowNumbers[r]!, sampleId: sampleIds[r]! }, labels: rowLabels };
+  };
+
+  const plan: SheetPlan = {
+    name: RESULTS_SHEET,
+    widths,
+    frozen: { rows: 1 },
+    autoFilter: { row: 1, columns: layout.columns.length },
+    rowCount: n + 1,
+    row,
+  };
+  return { plan, layout, formulaForms, inputValues };
+}
+
+/** The Results column a flag or note about `column` marks (the flags column when it names none). */
+export function targetColumnOf(result: RecalcResult, layout: ResultsLayout, column: string | undefined): number {
+  if (column === undefined) return layout.flags.column;
+  const computed = layout.computed.get(column);
+  if (computed) return computed.column;
+  if (isCanonicalField(column)) {
+    const src = result.columnMap.fields.get(column);
+    if (src) return src.column + 1;
+    const asUsed = layout.asUsed.get(column);
+    if (asUsed) return asUsed.column;
+    return layout.flags.column;
+  }
+  const i = result.raw.headers.indexOf(column);
+  return i >= 0 ? i + 1 : layout.flags.column;
+}
+
+function addMark(cells: (PlannedCell | undefined)[], column: number, mark: Mark, note: string): void {
+  const c = cells[column - 1] ?? cell(null);
+  cells[column - 1] = {
+    ...c,
+    mark: strongerMark(c.mark, mark),
+    note: c.note ? `${c.note}\n${note}` : note,
+  };
+}
+
+// ---- as-used cells --------------------------------------------------------------------------
+
+interface AsUsedContext {
+  col: ResultsColumn;
+  layout: ResultsLayout;
+  refs: MethodRefs;
+  inputValue: (column: number, row: number) => CellValue;
+  inputLetter: (column: number) => string;
+  /** Display format of the column's numbers. */
+  numFmt?: string;
+}
+
+interface AsUsedPlanner {
+  column: number;
+  plan(row: number, sheetRow: number, live: boolean): PlannedCell;
+}
+
+const WILDCARDS = /[*?~]/;
+
+function literalNote(cellRef: string, value: CellValue): string {
+  return `The worklist cell ${cellRef} holds text (${JSON.stringify(value)}), which a spreadsheet formula cannot read the way phasebook does; the value phasebook read from it is written here.`;
+}
+
+function asUsedPlanner(result: RecalcResult, ctx: AsUsedContext): AsUsedPlanner {
+  const { col, layout, refs } = ctx;
+  const field = col.field!;
+  const { table, method } = result;
+  const column = col.column;
+
+  if (field === 'surrogate') {
+    return {
+      column,
+      plan: (r, _R, live) => {
+        const ai = table.analyteIndex[r]!;
+        const value = ai >= 0 && method.analytes[ai]!.surrogate ? 1 : 0;
+        const ref = ai >= 0 ? refs.analyte(ai, 'surrogate') : undefined;
+        return live && ref ? cell(value, { formula: ref }) : cell(value);
+      },
+    };
+  }
+
+  const spec = FIELD_SPECS.get(field as CanonicalField)!;
+  const src = result.columnMap.fields.get(field as CanonicalField);
+  const X = src ? ctx.inputLetter(src.column) : undefined;
+
+  if (spec.kind === 'text') {
+    const texts = table.texts.get(field)!;
+    const fallback = method.fields.get(field as CanonicalField)?.default;
+    const valueOf = (r: number): CellValue => {
+      const t = field === 'sample_type' ? table.sampleType[r]! : texts[r]!;
+      return t === '' ? null : t;
+    };
+    let whenEmpty: (r: number) => string | undefined; // formula text for an empty cell
+    let present: ((ref: string) => string) | undefined;
+    if (field === 'sample_type') {
+      const code = fallback === undefined ? '' : String(fallback).toLowerCase();
+      const canon = code === '' ? 'sample' : (method.sampleTypes.get(code) ?? (SAMPLE_TYPES as readonly string[]).find((s) => s === code) ?? '');
+      whenEmpty = () => formulaText(canon);
+      present = refs.lookupKeys.sampleTypeCodes.some((k) => WILDCARDS.test(k))
+        ? undefined
+        : (ref) => `VLOOKUP(LOWER(TRIM(${ref})),${refs.sampleTypeCodes},2,FALSE)`;
+    } else if (field === 'acid_base') {
+      const fb = fallback === undefined ? '' : String(fallback);
+      whenEmpty = (r) => {
+        if (fb !== '') return formulaText(parseAcidBase(fb) ?? '');
+        const ai = table.analyteIndex[r]!;
+        return (ai >= 0 ? refs.analyte(ai, 'acid_base') : undefined) ?? formulaText('neutral');
+      };
+      present = (ref) => `VLOOKUP(LOWER(TRIM(${ref})),${refs.acidBaseWords},2,FALSE)`;
+    } else if (field === 'analyte') {
+      const fb = fallback === undefined ? '' : String(fallback);
+      const known = new Map<string, string>();
+      method.analytes.forEach((a) => {
+        for (const nm of [a.name, ...a.aliases]) known.set(nm.trim().toLowerCase(), a.name);
+      });
+      whenEmpty = () => formulaText(known.get(fb.toLowerCase()) ?? fb);
+      present = refs.lookupKeys.analyteNames.some((k) => WILDCARDS.test(k))
+        ? undefined
+        : (ref) => `IFERROR(VLOOKUP(LOWER(TRIM(${ref})),${refs.analyteNames},2,FALSE),TRIM(${ref}))`;
+    } else {
+      const fb = fallback === undefined ? '' : String(fallback);
+      whenEmpty = () => formulaText(fb);
+      present = (ref) => `TRIM(${ref})`;
+    }
+    return {
+      column,
+      plan: (r, R, live) => {
+        const value = valueOf(r);
+        if (!live) return cell(value);
+        if (!src) {
+          const f = whenEmpty(r);
+          return f !== undefined && f.startsWith(`${METHOD_SHEET}!`) ? cell(value, { formula: f }) : cell(value);
+        }
+        if (!present) return cell(value);
+        const ref = `${X}${R}`;
+        return cell(value ?? '', { formula: `IF(TRIM(${ref})="",${whenEmpty(r) ?? '""'},${present(ref)})` });
+      },
+    };
+  }
+
+  // Numeric fields.
+  const numFmt = ctx.numFmt;
+  const values = table.numbers.get(field)!;
+  const numericDefault = (f: CanonicalField): string | undefined => refs.fieldDefault(f);
+  const logK = result.columnMap.fields.get('log_k');
+  /** The formula for an empty cell; 'text' when a cell it reads holds text a formula cannot use. */
+  const whenEmpty = (r: number, R: number): string | undefined | 'text' => {
+    const ai = table.analyteIndex[r]!;
+    switch (field) {
+      case 'final_volume': {
+        const e = layout.asUsed.get('extractions')!.letter + R;
+        const s = layout.asUsed.get('solvent_volume')!.letter + R;
+        return `IF(OR(${e}="",${s}=""),"",${e}*${s})`;
+      }
+      case 'partition_coeff': {
+        const fromMethod = (ai >= 0 ? refs.analyte(ai, 'partition_coeff') : undefined) ?? numericDefault('partition_coeff');
+        if (!logK) return fromMethod;
+        const raw = ctx.inputValue(logK.column, r);
+        if (raw !== null && typeof raw !== 'number') return 'text';
+        const L = `${ctx.inputLetter(logK.column)}${R}`;
+        return `IF(${L}="",${fromMethod ?? '""'},10^${L})`;
+      }
+      case 'pka':
+      case 'ph':
+        return (ai >= 0 ? refs.analyte(ai, field) : undefined) ?? numericDefault(field);
+      case 'reporting_limit':
+        return (ai >= 0 ? refs.analyte(ai, 'reporting_limit') : undefined) ?? refs.defaultReportingLimit ?? numericDefault(field);
+      default:
+        return numericDefault(field as CanonicalField);
+    }
+  };
+  return {
+    column,
+    plan: (r, R, live) => {
+      const v = values[r]!;
+      const value = Number.isFinite(v) ? v : null;
+      if (!live) return cell(value, { numFmt });
+      const empty = whenEmpty(r, R);
+      if (!src) {
+        if (empty === 'text') return cell(value, { numFmt, mark: 'note', note: literalNote(`${ctx.inputLetter(logK!.column)}${R}`, ctx.inputValue(logK!.column, r)) });
+        return empty === undefined ? cell(value, { numFmt }) : cell(value ?? '', { numFmt, formula: empty });
+      }
+      const ref = `${X}${R}`;
+      const raw = ctx.inputValue(src.column, r);
+      if (raw !== null && typeof raw !== 'number') return cell(value, { numFmt, mark: 'note', note: literalNote(ref, raw) });
+      if (empty === 'text') return cell(value, { numFmt, mark: 'note', note: literalNote(`${ctx.inputLetter(logK!.column)}${R}`, ctx.inputValue(logK!.column, r)) });
+      const k = rowFactor(result, field as CanonicalField, r);
+      if (k === undefined) return cell(value, { numFmt });
+      const used = k === 1 ? ref : `${ref}*${formulaNumber(k)}`;
+      return cell(value ?? '', { numFmt, formula: `IF(${ref}="",${empty ?? '""'},${used})` });
+    },
+  };
+}
+
+// ---- header notes ---------------------------------------------------------------------------
+
+function headerNotesFor(result: RecalcResult, layout: ResultsLayout, formulaForms: readonly string[]): Map<number, string> {
+  const notes = new Map<number, string>();
+  notes.set(layout.worklistRow.column, 'The row of this sample in the worklist file as given; messages and the Flags sheet name it.');
+  for (const col of layout.asUsed.values()) {
+    const field = col.field!;
+    if (field === 'surrogate') {
+      notes.set(col.column, "1 when the method marks the row's analyte as a surrogate (Analytes table on the Method sheet), else 0.");
+      continue;
+    }
+    const src = result.columnMap.fields.get(field as CanonicalField);
+    const unit = fieldUnit(result, field);
+    const parts = [`${field} as the formulas read it${unit ? `, in ${unit}` : ''}.`];
+    if (src) {
+      const factor = src.factor === undefined ? `converted from ${src.fromUnit} with the analyte's molar mass` : src.factor === 1 ? '' : `× ${src.factor} (${src.fromUnit} → ${src.toUnit})`;
+      parts.push(`From the worklist column "${src.header}"${factor ? ` ${factor}` : ''}.`);
+    } else {
+      parts.push('The worklist has no column for it.');
+    }
+    parts.push('Empty cells: see "when the cell is empty" in the Fields table of the Method sheet.');
+    notes.set(col.column, parts.join(' '));
+  }
+  result.method.formulas.forEach((def, i) => {
+    const col = layout.computed.get(def.name)!;
+    notes.set(col.column, `${def.expr}${def.description ? `\n${def.description}` : ''}\n${formulaForms[i]!.split(', e.g.')[0]}`);
+  });
+  notes.set(layout.flags.column, 'Flag codes of the row, ";"-separated; a marked cell says why, the Flags sheet lists every flag.');
+  notes.set(layout.rowCheck.column, "First 16 hex digits of a SHA-256 over this row's input cells as written; phasebook verify recomputes it to find rows changed after writing.");
+  return notes;
+}

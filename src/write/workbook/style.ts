@@ -1,0 +1,111 @@
+/**
+ * Our own plain colour scheme for the reviewer's workbook (nothing borrowed from
+ * any lab product): pale fills that keep black text readable and print well.
+ *
+ * - light red: fails (a failing QC flag, an input error, qc_status fail)
+ * - light amber: informs (a flag that does not fail the row)
+ * - light blue: a note (something the engine noted, a value with no spreadsheet formula)
+ * - header fills tell the column blocks of the Results sheet apart: grey for the
+ *   worklist's own columns, pale green for values as used, pale violet for computed.
+ *
+ * exceljs caches a style by object identity (a WeakMap in its styles writer), so
+ * every distinct style is built once here and shared by all the cells that use it.
+ */
+import type ExcelJS from 'exceljs';
+import type { Mark, StyleKey } from './cells.js';
+
+export const COLOURS = {
+  fail: 'FFF6CDCD',
+  inform: 'FFFBE5B6',
+  note: 'FFD7E7F7',
+  headerInput: 'FFE3E3E3',
+  headerAsUsed: 'FFE1EEDB',
+  headerComputed: 'FFE7E1F3',
+  headerStatus: 'FFEDEDED',
+  section: 'FFF2F2F2',
+} as const;
+
+/** What each mark means, for the legend on the Summary sheet. */
+export const MARK_MEANINGS: Record<Mark, string> = {
+  fail: 'fails: a failing QC flag (REC_LOW, REC_HIGH, RPD_HIGH, BLANK_HIT, NO_PARENT), an input error, or qc_status fail',
+  inform: 'informs: a flag that does not fail the row (BELOW_RL, OVER_RANGE, OUTLIER, LCS_ASSOC, MATRIX_ASSOC, BLANK_ASSOC)',
+  note: 'a note: something the engine noted (no partition coefficient, a division by zero) or a value written without a spreadsheet formula',
+};
+
+const fill = (argb: string): ExcelJS.Fill => ({ type: 'pattern', pattern: 'solid', fgColor: { argb } });
+
+const BASE: Record<StyleKey, Partial<ExcelJS.Style>> = {
+  title: { font: { bold: true, size: 14 } },
+  section: { font: { bold: true, size: 12 }, fill: fill(COLOURS.section) },
+  label: { font: { bold: true } },
+  header: { font: { bold: true }, fill: fill(COLOURS.headerStatus), alignment: { wrapText: true, vertical: 'top' } },
+  'header-input': { font: { bold: true }, fill: fill(COLOURS.headerInput), alignment: { wrapText: true, vertical: 'top' } },
+  'header-as-used': { font: { bold: true }, fill: fill(COLOURS.headerAsUsed), alignment: { wrapText: true, vertical: 'top' } },
+  'header-computed': { font: { bold: true }, fill: fill(COLOURS.headerComputed), alignment: { wrapText: true, vertical: 'top' } },
+  'header-status': { font: { bold: true }, fill: fill(COLOURS.headerStatus), alignment: { wrapText: true, vertical: 'top' } },
+  wrap: { alignment: { wrapText: true, vertical: 'top' } },
+  'sign-off': { border: { bottom: { style: 'thin' } } },
+};
+
+const MARK_FILL: Record<Mark, ExcelJS.Fill> = {
+  fail: fill(COLOURS.fail),
+  inform: fill(COLOURS.inform),
+  note: fill(COLOURS.note),
+};
+
+/** A swatch style for the legend. */
+export const markFill = (mark: Mark): ExcelJS.Fill => MARK_FILL[mark];
+
+const cache = new Map<string, Partial<ExcelJS.Style>>();
+
+/** The shared exceljs style for a combination, or undefined for a plain cell. */
+export function styleFor(key: StyleKey | undefined, mark: Mark | undefined, numFmt: string | undefined): Partial<ExcelJS.Style> | undefined {
+  if (key === undefined && mark === undefined && numFmt === undefined) return undefined;
+  const id = `${key ?? ''}|${mark ?? ''}|${numFmt ?? ''}`;
+  let style = cache.get(id);
+  if (!style) {
+    style = { ...(key ? BASE[key] : {}) };
+    if (mark) style.fill = MARK_FILL[mark];
+    if (numFmt) style.numFmt = numFmt;
+    cache.set(id, style);
+  }
+  return style;
+}
+
+/** The stronger of two marks (fail > inform > note). */
+export function strongerMark(a: Mark | undefined, b: Mark | undefined): Mark | undefined {
+  const rank = (m: Mark | undefined) => (m === 'fail' ? 3 : m === 'inform' ? 2 : m === 'note' ? 1 : 0);
+  return rank(a) >= rank(b) ? a : b;
+}
+
+/**
+ * A display format for a numeric column: about four significant figures at the
+ * column's typical (median) size, one decimal for percentages, scientific for
+ * very small or very large values. Display only: stored values stay exact.
+ */
+export function displayFormat(values: ArrayLike<number>, options: { percent?: boolean } = {}): string {
+  if (options.percent) return '0.0';
+  const xs: number[] = [];
+  const step = Math.max(1, Math.floor(values.length / 2000));
+  for (let i = 0; i < values.length; i += step) {
+    const v = values[i]!;
+    if (Number.isFinite(v) && v !== 0) xs.push(Math.abs(v));
+  }
+  if (xs.length === 0) return 'General';
+  xs.sort((a, b) => a - b);
+  const median = xs[Math.floor(xs.length / 2)]!;
+  if (median < 1e-4 || median >= 1e7) return '0.000E+00';
+  const decimals = Math.min(6, Math.max(0, 3 - Math.floor(Math.log10(median))));
+  return decimals === 0 ? '0' : `0.${'0'.repeat(decimals)}`;
+}
+
+/** A width (characters) that fits the longest of the texts, within limits. */
+export function fitWidth(texts: Iterable<string>, options: { min?: number; max?: number } = {}): number {
+  const min = options.min ?? 8;
+  const max = options.max ?? 50;
+  let longest = 0;
+  for (const t of texts) {
+    for (const line of t.split('\n')) longest = Math.max(longest, line.length);
+  }
+  return Math.min(max, Math.max(min, longest + 2));
+}
