@@ -5,11 +5,11 @@
  * whole-file damage, keep every row that holds a value (in order, cells as
  * written), and give the same result and the same results CSV twice.
  */
-import { readFileSync, writeFileSync } from 'node:fs';
+import { readFileSync, rmSync, writeFileSync } from 'node:fs';
 import { join } from 'node:path';
 import ExcelJS from 'exceljs';
 import fc from 'fast-check';
-import { beforeAll, describe, expect, it } from 'vitest';
+import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { StopError } from '../src/errors.js';
 import { loadMethod } from '../src/method/load.js';
 import { recalculate, type RecalcResult } from '../src/pipeline.js';
@@ -26,6 +26,7 @@ let files = 0;
 beforeAll(() => {
   dir = tempDir('phasebook-damage-');
 });
+afterAll(() => rmSync(dir, { recursive: true, force: true }));
 
 // ------------------------------------------------------------------ generators
 

@@ -46,7 +46,13 @@ export function parseMethod(text: string, options: { file: string }): Method {
     const line = e.linePos?.[0]?.line ?? lineCounter.linePos(e.pos[0]).line;
     throw new StopError('method', `cannot read the method as YAML: ${firstLine(e.message)}`, { file, line });
   }
-  const data = doc.toJS({ maxAliasCount: 50 }) as unknown;
+  let data: unknown;
+  try {
+    data = doc.toJS({ maxAliasCount: 50 }) as unknown;
+  } catch (err) {
+    // e.g. an alias bomb ("billion laughs"): too many aliases to expand.
+    throw new StopError('method', `cannot read the method as YAML: ${firstLine((err as Error).message)}`, { file, line: 1 });
+  }
   if (data === null || typeof data !== 'object' || Array.isArray(data)) {
     throw new StopError('method', 'expected a method (a YAML mapping with name and formulas), got nothing usable', { file, line: 1 });
   }

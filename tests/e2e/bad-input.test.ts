@@ -10,11 +10,11 @@
  */
 import { spawn } from 'node:child_process';
 import { createHash } from 'node:crypto';
-import { existsSync, mkdirSync, readdirSync, readFileSync, statSync, writeFileSync } from 'node:fs';
+import { existsSync, mkdirSync, readdirSync, readFileSync, rmSync, statSync, writeFileSync } from 'node:fs';
 import { join } from 'node:path';
 import ExcelJS from 'exceljs';
 import Papa from 'papaparse';
-import { beforeAll, describe, expect, it } from 'vitest';
+import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { ACCEPTED, ESCAPES, LARGE, ROW_DAMAGE, makeCorpus, makeLarge } from '../fixtures/broken/make-corpus.mjs';
 import { CLI, ROOT, tempDir } from '../helpers/cli.js';
 
@@ -30,6 +30,7 @@ beforeAll(async () => {
   await makeCorpus(dir, GENERIC_TEXT);
   for (const name of Object.keys(LARGE)) await makeLarge(dir, name);
 });
+afterAll(() => rmSync(dir, { recursive: true, force: true }));
 
 const sha256 = (path: string) => createHash('sha256').update(readFileSync(path)).digest('hex');
 
