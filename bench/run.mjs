@@ -37,7 +37,8 @@ import { FLOOR_COLUMNS } from './floor-columns.mjs';
 const ROOT = resolve(dirname(fileURLToPath(import.meta.url)), '..');
 const CLI = join(ROOT, 'dist', 'cli.js');
 const METHOD = join(ROOT, 'templates', 'generic-lle.yaml');
-const TIME = '/usr/bin/time';
+/** GNU time for peak memory; PHASEBOOK_BENCH_TIME=none uses the process's own accounting instead. */
+const TIME = process.env.PHASEBOOK_BENCH_TIME ?? '/usr/bin/time';
 
 const DEFAULT_SIZES = [10_000, 50_000, 200_000, 1_000_000];
 

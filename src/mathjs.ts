@@ -3,63 +3,82 @@ import type * as MathJs from 'mathjs';
 import type { MathNode } from 'mathjs';
 
 /**
- * The one mathjs instance phasebook uses, loaded once and hardened.
+ * mathjs, loaded once, fast, and hardened.
  *
- * Loaded from the single-file build (`mathjs/lib/browser/math.js`, listed in the
- * package's exports; the same version and code as the ESM entry). The ESM entry
- * evaluates about a thousand modules and creates every function on import, which
- * made it the largest part of phasebook's start-up: about four times the CPU
- * time of the single file (bench/README.md). Formula parsing and unit conversion
- * share this instance, so mathjs's type machinery is built once.
- *
- * Hardened as the mathjs security page advises
- * (https://mathjs.org/docs/expressions/security.html): `parse` is captured
- * first, then everything that defines, imports, parses or evaluates code is
- * replaced by a function that throws. phasebook only ever parses method formulas
- * (engine/sandbox.ts); evaluation is our own walk over an allow-listed tree
- * (engine/formula.ts), so no mathjs function is reachable from a formula.
+ * - Loaded from the single-file build (`mathjs/lib/browser/math.js`, listed in
+ *   the package's exports; the same version and code as the ESM entry). The ESM
+ *   entry evaluates about a thousand modules and creates every function on
+ *   import, which made it the largest part of phasebook's start-up: about four
+ *   times the CPU time of the single file (bench/README.md).
+ * - Formulas are parsed by an instance of their own whose `Unit` is a stand-in:
+ *   the parser never needs units, and mathjs builds its whole unit system (a few
+ *   hundred typed functions, most of the remaining start-up) as soon as a
+ *   SymbolNode class is made, only to tell, when a tree is *evaluated*, whether
+ *   a bare name is a unit. phasebook evaluates its own way (engine/formula.ts),
+ *   so the parser instance has no units at all. Unit conversion factors
+ *   (columns/units.ts) use the module's default instance, whose unit system is
+ *   built the first time a conversion is needed.
+ * - Hardened as the mathjs security page advises
+ *   (https://mathjs.org/docs/expressions/security.html): `parse` is captured
+ *   first, then everything that defines, imports, parses or evaluates code is
+ *   replaced, on both instances and in the namespace trees are evaluated in
+ *   (`expression.mathWithTransform`), by a function that throws. The properties
+ *   are replaced directly: `math.import(…, {override})` reads each old value
+ *   first, which would build every one of those functions just to discard it.
  *
  * Import mathjs through this module, never `from 'mathjs'` at run time (type
  * imports are free).
  */
 const require = createRequire(import.meta.url);
-const math = require('mathjs/lib/browser/math.js') as MathJs.MathJsInstance;
+const defaultInstance = require('mathjs/lib/browser/math.js') as MathJs.MathJsInstance;
+// An instance's own `create(config)` makes a new instance with every function (mathjs binds its factories to it).
+const createInstance = defaultInstance.create as unknown as (config: MathJs.ConfigOptions) => MathJs.MathJsInstance;
 
-math.config({ predictable: true });
-const capturedParse = math.parse;
+const DISABLED = ['import', 'createUnit', 'reviver', 'evaluate', 'parse', 'compile', 'simplify', 'derivative', 'resolve'] as const;
 
-const disabled = (name: string) => () => {
-  throw new Error(`function ${name} is disabled`);
-};
-math.import(
-  {
-    import: disabled('import'),
-    createUnit: disabled('createUnit'),
-    reviver: disabled('reviver'),
-    evaluate: disabled('evaluate'),
-    parse: disabled('parse'),
-    compile: disabled('compile'),
-    simplify: disabled('simplify'),
-    derivative: disabled('derivative'),
-    resolve: disabled('resolve'),
-  },
-  { override: true },
-);
+function put(target: object, name: string, value: unknown): void {
+  Object.defineProperty(target, name, { value, configurable: true, enumerable: true, writable: true });
+}
+
+function harden(math: MathJs.MathJsInstance): void {
+  const withTransform = (math as unknown as { expression: { mathWithTransform: object } }).expression.mathWithTransform;
+  for (const name of DISABLED) {
+    const stub = () => {
+      throw new Error(`function ${name} is disabled`);
+    };
+    put(math, name, stub);
+    put(withTransform, name, stub);
+  }
+}
+
+/** Stands in for mathjs's Unit in the parser instance: no name is a unit there. */
+function NoUnit(): never {
+  throw new Error('units are not available to formulas');
+}
+NoUnit.isValuelessUnit = (): boolean => false;
+
+const parser = createInstance({ predictable: true });
+put(parser, 'Unit', NoUnit);
+const capturedParse = parser.parse;
+harden(parser);
+
+const units = defaultInstance;
+harden(units);
 
 /** Parse an expression into a syntax tree; nothing is evaluated. */
 export function parseExpression(expr: string): MathNode {
   return capturedParse(expr);
 }
 
-/** A mathjs unit, for conversion factors (columns/units.ts). */
-export const unit: MathJs.MathJsInstance['unit'] = math.unit;
+/** A mathjs unit, for conversion factors (columns/units.ts); the unit system is built on first use. */
+export const unit = ((...args: unknown[]) => (units.unit as (...a: unknown[]) => MathJs.Unit)(...args)) as MathJs.MathJsInstance['unit'];
 
 /** Syntax-tree node classes, for code that builds trees (e.g. a formula translated for a spreadsheet). */
 export const mathNodes = {
-  ConstantNode: math.ConstantNode,
-  SymbolNode: math.SymbolNode,
-  FunctionNode: math.FunctionNode,
-  OperatorNode: math.OperatorNode,
-  ParenthesisNode: math.ParenthesisNode,
-  ConditionalNode: math.ConditionalNode,
+  ConstantNode: parser.ConstantNode,
+  SymbolNode: parser.SymbolNode,
+  FunctionNode: parser.FunctionNode,
+  OperatorNode: parser.OperatorNode,
+  ParenthesisNode: parser.ParenthesisNode,
+  ConditionalNode: parser.ConditionalNode,
 };

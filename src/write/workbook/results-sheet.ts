@@ -20,10 +20,10 @@
  * sheet holds values only, and the Summary and Provenance sheets say so.
  */
 import { createHash } from 'node:crypto';
-import { FunctionNode, SymbolNode, type ConstantNode, type MathNode } from 'mathjs';
-import { FIELD_SPECS, SAMPLE_TYPES, isCanonicalField, type CanonicalField } from '../../columns/fields.js';
+import type { ConstantNode, MathNode } from 'mathjs';
+import { FIELD_SPECS, isCanonicalField, type CanonicalField } from '../../columns/fields.js';
 import { parseNumberCell } from '../../columns/numbers.js';
-import { parseAcidBase } from '../../chemistry/partition.js';
+import { mathNodes } from '../../mathjs.js';
 import { DERIVED_COLUMNS, compileMethod } from '../../engine/evaluate.js';
 import { FAILING_CODES, type Flag } from '../../issues.js';
 import type { RecalcResult } from '../../pipeline.js';
@@ -34,8 +34,6 @@ import {
   MAX_CELL_TEXT,
   cell,
   columnLetter,
-  formulaNumber,
-  formulaText,
   sheetText,
   type CellValue,
   type Mark,
@@ -43,7 +41,8 @@ import {
   type PlannedRow,
   type SheetPlan,
 } from './cells.js';
-import { METHOD_SHEET, rowFactor, type MethodRefs } from './method-sheet.js';
+import type { MethodRefs } from './method-sheet.js';
+import { asUsedPlanner } from './as-used.js';
 import { displayFormat, fitWidth, strongerMark } from './style.js';
 
 export const RESULTS_SHEET = 'Results';
@@ -207,7 +206,7 @@ function replaceNaN(node: MathNode): MathNode {
   return node.transform((n: MathNode) => {
     if (n.type === 'ConstantNode') {
       const v = (n as ConstantNode).value as unknown;
-      if (typeof v === 'number' && Number.isNaN(v)) return new FunctionNode(new SymbolNode('parent'), [new SymbolNode(EMPTY_SYMBOL)]);
+      if (typeof v === 'number' && Number.isNaN(v)) return new mathNodes.FunctionNode(new mathNodes.SymbolNode('parent'), [new mathNodes.SymbolNode(EMPTY_SYMBOL)]);
     }
     return n;
   });
@@ -483,160 +482,6 @@ function addMark(cells: (PlannedCell | undefined)[], column: number, mark: Mark,
     ...c,
     mark: strongerMark(c.mark, mark),
     note: c.note ? `${c.note}\n${note}` : note,
-  };
-}
-
-// ---- as-used cells --------------------------------------------------------------------------
-
-interface AsUsedContext {
-  col: ResultsColumn;
-  layout: ResultsLayout;
-  refs: MethodRefs;
-  inputValue: (column: number, row: number) => CellValue;
-  inputLetter: (column: number) => string;
-  /** Display format of the column's numbers. */
-  numFmt?: string;
-}
-
-interface AsUsedPlanner {
-  column: number;
-  plan(row: number, sheetRow: number, live: boolean): PlannedCell;
-}
-
-const WILDCARDS = /[*?~]/;
-
-function literalNote(cellRef: string, value: CellValue): string {
-  return `The worklist cell ${cellRef} holds text (${JSON.stringify(value)}), which a spreadsheet formula cannot read the way phasebook does; the value phasebook read from it is written here.`;
-}
-
-function asUsedPlanner(result: RecalcResult, ctx: AsUsedContext): AsUsedPlanner {
-  const { col, layout, refs } = ctx;
-  const field = col.field!;
-  const { table, method } = result;
-  const column = col.column;
-
-  if (field === 'surrogate') {
-    return {
-      column,
-      plan: (r, _R, live) => {
-        const ai = table.analyteIndex[r]!;
-        const value = ai >= 0 && method.analytes[ai]!.surrogate ? 1 : 0;
-        const ref = ai >= 0 ? refs.analyte(ai, 'surrogate') : undefined;
-        return live && ref ? cell(value, { formula: ref }) : cell(value);
-      },
-    };
-  }
-
-  const spec = FIELD_SPECS.get(field as CanonicalField)!;
-  const src = result.columnMap.fields.get(field as CanonicalField);
-  const X = src ? ctx.inputLetter(src.column) : undefined;
-
-  if (spec.kind === 'text') {
-    const texts = table.texts.get(field)!;
-    const fallback = method.fields.get(field as CanonicalField)?.default;
-    const valueOf = (r: number): CellValue => {
-      const t = field === 'sample_type' ? table.sampleType[r]! : texts[r]!;
-      return t === '' ? null : t;
-    };
-    let whenEmpty: (r: number) => string | undefined; // formula text for an empty cell
-    let present: ((ref: string) => string) | undefined;
-    if (field === 'sample_type') {
-      const code = fallback === undefined ? '' : String(fallback).toLowerCase();
-      const canon = code === '' ? 'sample' : (method.sampleTypes.get(code) ?? (SAMPLE_TYPES as readonly string[]).find((s) => s === code) ?? '');
-      whenEmpty = () => formulaText(canon);
-      present = refs.lookupKeys.sampleTypeCodes.some((k) => WILDCARDS.test(k))
-        ? undefined
-        : (ref) => `VLOOKUP(LOWER(TRIM(${ref})),${refs.sampleTypeCodes},2,FALSE)`;
-    } else if (field === 'acid_base') {
-      const fb = fallback === undefined ? '' : String(fallback);
-      whenEmpty = (r) => {
-        if (fb !== '') return formulaText(parseAcidBase(fb) ?? '');
-        const ai = table.analyteIndex[r]!;
-        return (ai >= 0 ? refs.analyte(ai, 'acid_base') : undefined) ?? formulaText('neutral');
-      };
-      present = (ref) => `VLOOKUP(LOWER(TRIM(${ref})),${refs.acidBaseWords},2,FALSE)`;
-    } else if (field === 'analyte') {
-      const fb = fallback === undefined ? '' : String(fallback);
-      const known = new Map<string, string>();
-      method.analytes.forEach((a) => {
-        for (const nm of [a.name, ...a.aliases]) known.set(nm.trim().toLowerCase(), a.name);
-      });
-      whenEmpty = () => formulaText(known.get(fb.toLowerCase()) ?? fb);
-      present = refs.lookupKeys.analyteNames.some((k) => WILDCARDS.test(k))
-        ? undefined
-        : (ref) => `IFERROR(VLOOKUP(LOWER(TRIM(${ref})),${refs.analyteNames},2,FALSE),TRIM(${ref}))`;
-    } else {
-      const fb = fallback === undefined ? '' : String(fallback);
-      whenEmpty = () => formulaText(fb);
-      present = (ref) => `TRIM(${ref})`;
-    }
-    return {
-      column,
-      plan: (r, R, live) => {
-        const value = valueOf(r);
-        if (!live) return cell(value);
-        if (!src) {
-          const f = whenEmpty(r);
-          return f !== undefined && f.startsWith(`${METHOD_SHEET}!`) ? cell(value, { formula: f }) : cell(value);
-        }
-        if (!present) return cell(value);
-        const ref = `${X}${R}`;
-        return cell(value ?? '', { formula: `IF(TRIM(${ref})="",${whenEmpty(r) ?? '""'},${present(ref)})` });
-      },
-    };
-  }
-
-  // Numeric fields.
-  const numFmt = ctx.numFmt;
-  const values = table.numbers.get(field)!;
-  const numericDefault = (f: CanonicalField): string | undefined => refs.fieldDefault(f);
-  const logK = result.columnMap.fields.get('log_k');
-  /** The formula for an empty cell; 'text' when a cell it reads holds text a formula cannot use. */
-  const whenEmpty = (r: number, R: number): string | undefined | 'text' => {
-    const ai = table.analyteIndex[r]!;
-    switch (field) {
-      case 'final_volume': {
-        const e = layout.asUsed.get('extractions')!.letter + R;
-        const s = layout.asUsed.get('solvent_volume')!.letter + R;
-        return `IF(OR(${e}="",${s}=""),"",${e}*${s})`;
-      }
-      case 'partition_coeff': {
-        const fromMethod = (ai >= 0 ? refs.analyte(ai, 'partition_coeff') : undefined) ?? numericDefault('partition_coeff');
-        if (!logK) return fromMethod;
-        const raw = ctx.inputValue(logK.column, r);
-        if (raw !== null && typeof raw !== 'number') return 'text';
-        const L = `${ctx.inputLetter(logK.column)}${R}`;
-        return `IF(${L}="",${fromMethod ?? '""'},10^${L})`;
-      }
-      case 'pka':
-      case 'ph':
-        return (ai >= 0 ? refs.analyte(ai, field) : undefined) ?? numericDefault(field);
-      case 'reporting_limit':
-        return (ai >= 0 ? refs.analyte(ai, 'reporting_limit') : undefined) ?? refs.defaultReportingLimit ?? numericDefault(field);
-      default:
-        return numericDefault(field as CanonicalField);
-    }
-  };
-  return {
-    column,
-    plan: (r, R, live) => {
-      const v = values[r]!;
-      const value = Number.isFinite(v) ? v : null;
-      if (!live) return cell(value, { numFmt });
-      const empty = whenEmpty(r, R);
-      if (!src) {
-        if (empty === 'text') return cell(value, { numFmt, mark: 'note', note: literalNote(`${ctx.inputLetter(logK!.column)}${R}`, ctx.inputValue(logK!.column, r)) });
-        return empty === undefined ? cell(value, { numFmt }) : cell(value ?? '', { numFmt, formula: empty });
-      }
-      const ref = `${X}${R}`;
-      const raw = ctx.inputValue(src.column, r);
-      if (raw !== null && typeof raw !== 'number') return cell(value, { numFmt, mark: 'note', note: literalNote(ref, raw) });
-      if (empty === 'text') return cell(value, { numFmt, mark: 'note', note: literalNote(`${ctx.inputLetter(logK!.column)}${R}`, ctx.inputValue(logK!.column, r)) });
-      const k = rowFactor(result, field as CanonicalField, r);
-      if (k === undefined) return cell(value, { numFmt });
-      const used = k === 1 ? ref : `${ref}*${formulaNumber(k)}`;
-      return cell(value ?? '', { numFmt, formula: `IF(${ref}="",${empty ?? '""'},${used})` });
-    },
   };
 }
 
