@@ -48,15 +48,17 @@ export function conversionFactor(from: string, to: string, options: { molarMass?
   const kt = unitKind(t);
   if (!kf) throw new Error(`"${from}" is not a unit phasebook can convert`);
   if (!kt) throw new Error(`"${to}" is not a unit phasebook can convert`);
-  if (kf === kt) return mathUnit(1, f).toNumber(t);
+  // Factors are rounded to 15 significant digits: mathjs leaves binary noise (ng/mL → ug/L gives
+  // 1.0000000000000002, cc → uL 999.9999999999999; LIBRARY-NOTES.md §1), and SI factors are exact decimals.
+  if (kf === kt) return clean(mathUnit(1, f).toNumber(t));
   const molarMass = options.molarMass;
   if (kf === 'molar_concentration' && kt === 'mass_concentration') {
     if (!molarMass) throw new Error(`converting "${from}" to "${to}" needs the analyte's molar mass`);
-    return mathUnit(1, f).toNumber('mol/L') * molarMass * mathUnit(1, 'g/L').toNumber(t);
+    return clean(mathUnit(1, f).toNumber('mol/L') * mathUnit(1, 'g/L').toNumber(t)) * molarMass;
   }
   if (kf === 'mass_concentration' && kt === 'molar_concentration') {
     if (!molarMass) throw new Error(`converting "${from}" to "${to}" needs the analyte's molar mass`);
-    return (mathUnit(1, f).toNumber('g/L') / molarMass) * mathUnit(1, 'mol/L').toNumber(t);
+    return clean(mathUnit(1, f).toNumber('g/L') * mathUnit(1, 'mol/L').toNumber(t)) / molarMass;
   }
   throw new Error(`cannot convert "${from}" (${describeKind(kf)}) to "${to}" (${describeKind(kt)})`);
 }
@@ -70,4 +72,8 @@ export function splitHeaderUnit(header: string): { name: string; unit?: string }
   const m = /^(.*?)\s*[[(]\s*([^\])]+?)\s*[\])]\s*$/.exec(header);
   if (!m || m[1]!.trim() === '') return { name: header.trim() };
   return { name: m[1]!.trim(), unit: m[2]! };
+}
+
+function clean(factor: number): number {
+  return Number(factor.toPrecision(15));
 }
