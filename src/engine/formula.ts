@@ -126,32 +126,29 @@ const BINARY: Record<string, (x: Value, y: Value) => Value> = {
   multiply: (x, y) => num(x) * num(y),
   divide: (x, y) => num(x) / num(y),
   pow: (x, y) => num(x) ** num(y),
-  equal: (x, y) => compare(x, y, (c) => c === 0),
-  unequal: (x, y) => compare(x, y, (c) => c !== 0),
-  smaller: (x, y) => compare(x, y, (c) => c < 0),
-  smallerEq: (x, y) => compare(x, y, (c) => c <= 0),
-  larger: (x, y) => compare(x, y, (c) => c > 0),
-  largerEq: (x, y) => compare(x, y, (c) => c >= 0),
+  equal: (x, y) => compare(x, y, (a, b) => a === b),
+  unequal: (x, y) => compare(x, y, (a, b) => a !== b),
+  smaller: (x, y) => compare(x, y, (a, b) => a < b),
+  smallerEq: (x, y) => compare(x, y, (a, b) => a <= b),
+  larger: (x, y) => compare(x, y, (a, b) => a > b),
+  largerEq: (x, y) => compare(x, y, (a, b) => a >= b),
 };
 
-function compare(x: Value, y: Value, test: (c: number) => boolean): number {
-  if (typeof x === 'string' && typeof y === 'string') {
-    const a = x.trim().toLowerCase();
-    const b = y.trim().toLowerCase();
-    return test(a < b ? -1 : a > b ? 1 : 0) ? 1 : 0;
-  }
-  if (typeof x === 'string' || typeof y === 'string') {
-    // Text against a number: only "empty text" means something (it equals NaN's "empty").
-    return NaN;
-  }
-  if (Number.isNaN(x) || Number.isNaN(y)) return NaN;
-  return test(x - y) ? 1 : 0;
+/**
+ * Comparisons and truth follow mathjs, so a formula means what its language says
+ * and what the workbook's spreadsheet translation computes (write/sheet-formula.ts):
+ * a comparison with an empty number is false (!= is true), an empty number is false.
+ * Text compares without case or surrounding spaces; text against a number is empty.
+ */
+function compare<T extends number | string>(x: Value, y: Value, test: (a: T, b: T) => boolean): number {
+  if (typeof x === 'string' && typeof y === 'string') return test(x.trim().toLowerCase() as T, y.trim().toLowerCase() as T) ? 1 : 0;
+  if (typeof x === 'string' || typeof y === 'string') return NaN;
+  return test(x as T, y as T) ? 1 : 0;
 }
 
 function truth(v: Value): number {
   if (typeof v === 'string') return v.trim() === '' ? 0 : 1;
-  if (Number.isNaN(v)) return NaN;
-  return v !== 0 ? 1 : 0;
+  return v !== 0 && !Number.isNaN(v) ? 1 : 0;
 }
 
 /**
@@ -213,8 +210,7 @@ export function compileFormula(
           const tf = t(ctx);
           const ff = f(ctx);
           return (row) => {
-            const cond = truth(cf(row));
-            return Number.isNaN(cond) ? NaN : cond ? tf(row) : ff(row);
+            return truth(cf(row)) ? tf(row) : ff(row);
           };
         };
       }
@@ -225,7 +221,7 @@ export function compileFormula(
           const [a] = args as [(ctx: EvalContext) => RowFn];
           if (fn === 'unaryMinus') return (ctx) => { const af = a(ctx); return (r) => -num(af(r)); };
           if (fn === 'unaryPlus') return (ctx) => { const af = a(ctx); return (r) => num(af(r)); };
-          if (fn === 'not') return (ctx) => { const af = a(ctx); return (r) => { const t = truth(af(r)); return Number.isNaN(t) ? NaN : 1 - t; }; };
+          if (fn === 'not') return (ctx) => { const af = a(ctx); return (r) => 1 - truth(af(r)); };
         }
         if (args.length === 2) {
           const [a, b] = args as [(ctx: EvalContext) => RowFn, (ctx: EvalContext) => RowFn];
@@ -236,11 +232,8 @@ export function compileFormula(
               const bf = b(ctx);
               return (r) => {
                 const x = truth(af(r));
-                if (isAnd && x === 0) return 0;
-                if (!isAnd && x === 1) return 1;
-                const y = truth(bf(r));
-                if (Number.isNaN(x) || Number.isNaN(y)) return NaN;
-                return isAnd ? x & y : x | y;
+                if (isAnd ? x === 0 : x === 1) return x;
+                return truth(bf(r));
               };
             };
           }
