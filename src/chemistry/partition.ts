@@ -13,12 +13,17 @@
 
 export type AcidBase = 'acid' | 'base' | 'neutral';
 
+/** Words accepted in an acid/base cell (compared without case or surrounding spaces). */
+export const ACID_WORDS: readonly string[] = ['acid', 'a', 'ha'];
+export const BASE_WORDS: readonly string[] = ['base', 'b'];
+export const NEUTRAL_WORDS: readonly string[] = ['', 'neutral', 'n', 'none'];
+
 /** Parse the text of an acid/base cell; undefined when it is none of the accepted words. */
 export function parseAcidBase(text: string): AcidBase | undefined {
   const t = text.trim().toLowerCase();
-  if (t === 'acid' || t === 'a' || t === 'ha') return 'acid';
-  if (t === 'base' || t === 'b') return 'base';
-  if (t === '' || t === 'neutral' || t === 'n' || t === 'none') return 'neutral';
+  if (ACID_WORDS.includes(t)) return 'acid';
+  if (BASE_WORDS.includes(t)) return 'base';
+  if (NEUTRAL_WORDS.includes(t)) return 'neutral';
   return undefined;
 }
 

@@ -33,6 +33,7 @@
  * Cells should hold numbers as numbers; a number stored as text ("12.5") is converted by the
  * arithmetic, but one with a decimal comma is not.
  */
+import { ACID_WORDS, BASE_WORDS, NEUTRAL_WORDS, parseAcidBase } from '../chemistry/partition.js';
 import type {
   ConditionalNode,
   ConstantNode,
@@ -72,10 +73,8 @@ export type SheetFormulaResult =
     }
   | { unsupported: string };
 
-/** Words the engine accepts in an acid_base cell; kept in step with parseAcidBase (src/chemistry/partition.ts). */
-export const ACID_WORDS: readonly string[] = ['acid', 'a', 'ha'];
-export const BASE_WORDS: readonly string[] = ['base', 'b'];
-export const NEUTRAL_WORDS: readonly string[] = ['', 'neutral', 'n', 'none'];
+// The acid/base words are the engine's own (src/chemistry/partition.ts), re-exported for the workbook.
+export { ACID_WORDS, BASE_WORDS, NEUTRAL_WORDS };
 
 /** Excel's limits: 8,192 characters per formula, 255 per text constant. */
 const MAX_FORMULA_LENGTH = 8192;
@@ -647,9 +646,5 @@ function constantWord(node: MathNode): 'acid' | 'base' | 'neutral' | 'unknown' |
   if (n.type !== 'ConstantNode') return undefined;
   const v = (n as ConstantNode<AnyConstant>).value;
   if (typeof v !== 'string') return 'unknown';
-  const w = v.trim().toLowerCase();
-  if (ACID_WORDS.includes(w)) return 'acid';
-  if (BASE_WORDS.includes(w)) return 'base';
-  if (NEUTRAL_WORDS.includes(w)) return 'neutral';
-  return 'unknown';
+  return parseAcidBase(v) ?? 'unknown';
 }
