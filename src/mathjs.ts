@@ -72,13 +72,3 @@ export function parseExpression(expr: string): MathNode {
 
 /** A mathjs unit, for conversion factors (columns/units.ts); the unit system is built on first use. */
 export const unit = ((...args: unknown[]) => (units.unit as (...a: unknown[]) => MathJs.Unit)(...args)) as MathJs.MathJsInstance['unit'];
-
-/** Syntax-tree node classes, for code that builds trees (e.g. a formula translated for a spreadsheet). */
-export const mathNodes = {
-  ConstantNode: parser.ConstantNode,
-  SymbolNode: parser.SymbolNode,
-  FunctionNode: parser.FunctionNode,
-  OperatorNode: parser.OperatorNode,
-  ParenthesisNode: parser.ParenthesisNode,
-  ConditionalNode: parser.ConditionalNode,
-};

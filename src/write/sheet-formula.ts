@@ -319,6 +319,9 @@ class Translator {
 
   /** The reference a node stands for, or undefined when it is not a plain reference. */
   private refOf(node: MathNode): Ref | undefined {
+    // NaN is the engine's empty value: it behaves exactly as a cross-row look-up with no row.
+    if (node.type === 'ConstantNode' && Number.isNaN((node as ConstantNode<AnyConstant>).value)) return { missing: true };
+    if (node.type === 'SymbolNode' && (node as SymbolNode).name === 'NaN') return { missing: true };
     if (node.type === 'SymbolNode') {
       const name = (node as SymbolNode).name;
       const cell = this.ctx.cellOf(name);

@@ -192,6 +192,9 @@ describe('toSheetFormula: conditions, text and empty values', () => {
     ['a < b and b <= c', 'IF(AND(IF(OR(A2="",B2=""),FALSE,A2<B2),IF(OR(B2="",C2=""),FALSE,B2<=C2)),1,0)'],
     ['(a > b) * 10', 'IFERROR(IF((IF(OR(A2="",B2=""),FALSE,A2>B2)),1,0)*10,"")'],
     ['sample_type == "ms"', 'IF(LOWER(TRIM(O2))="ms",1,0)'],
+    // NaN is the engine's empty value: a branch that yields it is empty, like a look-up with no row.
+    ['NaN', '""'],
+    ['a > 5 ? a : NaN', 'IFERROR(IF(IF(A2="",FALSE,A2>5),IF(A2="",NA(),A2),NA()),"")'],
     ['"ms" != sample_type', 'IF("ms"<>LOWER(TRIM(O2)),1,0)'],
     // mathjs writes a quote inside text as \"; the sheet doubles it.
     ['sample_type == "say \\"hi\\""', 'IF(LOWER(TRIM(O2))="say ""hi""",1,0)'],

@@ -20,10 +20,8 @@
  * sheet holds values only, and the Summary and Provenance sheets say so.
  */
 import { createHash } from 'node:crypto';
-import type { ConstantNode, MathNode } from 'mathjs';
 import { FIELD_SPECS, isCanonicalField, type CanonicalField } from '../../columns/fields.js';
 import { parseNumberCell } from '../../columns/numbers.js';
-import { mathNodes } from '../../mathjs.js';
 import { DERIVED_COLUMNS, compileMethod } from '../../engine/evaluate.js';
 import { FAILING_CODES, type Flag } from '../../issues.js';
 import type { RecalcResult } from '../../pipeline.js';
@@ -195,22 +193,10 @@ export function rowCheck(values: readonly CellValue[]): string {
 
 // ---- formula templates ----------------------------------------------------------------------
 
-/** Stands for mathjs NaN (an empty value): a cross-row look-up with no row, which the translator empties. */
-const EMPTY_SYMBOL = '\u0000empty';
 const PLACEHOLDER = /\{\{([cpq]):(\d+)\}\}/;
 
 type Part = string | { which: 'c' | 'p' | 'q'; column: number };
 type Template = { parts: Part[] } | { unsupported: string };
-
-function replaceNaN(node: MathNode): MathNode {
-  return node.transform((n: MathNode) => {
-    if (n.type === 'ConstantNode') {
-      const v = (n as ConstantNode).value as unknown;
-      if (typeof v === 'number' && Number.isNaN(v)) return new mathNodes.FunctionNode(new mathNodes.SymbolNode('parent'), [new mathNodes.SymbolNode(EMPTY_SYMBOL)]);
-    }
-    return n;
-  });
-}
 
 function splitTemplate(text: string): Template {
   const parts: Part[] = [];
@@ -251,7 +237,7 @@ export function planResultsSheet(result: RecalcResult, options: ResultsOptions):
 
   // Formula templates, per formula column and per (parent row?, pair row?).
   const compiled = compileMethod(result.method);
-  const nodes = compiled.formulas.map((f) => replaceNaN(f.node));
+  const nodes = compiled.formulas.map((f) => f.node);
   const isText = (s: string) => FIELD_SPECS.get(s as CanonicalField)?.kind === 'text';
   const cellColumn = (s: string) => (layout.asUsed.get(s) ?? layout.computed.get(s))?.column;
   const templates: Template[][] = nodes.map(() => []);
@@ -265,7 +251,7 @@ export function planResultsSheet(result: RecalcResult, options: ResultsOptions):
           return c === undefined ? undefined : `{{c:${c}}}`;
         },
         crossRowCellOf: (fn, s) => {
-          if (s === EMPTY_SYMBOL || (fn === 'parent' ? !hasParent : !hasPair)) return undefined;
+          if (fn === 'parent' ? !hasParent : !hasPair) return undefined;
           const c = cellColumn(s);
           return c === undefined ? undefined : `{{${fn === 'parent' ? 'p' : 'q'}:${c}}}`;
         },
