@@ -25,7 +25,7 @@ const EXIT_OK = 0;
 const EXIT_FINDINGS = 1;
 const EXIT_STOP = 2;
 
-let debug = process.argv.includes('--debug');
+const debug = process.argv.includes('--debug');
 
 function parseBytes(text: string): number {
   const m = /^\s*(\d+(?:\.\d+)?)\s*([kmg]i?b?|b)?\s*$/i.exec(text);
@@ -205,7 +205,6 @@ export async function main(argv: string[]): Promise<number> {
   }
 }
 
-debug = process.argv.includes('--debug');
 main(process.argv).then(
   (code) => {
     process.exitCode = code;

@@ -113,7 +113,6 @@ export function mapColumns(table: RawTable, method: Method): ColumnMap {
     fields.set(field, { field, column, header, fromUnit, toUnit, factor });
   });
 
-  const hasK = fields.has('partition_coeff') || fields.has('log_k');
   for (const spec of FIELD_SPECS.values()) {
     if (!spec.required || fields.has(spec.name)) continue;
     const cfg = method.fields.get(spec.name);
@@ -121,7 +120,6 @@ export function mapColumns(table: RawTable, method: Method): ColumnMap {
     const aliases = cfg?.aliases.length ? ` (or ${cfg.aliases.map((a) => `"${a}"`).join(', ')})` : '';
     throw new StopError('input', `missing the required column "${spec.name}"${aliases}`, { file: table.source, line });
   }
-  void hasK;
   return { fields, unmapped };
 }
 

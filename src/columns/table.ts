@@ -130,29 +130,55 @@ export function buildTable(raw: RawTable, map: ColumnMap, method: Method): WorkT
   }
 
   // Defaults and method data, then per-row checks that need several fields.
+  // Columns and the method's defaults are looked up once here, not per row.
   const get = (f: CanonicalField) => numbers.get(f)!;
-  const srcOf = (f: CanonicalField) => sources.get(f)!;
-  const fillDefault = (f: CanonicalField, r: number, value: number | undefined) => {
-    if (value === undefined || Number.isNaN(value) || !Number.isNaN(get(f)[r]!)) return;
-    get(f)[r] = value;
-    srcOf(f)[r] = ValueSource.Default;
+  const column = (f: CanonicalField) => ({ values: numbers.get(f)!, source: sources.get(f)! });
+  const fill = (c: { values: Float64Array; source: Uint8Array }, r: number, value: number | undefined) => {
+    if (value === undefined || Number.isNaN(value) || !Number.isNaN(c.values[r]!)) return;
+    c.values[r] = value;
+    c.source[r] = ValueSource.Default;
+  };
+  const cols = {
+    extractions: column('extractions'),
+    dilution: column('dilution'),
+    sampleVolume: column('sample_volume'),
+    solventVolume: column('solvent_volume'),
+    k: column('partition_coeff'),
+    pka: column('pka'),
+    ph: column('ph'),
+    rl: column('reporting_limit'),
+    finalVolume: column('final_volume'),
+  };
+  const logKs = get('log_k');
+  const spikes = get('spike_conc');
+  const required = (['extract_conc', 'sample_volume', 'solvent_volume'] as const).map((f) => [f, get(f)] as const);
+  const headerOf = (f: CanonicalField) => map.fields.get(f)?.header ?? f;
+  const defaults = {
+    extractions: numberDefault(method, 'extractions') ?? 1,
+    dilution: numberDefault(method, 'dilution') ?? 1,
+    sampleVolume: numberDefault(method, 'sample_volume'),
+    solventVolume: numberDefault(method, 'solvent_volume'),
+    k: numberDefault(method, 'partition_coeff'),
+    pka: numberDefault(method, 'pka'),
+    ph: numberDefault(method, 'ph'),
+    rl: method.defaults.reporting_limit ?? numberDefault(method, 'reporting_limit'),
   };
   const acid = texts.get('acid_base')!;
   const acidCanon = new Array<string>(n);
   const abSrc = map.fields.get('acid_base');
   for (let r = 0; r < n; r++) {
     const a: AnalyteInfo | undefined = analyteIndex[r]! >= 0 ? method.analytes[analyteIndex[r]!] : undefined;
-    fillDefault('extractions', r, numberDefault(method, 'extractions') ?? 1);
-    fillDefault('dilution', r, numberDefault(method, 'dilution') ?? 1);
-    fillDefault('sample_volume', r, numberDefault(method, 'sample_volume'));
-    fillDefault('solvent_volume', r, numberDefault(method, 'solvent_volume'));
-    const logK = get('log_k')[r]!;
-    fillDefault('partition_coeff', r, Number.isNaN(logK) ? undefined : 10 ** logK);
-    fillDefault('partition_coeff', r, a?.partition_coeff ?? numberDefault(method, 'partition_coeff'));
-    fillDefault('pka', r, a?.pka ?? numberDefault(method, 'pka'));
-    fillDefault('ph', r, a?.ph ?? numberDefault(method, 'ph'));
-    fillDefault('reporting_limit', r, a?.reporting_limit ?? method.defaults.reporting_limit ?? numberDefault(method, 'reporting_limit'));
-    fillDefault('final_volume', r, get('extractions')[r]! * get('solvent_volume')[r]!);
+    fill(cols.extractions, r, defaults.extractions);
+    fill(cols.dilution, r, defaults.dilution);
+    fill(cols.sampleVolume, r, defaults.sampleVolume);
+    fill(cols.solventVolume, r, defaults.solventVolume);
+    const logK = logKs[r]!;
+    fill(cols.k, r, Number.isNaN(logK) ? undefined : 10 ** logK);
+    fill(cols.k, r, a?.partition_coeff ?? defaults.k);
+    fill(cols.pka, r, a?.pka ?? defaults.pka);
+    fill(cols.ph, r, a?.ph ?? defaults.ph);
+    fill(cols.rl, r, a?.reporting_limit ?? defaults.rl);
+    fill(cols.finalVolume, r, cols.extractions.values[r]! * cols.solventVolume.values[r]!);
 
     let ab: AcidBase | undefined = parseAcidBase(acid[r]!);
     if (ab === undefined) {
@@ -163,25 +189,25 @@ export function buildTable(raw: RawTable, map: ColumnMap, method: Method): WorkT
     }
     acidCanon[r] = ab;
     if (rowError[r]) continue;
-    if (ab !== 'neutral' && !Number.isNaN(get('partition_coeff')[r]!)) {
-      if (Number.isNaN(get('ph')[r]!)) fail(r, map.fields.get('ph')?.header ?? 'ph', `expected a pH for an ionisable analyte (${ab})`);
-      else if (Number.isNaN(get('pka')[r]!)) fail(r, map.fields.get('pka')?.header ?? 'pka', `expected a pKa for an ionisable analyte (${ab})`);
+    if (ab !== 'neutral' && !Number.isNaN(cols.k.values[r]!)) {
+      if (Number.isNaN(cols.ph.values[r]!)) fail(r, headerOf('ph'), `expected a pH for an ionisable analyte (${ab})`);
+      else if (Number.isNaN(cols.pka.values[r]!)) fail(r, headerOf('pka'), `expected a pKa for an ionisable analyte (${ab})`);
     }
-    for (const f of ['extract_conc', 'sample_volume', 'solvent_volume'] as const) {
-      if (Number.isNaN(get(f)[r]!)) fail(r, map.fields.get(f)?.header ?? f, `expected a value for ${f}, got an empty cell`);
+    for (const [f, values] of required) {
+      if (Number.isNaN(values[r]!)) fail(r, headerOf(f), `expected a value for ${f}, got an empty cell`);
     }
     const type = sampleType[r];
     if (!rowError[r] && (type === 'lcs' || type === 'lcsd' || type === 'ms' || type === 'msd' || type === 'qc')) {
       // A spiked control without its spike cannot be judged: it must not pass silently.
-      const spike = get('spike_conc')[r]!;
+      const spike = spikes[r]!;
       if (!(spike > 0)) {
-        const header = map.fields.get('spike_conc')?.header ?? 'spike_conc';
+        const header = headerOf('spike_conc');
         const want = `expected a spike concentration above 0 for ${type === 'qc' ? 'a' : 'an'} ${type} row`;
         if (Number.isNaN(spike)) fail(r, header, `${want}, got an empty cell`);
         else fail(r, header, want, String(spike));
       }
     }
-    if (!rowError[r] && Number.isNaN(get('partition_coeff')[r]!)) {
+    if (!rowError[r] && Number.isNaN(cols.k.values[r]!)) {
       notes.push({ row: r, column: 'extraction_efficiency_pct', message: 'no partition coefficient: extraction efficiency taken as 100 %' });
     }
   }
