@@ -10,7 +10,6 @@
 import type { Command } from 'commander';
 import { StopError } from '../errors.js';
 import { formatDifference } from '../verify/difference.js';
-import { verifyWorkbook } from '../verify/verify.js';
 
 const EXIT_OK = 0;
 const EXIT_DIFFERENCES = 1;
@@ -49,6 +48,8 @@ export function registerVerifyCommand(program: Command, io: VerifyIo): void {
     .action(async (workbook: string, opts: VerifyCliOptions) => {
       let report;
       try {
+        // Loaded here, not at start-up: only `verify` needs the workbook reader.
+        const { verifyWorkbook } = await import('../verify/verify.js');
         report = await verifyWorkbook(workbook);
       } catch (err) {
         if (!(err instanceof StopError)) throw err;

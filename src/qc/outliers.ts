@@ -9,7 +9,15 @@
  * false when not, and null when no decision is possible because the critical
  * value is unknown (Dixon outside its table, or an alpha outside 0..1).
  */
-import tQuantile from '@stdlib/stats-base-dists-t-quantile';
+import { createRequire } from 'node:module';
+
+// The t quantile (@stdlib, some 350 modules) is loaded on first use, not at start-up.
+const require = createRequire(import.meta.url);
+let quantile: ((p: number, v: number) => number) | undefined;
+function tQuantile(p: number, v: number): number {
+  quantile ??= require('@stdlib/stats-base-dists-t-quantile') as (p: number, v: number) => number;
+  return quantile(p, v);
+}
 import { mean, sampleSd } from './stats.js';
 
 export interface GrubbsOptions {
