@@ -50,3 +50,24 @@ export class StopError extends Error {
     return parts.length ? `${parts.join(', ')}: ${this.message}` : this.message;
   }
 }
+
+/** A file-system error in words for a message ("no such file", not "ENOENT"). */
+export function fsReason(err: unknown): string {
+  const code = (err as { code?: unknown } | null)?.code;
+  switch (code) {
+    case 'ENOENT':
+      return 'no such file';
+    case 'EACCES':
+    case 'EPERM':
+      return 'permission denied';
+    case 'EISDIR':
+      return 'it is a folder';
+    case 'EEXIST':
+    case 'ENOTDIR':
+      return 'a file of that name is in the way';
+    case 'ENOSPC':
+      return 'the disk is full';
+    default:
+      return err instanceof Error ? err.message : String(err);
+  }
+}

@@ -2,7 +2,7 @@ import { createHash } from 'node:crypto';
 import { readFileSync } from 'node:fs';
 import AjvModule from 'ajv';
 import { LineCounter, parseDocument, isNode, type Document } from 'yaml';
-import { StopError } from '../errors.js';
+import { StopError, fsReason } from '../errors.js';
 import { parseAcidBase } from '../chemistry/partition.js';
 import { isCanonicalField, type CanonicalField, type SampleType } from '../columns/fields.js';
 import { GENERIC_LIMITS, GENERIC_QC } from './defaults.js';
@@ -31,7 +31,7 @@ export function loadMethod(path: string): Method {
   try {
     text = readFileSync(path, 'utf8');
   } catch (err) {
-    throw new StopError('method', `cannot read the method file: ${(err as NodeJS.ErrnoException).code ?? String(err)}`, { file: path });
+    throw new StopError('method', `cannot read the method file: ${fsReason(err)}`, { file: path });
   }
   return parseMethod(text, { file: path });
 }

@@ -21,7 +21,7 @@ import { createReadStream } from 'node:fs';
 import { open, stat } from 'node:fs/promises';
 import { Transform } from 'node:stream';
 import Papa from 'papaparse';
-import { StopError } from '../errors.js';
+import { StopError, fsReason } from '../errors.js';
 import { rowMessage } from '../issues.js';
 import { ColumnBuilder, estimateRows } from './column-builder.js';
 import type { RawTable, RowProblem } from './types.js';
@@ -75,22 +75,6 @@ export async function checkInputFile(path: string, options: { maxBytes?: number 
   }
   if (size === 0) throw new StopError('input', 'is empty, expected a header row and data rows', { file: path });
   return size;
-}
-
-/** Words for a Node file-system error. */
-export function fsReason(err: unknown): string {
-  const code = (err as { code?: unknown } | null)?.code;
-  switch (code) {
-    case 'ENOENT':
-      return 'no such file';
-    case 'EACCES':
-    case 'EPERM':
-      return 'permission denied';
-    case 'EISDIR':
-      return 'it is a folder';
-    default:
-      return err instanceof Error ? err.message : String(err);
-  }
 }
 
 /** The first `limit` bytes of a file, and whether that is the whole file. */

@@ -1,6 +1,6 @@
 import { mkdir } from 'node:fs/promises';
 import { basename, extname, join } from 'node:path';
-import { StopError } from '../errors.js';
+import { StopError, fsReason } from '../errors.js';
 import type { RecalcResult } from '../pipeline.js';
 import { commitAll, type WriteJob } from './atomic.js';
 import { writeResultsCsv } from './csv.js';
@@ -57,7 +57,7 @@ export async function writeOutputs(result: RecalcResult, options: WriteOptions):
   try {
     await mkdir(options.outDir, { recursive: true });
   } catch (err) {
-    throw new StopError('output', `cannot create the output folder: ${(err as NodeJS.ErrnoException).code ?? String(err)}`, {
+    throw new StopError('output', `cannot create the output folder: ${fsReason(err)}`, {
       file: options.outDir,
     });
   }

@@ -1,5 +1,5 @@
 import { createHash } from 'node:crypto';
-import { existsSync, readFileSync, readdirSync } from 'node:fs';
+import { existsSync, readFileSync, readdirSync, writeFileSync } from 'node:fs';
 import { join } from 'node:path';
 import ExcelJS from 'exceljs';
 import Papa from 'papaparse';
@@ -140,10 +140,19 @@ describe('the demo and the basics of the CLI', () => {
     expect(help.stdout).toMatch(/recalc/);
   });
 
+  it('exit 2 naming the output folder when a file stands in its way', () => {
+    const out = tempDir();
+    const blocker = join(out, 'results');
+    writeFileSync(blocker, 'not a folder');
+    const r = runCli(['recalc', join(FORMS, 'canonical.csv'), '--method', GENERIC, '--out', blocker]);
+    expect(r.code).toBe(2);
+    expect(r.stderr).toContain(`phasebook: ${blocker}: cannot create the output folder: a file of that name is in the way`);
+  });
+
   it('exit 2 with a located message and nothing written when a required column is missing', () => {
     const out = tempDir();
     const bad = join(out, 'no-volume.csv');
-    require('node:fs').writeFileSync(bad, 'sample_id,analyte,extract_conc,solvent_volume\na,x,1,10\n');
+    writeFileSync(bad, 'sample_id,analyte,extract_conc,solvent_volume\na,x,1,10\n');
     const before = createHash('sha256').update(readFileSync(bad)).digest('hex');
     const r = runCli(['recalc', bad, '--method', GENERIC, '--out', join(out, 'o')]);
     expect(r.code).toBe(2);

@@ -52,7 +52,7 @@ describe('method files', () => {
   });
 
   it('a missing method file stops with its name', () => {
-    expect(() => loadMethod('templates/nope.yaml')).toThrow(/cannot read the method file: ENOENT/);
+    expect(() => loadMethod('templates/nope.yaml')).toThrow('cannot read the method file: no such file');
   });
 
   it('per-analyte limits merge over the defaults type by type', () => {
