@@ -1,3 +1,4 @@
+import { CANONICAL_FIELDS } from '../../src/columns/fields.js';
 import type { RawCell, RawTable } from '../../src/read/types.js';
 
 /** A RawTable from a header and row arrays, as the CSV reader would give it. */
@@ -13,21 +14,5 @@ export function rawTable(headers: string[], rows: RawCell[][], options: { decima
   };
 }
 
-export const CANONICAL_HEADERS = [
-  'sample_id',
-  'sample_type',
-  'parent_id',
-  'batch_id',
-  'analyte',
-  'extract_conc',
-  'sample_volume',
-  'solvent_volume',
-  'extractions',
-  'final_volume',
-  'dilution',
-  'partition_coeff',
-  'ph',
-  'pka',
-  'acid_base',
-  'spike_conc',
-];
+/** The canonical fields a typical canonical worklist carries (all but log_k, qc_level and reporting_limit). */
+export const CANONICAL_HEADERS: string[] = CANONICAL_FIELDS.filter((f) => f !== 'log_k' && f !== 'qc_level' && f !== 'reporting_limit');
