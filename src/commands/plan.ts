@@ -226,14 +226,14 @@ export function registerPlanCommand(program: Command, io: PlanCommandIo): Comman
   return program
     .command('plan')
     .description('plan an extraction: efficiency of n portions, the solvent or portions needed for a target, and the pH that keeps an ionisable analyte neutral (volumes in mL)')
-    .addOption(new Option('--k <K>', 'partition coefficient K = C_org/C_aq of the neutral form').argParser(number('a partition coefficient')).conflicts('logK'))
+    .addOption(new Option('--k <K>', 'partition coefficient K = C_org/C_aq of the neutral form').argParser(number('a partition coefficient above 0', (x) => x > 0)).conflicts('logK'))
     .addOption(new Option('--log-k <logK>', 'log10 of the partition coefficient').argParser(number('a log K')))
     .addOption(new Option('--pka <pKa>', 'pKa of the acid, or of the conjugate acid of a base').argParser(number('a pKa')))
     .addOption(new Option('--acid', 'the analyte is an acid (HA extracts)').conflicts('base'))
     .addOption(new Option('--base', 'the analyte is a base (B extracts)'))
-    .addOption(new Option('--ph <pH>', 'pH of the sample during extraction').argParser(number('a pH')))
-    .addOption(new Option('--sample-volume <mL>', 'aqueous sample volume, in mL').argParser(number('a volume in mL')).makeOptionMandatory())
-    .addOption(new Option('--solvent-volume <mL>', 'total solvent volume to share between portions, in mL').argParser(number('a volume in mL')))
+    .addOption(new Option('--ph <pH>', 'pH of the sample during extraction').argParser(number('a pH from 0 to 14', (x) => x >= 0 && x <= 14)))
+    .addOption(new Option('--sample-volume <mL>', 'aqueous sample volume, in mL').argParser(number('a volume in mL above 0', (x) => x > 0)).makeOptionMandatory())
+    .addOption(new Option('--solvent-volume <mL>', 'total solvent volume to share between portions, in mL').argParser(number('a volume in mL above 0', (x) => x > 0)))
     .addOption(new Option('--target <fraction>', 'fraction to extract, e.g. 0.99 or 99%').argParser(parseTarget).default(0.99, '0.99'))
     .addOption(new Option('--max-portions <n>', 'most portions to tabulate').argParser(number('a whole number')).default(6))
     .option('--json', 'print the plan as JSON')
@@ -260,11 +260,12 @@ export function registerPlanCommand(program: Command, io: PlanCommandIo): Comman
     });
 }
 
-function number(what: string): (text: string) => number {
+/** A number option; `accept` narrows it, so commander's message names the option and the value. */
+function number(what: string, accept: (x: number) => boolean = () => true): (text: string) => number {
   return (text) => {
     const t = text.trim();
     const x = t === '' ? NaN : Number(t);
-    if (!Number.isFinite(x)) throw new InvalidArgumentError(`expected ${what}, got "${text}"`);
+    if (!Number.isFinite(x) || !accept(x)) throw new InvalidArgumentError(`expected ${what}, got "${text}"`);
     return x;
   };
 }

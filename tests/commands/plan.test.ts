@@ -143,10 +143,6 @@ describe('plan refuses bad input', () => {
     { args: ['--sample-volume', '10'], message: 'phasebook: expected one of --k or --log-k, the partition coefficient of the neutral form' },
     { args: ['--k', '3', '--pka', '4', '--sample-volume', '10'], message: 'phasebook: expected --acid or --base with --pka' },
     { args: ['--k', '3', '--acid', '--sample-volume', '10'], message: 'phasebook: expected --pka with --acid or --base' },
-    { args: ['--k', '3', '--pka', '4', '--acid', '--ph', '15', '--sample-volume', '10'], message: 'phasebook: expected a pH from 0 to 14, got "15"' },
-    { args: ['--k', '3', '--sample-volume', '0'], message: 'phasebook: expected a sample volume above 0, got "0"' },
-    { args: ['--k', '0', '--sample-volume', '10'], message: 'phasebook: expected a partition coefficient above 0, got "0"' },
-    { args: ['--k', '3', '--sample-volume', '10', '--solvent-volume', '-1'], message: 'phasebook: expected a total solvent volume above 0, got "-1"' },
     { args: ['--k', '3', '--sample-volume', '10', '--max-portions', '0'], message: 'phasebook: expected --max-portions as a whole number from 1 to 100, got "0"' },
   ])('$args → exit 2: $message', async ({ args, message }) => {
     const r = await plan(args);
@@ -158,7 +154,12 @@ describe('plan refuses bad input', () => {
   it.each([
     { args: ['--k', '3', '--log-k', '1', '--sample-volume', '10'], message: "option '--k <K>' cannot be used with option '--log-k <logK>'" },
     { args: ['--k', '3', '--sample-volume', '10', '--target', '1.5'], message: 'expected a fraction above 0 and below 1 such as 0.99, or a percentage such as 99.9%, got "1.5"' },
-    { args: ['--k', 'three', '--sample-volume', '10'], message: 'expected a partition coefficient, got "three"' },
+    // Range checks happen where the option is read, so the message names the option.
+    { args: ['--k', 'three', '--sample-volume', '10'], message: `option '--k <K>' argument 'three' is invalid. expected a partition coefficient above 0, got "three"` },
+    { args: ['--k', '0', '--sample-volume', '10'], message: `option '--k <K>' argument '0' is invalid. expected a partition coefficient above 0, got "0"` },
+    { args: ['--k', '3', '--sample-volume', '0'], message: `option '--sample-volume <mL>' argument '0' is invalid. expected a volume in mL above 0, got "0"` },
+    { args: ['--k', '3', '--sample-volume', '10', '--solvent-volume', '-1'], message: `option '--solvent-volume <mL>' argument '-1' is invalid. expected a volume in mL above 0, got "-1"` },
+    { args: ['--k', '3', '--pka', '4', '--acid', '--ph', '15', '--sample-volume', '10'], message: `option '--ph <pH>' argument '15' is invalid. expected a pH from 0 to 14, got "15"` },
     { args: ['--k', '3'], message: "required option '--sample-volume <mL>' not specified" },
     { args: ['--k', '3', '--acid', '--base', '--pka', '5', '--sample-volume', '1'], message: "option '--acid' cannot be used with option '--base'" },
   ])('$args → usage error: $message', async ({ args, message }) => {
