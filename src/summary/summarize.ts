@@ -187,7 +187,7 @@ export function summarize(input: SummaryInput): { groups: GroupSummary[]; overal
       counts,
       recoveries,
       precision,
-      maxRpd: rpds.length ? Math.max(...rpds) : NaN,
+      maxRpd: minMax(rpds).max, // not Math.max(...rpds): one batch of a large worklist can hold more values than a call takes
       outsideLimits: rows.filter((r) => has(r, 'REC_LOW') || has(r, 'REC_HIGH') || has(r, 'RPD_HIGH')).length,
       blankStatus: blanks.length === 0 ? 'none' : blanks.some((r) => has(r, 'BLANK_HIT')) ? 'hit' : 'clean',
       meanEfficiencyPct: mean(effs),
