@@ -9,6 +9,7 @@
  *   rule of thumb of 2 pH units past the pKa.
  * The arithmetic is chemistry/plan.ts; this module reads options and chooses words.
  */
+import { significant } from '../format.js';
 import { InvalidArgumentError, Option, type Command } from 'commander';
 import { distributionRatio, neutralFraction } from '../chemistry/partition.js';
 import { efficiencyTable, neutralPh, portionsFor, solventVolumeFor } from '../chemistry/plan.js';
@@ -287,9 +288,7 @@ function pct(x: number): string {
 
 /** Up to 4 significant figures, no exponent for ordinary sizes. */
 function fmt(x: number): string {
-  const a = Math.abs(x);
-  if (a !== 0 && (a < 1e-4 || a >= 1e9)) return x.toExponential(3);
-  return String(Number(x.toPrecision(4)));
+  return significant(x, 4);
 }
 
 function sig3(x: number): string {

@@ -7,6 +7,7 @@
  *
  * It reads a loaded, compiled method and returns text; it prints nothing.
  */
+import { significant } from '../format.js';
 import type { MathNode } from 'mathjs';
 import { parse } from 'yaml';
 import { neutralFraction } from '../chemistry/partition.js';
@@ -263,8 +264,7 @@ function fraction(f: number): string {
 
 /** Numbers for reading: up to 4 significant figures, no trailing zeros. */
 function num(x: number): string {
-  if (!Number.isFinite(x)) return String(x);
-  return String(Number(x.toPrecision(4)));
+  return significant(x, 4);
 }
 
 /** Left-aligned columns, two spaces apart. */

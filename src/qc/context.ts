@@ -1,4 +1,5 @@
 import type { SampleType } from '../columns/fields.js';
+import { significant } from '../format.js';
 import { conversionFactor } from '../columns/units.js';
 import type { Links } from '../engine/links.js';
 import { rowMessage, type Flag, type FlagCode } from '../issues.js';
@@ -109,10 +110,7 @@ export function toFlag(ctx: QcContext, row: number, code: FlagCode, f: Finding):
 
 /** Numbers in messages: up to 6 significant figures (enough to see why 130.04 broke 130), no exponent for ordinary sizes. */
 export function fmt(x: number): string {
-  if (!Number.isFinite(x)) return String(x);
-  const a = Math.abs(x);
-  if (a !== 0 && (a < 1e-4 || a >= 1e9)) return x.toExponential(3);
-  return String(Number(x.toPrecision(6)));
+  return significant(x, 6);
 }
 
 /** Key of a (batch, analyte) group. */

@@ -9,6 +9,7 @@
  * Content-Security-Policy forbids loading anything. Every piece of worklist and
  * method text is escaped (markup.ts).
  */
+import { significant } from '../format.js';
 import { writeFile } from 'node:fs/promises';
 import { basename, extname, join } from 'node:path';
 import { MIN_POINTS, type TrendSeries } from '../history/trends.js';
@@ -277,6 +278,6 @@ function num(x: number, digits: number): string {
 
 function value(v: number | string | undefined): string {
   if (v === undefined) return '';
-  if (typeof v === 'number') return Number.isFinite(v) ? String(Number(v.toPrecision(4))) : '–';
+  if (typeof v === 'number') return Number.isFinite(v) ? significant(v, 4) : '–';
   return v;
 }

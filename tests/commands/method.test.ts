@@ -82,7 +82,7 @@ describe('method check', () => {
     const file = join(tmpdir(), 'phasebook-no-such-method.yaml');
     const r = await method(['check', file]);
     expect(r.code).toBe(2);
-    expect(r.stderr).toBe(`phasebook: ${file}: cannot read the method file: ENOENT\nThe method is not valid.\n`);
+    expect(r.stderr).toBe(`phasebook: ${file}: cannot read the method file: no such file\nThe method is not valid.\n`);
   });
 });
 
