@@ -3,8 +3,10 @@
  * flag, a note for the reviewer. All of them travel to every output.
  */
 
-/** Flag codes of DESIGN.md §5; they appear `;`-separated in the flags column. */
+/** Flag codes of DESIGN.md §5; they appear `;`-separated in the flags column, in this order. */
 export const FLAG_CODES = [
+  'INPUT_ERROR',
+  'NO_PARENT',
   'REC_LOW',
   'REC_HIGH',
   'RPD_HIGH',
@@ -12,8 +14,6 @@ export const FLAG_CODES = [
   'BELOW_RL',
   'OVER_RANGE',
   'OUTLIER',
-  'NO_PARENT',
-  'INPUT_ERROR',
   'LCS_ASSOC',
   'MATRIX_ASSOC',
   'BLANK_ASSOC',

@@ -11,7 +11,7 @@ import { mapColumns, type ColumnMap } from './columns/map.js';
 import { buildTable, type WorkTable } from './columns/table.js';
 import { findLinks, type Links } from './engine/links.js';
 import { compileMethod, evaluateFormulas } from './engine/evaluate.js';
-import type { Flag, Note } from './issues.js';
+import { FLAG_CODES, type Flag, type Note } from './issues.js';
 import { loadMethod } from './method/load.js';
 import type { OnProgress } from './progress.js';
 import type { Method } from './method/types.js';
@@ -162,20 +162,6 @@ export function recalculateTable(
   };
 }
 
-const CODE_ORDER = [
-  'INPUT_ERROR',
-  'NO_PARENT',
-  'REC_LOW',
-  'REC_HIGH',
-  'RPD_HIGH',
-  'BLANK_HIT',
-  'BELOW_RL',
-  'OVER_RANGE',
-  'OUTLIER',
-  'LCS_ASSOC',
-  'MATRIX_ASSOC',
-  'BLANK_ASSOC',
-];
 
 function joinRowFlags(n: number, flags: readonly Flag[]): string[] {
   // Sets only for rows that have a flag: most rows have none.
@@ -187,7 +173,7 @@ function joinRowFlags(n: number, flags: readonly Flag[]): string[] {
     codes.add(f.code);
   }
   const out = new Array<string>(n).fill('');
-  for (const [row, codes] of perRow) out[row] = CODE_ORDER.filter((c) => codes.has(c)).join(';');
+  for (const [row, codes] of perRow) out[row] = FLAG_CODES.filter((c) => codes.has(c)).join(';');
   return out;
 }
 
