@@ -4,6 +4,7 @@
  */
 export { recalculate, recalculateTable } from './pipeline.js';
 export type { RecalcOptions, RecalcResult, WorklistInfo } from './pipeline.js';
+export type { OnProgress, ProgressEvent } from './progress.js';
 export { loadMethod, parseMethod } from './method/load.js';
 export type { Method, FormulaDef, AnalyteInfo, LimitSet, LimitTable } from './method/types.js';
 export { writeOutputs, outputPaths } from './write/outputs.js';
