@@ -11,7 +11,7 @@
  */
 import { significant } from '../format.js';
 import { writeFile } from 'node:fs/promises';
-import { basename, extname, join } from 'node:path';
+import { join } from 'node:path';
 import { MIN_POINTS, type TrendSeries } from '../history/trends.js';
 import type { Flag } from '../issues.js';
 import type { RecalcResult } from '../pipeline.js';
@@ -74,11 +74,6 @@ export function htmlReportJobs(result: RecalcResult, options: ReportJobOptions):
       await writeFile(tmp, await renderReport(result, { batch, history: options.history, run: options.run }), 'utf8');
     },
   }));
-}
-
-/** The stem the other outputs use: the worklist's file name without its extension. */
-export function reportStem(result: RecalcResult): string {
-  return basename(result.worklist.path, extname(result.worklist.path));
 }
 
 /** The whole report of one batch as an HTML document. */

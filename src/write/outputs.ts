@@ -47,8 +47,13 @@ export function workbookDeclined(rowsOut: number): string | undefined {
 
 /** Paths of the single-file outputs of a worklist: `<stem>.results.csv`, `<stem>.xlsx` (reports: one per batch). */
 export function outputPaths(worklistPath: string, outDir: string): Record<'csv' | 'xlsx', string> {
-  const stem = basename(worklistPath, extname(worklistPath));
+  const stem = outputStem(worklistPath);
   return { csv: join(outDir, `${stem}.results.csv`), xlsx: join(outDir, `${stem}.xlsx`) };
+}
+
+/** Every output is named after the worklist's file name without its extension. */
+function outputStem(worklistPath: string): string {
+  return basename(worklistPath, extname(worklistPath));
 }
 
 /** Write the chosen outputs atomically: all of them, or none (DESIGN.md §7). */
@@ -92,8 +97,7 @@ export async function writeOutputs(result: RecalcResult, options: WriteOptions):
   if (kinds.includes('csv')) written.csv = [paths.csv];
   if (workbook) written.xlsx = [paths.xlsx];
   if (kinds.includes('html')) {
-    const stem = basename(result.worklist.path, extname(result.worklist.path));
-    const html = htmlReportJobs(result, { outDir: options.outDir, stem, history: options.history, run: options.run });
+    const html = htmlReportJobs(result, { outDir: options.outDir, stem: outputStem(result.worklist.path), history: options.history, run: options.run });
     jobs.push(...html);
     written.html = html.map((j) => j.target);
   }
