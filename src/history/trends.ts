@@ -63,8 +63,17 @@ export interface TrendJson {
   rules: Array<{ rule: WestgardRule; batch_id: string; value: number }>;
 }
 
-/** Series per analyte and sample type from history rows (already in run order). */
-export function buildTrends(rows: readonly HistoryRow[], options: TrendOptions = {}): TrendSeries[] {
+/** What a series needs of a history row. */
+export type TrendRow = Pick<
+  HistoryRow,
+  'runId' | 'runTime' | 'worklistName' | 'worklistSha256' | 'batchId' | 'sampleId' | 'rowNumber' | 'analyte' | 'sampleType' | 'recoveryPct'
+>;
+
+/**
+ * Series per analyte and sample type from history rows (already in run order).
+ * Also rebuilds the series from the points a workbook's Trends sheet lists (verify).
+ */
+export function buildTrends(rows: readonly TrendRow[], options: TrendOptions = {}): TrendSeries[] {
   const minPoints = options.minPoints ?? MIN_POINTS;
   const byKey = new Map<string, { analyte: string; sampleType: string; points: TrendPoint[] }>();
   for (const row of rows) {

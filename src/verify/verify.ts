@@ -7,7 +7,8 @@
  *    the Results sheet's input columns (worklist row numbers and reading problems
  *    from the Provenance sheet).
  * 3. Recalculate (recalculateTable) and plan the workbook again with the facts of
- *    the original run (time, command, versions) as stored.
+ *    the original run (time, command, versions) as stored, and the Trends sheet's
+ *    series rebuilt from the points it lists (the history itself is not needed).
  * 4. Compare every cell of every sheet, formulas included, with the plan; recompute
  *    the integrity digest from the stored cells and compare it with the recorded one;
  *    report worklist rows that are missing or new.
@@ -36,7 +37,10 @@ import {
 import { QC_SHEET } from '../write/workbook/qc-sheet.js';
 import { RESULTS_SHEET, WORKLIST_ROW_HEADER } from '../write/workbook/results-sheet.js';
 import { SUMMARY_SHEET } from '../write/workbook/summary-sheet.js';
+import { MIN_POINTS } from '../history/trends.js';
+import { TRENDS_SHEET } from '../write/workbook/trends-sheet.js';
 import { compareSheet } from './compare.js';
+import { storedTrends } from './trends.js';
 import { showValue, type Difference } from './difference.js';
 import { readStoredWorkbook, type StoredCell, type StoredSheet, type StoredWorkbook } from './read.js';
 
@@ -136,7 +140,12 @@ export async function verifyWorkbook(path: string, options: VerifyOptions = {}):
     return finish(path, differences, results, { digestMatches: undefined });
   }
 
+  // The Trends sheet's series, rebuilt from the points it lists.
+  const trendsSheet = stored.sheet(TRENDS_SHEET);
+  const trends = trendsSheet ? storedTrends(trendsSheet, { defaultMinPoints: MIN_POINTS }) : undefined;
   const plan = planWorkbook(result, {
+    history: trends?.history,
+    minPoints: trends?.minPoints,
     run: {
       timestamp: needText(KEYS.time),
       command: needText(KEYS.command),
@@ -170,10 +179,13 @@ export async function verifyWorkbook(path: string, options: VerifyOptions = {}):
   if (qc) differences.push(...compareSheet(plan.qc, qc));
   const flags = sheetOrMissing(FLAGS_SHEET);
   if (flags) differences.push(...compareSheet(plan.flags, flags));
+  if (trendsSheet) differences.push(...compareSheet(plan.trends.plan, trendsSheet));
+  else differences.push({ sheet: TRENDS_SHEET, message: 'the sheet is missing' });
   const summary = sheetOrMissing(SUMMARY_SHEET);
   if (summary) differences.push(...compareSheet(plan.summary, summary));
 
   digest.addMethod(sha256Text(text.text), storedLimits(methodSheet));
+  digest.addTrends(trends?.digestRows ?? []);
   const recomputed = digest.hex();
   const recorded = facts.get(KEYS.digest)?.value;
   differences.push(...compareSheet(plan.provenance(recomputed), provenance));

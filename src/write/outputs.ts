@@ -24,6 +24,8 @@ export interface WriteOptions {
   run: RunInfo;
   /** QC history series (history/trends.ts) for the report's control charts and the workbook's Trends sheet. */
   history?: readonly TrendSeries[];
+  /** The history file the series came from, as given (the Trends sheet names it). */
+  historyFile?: string;
   /** Told how many rows have been written (progress.ts draws it on a terminal). */
   onProgress?: OnProgress;
 }
@@ -91,7 +93,8 @@ export async function writeOutputs(result: RecalcResult, options: WriteOptions):
   const workbook = kinds.includes('xlsx') && workbookDeclined(result.rowsOut) === undefined;
   if (workbook) {
     // Loaded only when a workbook is written: exceljs takes a noticeable part of start-up.
-    jobs.push({ target: paths.xlsx, write: async (tmp) => (await import('./workbook.js')).writeWorkbook(tmp, result, { run: options.run }) });
+    const history = options.history && { file: options.historyFile ?? 'QC history', series: options.history };
+    jobs.push({ target: paths.xlsx, write: async (tmp) => (await import('./workbook.js')).writeWorkbook(tmp, result, { run: options.run, history }) });
   }
   const written: Record<string, string[]> = {};
   if (kinds.includes('csv')) written.csv = [paths.csv];

@@ -1,6 +1,6 @@
 /**
- * The reviewer's workbook (DESIGN.md §6): Summary, Results, QC, Flags, Method and
- * Provenance, in that order. The Results sheet carries the worklist verbatim, the
+ * The reviewer's workbook (DESIGN.md §6): Summary, Results, QC, Flags, Trends,
+ * Method and Provenance, in that order. The Results sheet carries the worklist verbatim, the
  * values each formula reads "as used", and the computed columns as live formulas
  * with the engine's values cached; flagged cells are filled and carry a note.
  *
@@ -19,6 +19,6 @@ export { DEFAULT_FORMULA_ROW_LIMIT, DEFAULT_MAX_NOTES } from './workbook/options
 /** Write the workbook to `path` (a new file; write/outputs.ts renames it into place). */
 export async function writeWorkbook(path: string, result: RecalcResult, options: WorkbookOptions): Promise<void> {
   const run: RunInfo = { ...options.run, node: options.run.node ?? process.version };
-  const plan = planWorkbook(result, { run, formulaRowLimit: options.formulaRowLimit, maxNotes: options.maxNotes });
+  const plan = planWorkbook(result, { run, formulaRowLimit: options.formulaRowLimit, maxNotes: options.maxNotes, history: options.history });
   await writePlannedWorkbook(path, plan, { run });
 }

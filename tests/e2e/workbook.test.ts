@@ -7,7 +7,7 @@ import { readFileSync, readdirSync } from 'node:fs';
 import { join } from 'node:path';
 import { describe, expect, it } from 'vitest';
 import { ROOT, runCli, tempDir } from '../helpers/cli.js';
-import { readBook, unzipParts, valueByKey } from '../verify/workbook-fixtures.js';
+import { plain, readBook, rowWith, unzipParts, valueByKey } from '../verify/workbook-fixtures.js';
 
 const WORKLIST = join(ROOT, 'samples/tarnmoor-tmr204-run07.csv');
 const METHOD = join(ROOT, 'templates/plasma-amitriptyline.yaml');
@@ -16,13 +16,13 @@ const recalc = (out: string, ...more: string[]) =>
   runCli(['recalc', WORKLIST, '--method', METHOD, '--out', out, '--outputs', 'xlsx', '--timestamp', '2026-11-20T16:00:00Z', '--quiet', ...more]);
 
 describe('recalc writes the workbook', () => {
-  it('with the six sheets, the time given by --timestamp and the command line', async () => {
+  it('with the seven sheets, the time given by --timestamp and the command line', async () => {
     const out = tempDir('phasebook-e2e-wb-');
     const r = recalc(out);
     expect(r.code, r.stderr).toBe(0);
     const path = join(out, 'tarnmoor-tmr204-run07.xlsx');
     const wb = await readBook(path);
-    expect(wb.worksheets.map((w) => w.name)).toEqual(['Summary', 'Results', 'QC', 'Flags', 'Method', 'Provenance']);
+    expect(wb.worksheets.map((w) => w.name)).toEqual(['Summary', 'Results', 'QC', 'Flags', 'Trends', 'Method', 'Provenance']);
     const prov = wb.getWorksheet('Provenance')!;
     expect(valueByKey(prov, 'time (ISO 8601, UTC)')).toBe('2026-11-20T16:00:00.000Z');
     expect(valueByKey(prov, 'command line')).toBe(`phasebook recalc ${WORKLIST} --method ${METHOD} --out ${out} --outputs xlsx --timestamp 2026-11-20T16:00:00Z --quiet`);
@@ -52,6 +52,23 @@ describe('recalc writes the workbook', () => {
     // --force is on the command line now: only the Provenance sheet may differ.
     const second = await unzipParts(path);
     const changed = [...first.keys()].filter((k) => !first.get(k)!.equals(second.get(k)!));
-    expect(changed).toEqual(['xl/worksheets/sheet6.xml']);
+    expect(changed).toEqual(['xl/worksheets/sheet7.xml']);
+  });
+
+  it('with --history, a Trends sheet naming the history and this run\'s series, which verify accepts', async () => {
+    const out = tempDir('phasebook-e2e-wb-');
+    const history = join(out, 'qc-history.db');
+    const r = recalc(out, '--history', history);
+    expect(r.code, r.stderr).toBe(0);
+    const path = join(out, 'tarnmoor-tmr204-run07.xlsx');
+    const trends = (await readBook(path)).getWorksheet('Trends')!;
+    expect(valueByKey(trends, 'QC history')).toBe('qc-history.db');
+    // The plasma demo's qc rows (all levels) form one series.
+    const header = rowWith(trends, 'Series: one per analyte and control type') + 1;
+    expect(plain(trends.getCell(`A${header + 1}`))).toBe('Amitriptyline');
+    expect(plain(trends.getCell(`B${header + 1}`))).toBe('qc');
+    expect(plain(trends.getCell(`C${header + 1}`))).toBeGreaterThan(0);
+    const v = runCli(['verify', path]);
+    expect(v.code, v.stdout + v.stderr).toBe(0);
   });
 });

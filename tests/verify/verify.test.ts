@@ -196,7 +196,7 @@ describe('not a phasebook workbook', () => {
     const path = await edited((wb) => {
       wb.getWorksheet('Provenance')!.getCell('B1').value = 'phasebook-workbook 0';
     });
-    await expect(verifyWorkbook(path)).rejects.toThrow('is not a phasebook workbook: it was written in the format "phasebook-workbook 0"; this phasebook reads "phasebook-workbook 1"');
+    await expect(verifyWorkbook(path)).rejects.toThrow('is not a phasebook workbook: it was written in the format "phasebook-workbook 0"; this phasebook reads "phasebook-workbook 2"');
   });
 });
 

@@ -72,8 +72,8 @@ afterAll(() => {
 });
 
 describe('sheets', () => {
-  it('are Summary, Results, QC, Flags, Method, Provenance, in that order', () => {
-    expect(kestrel.wb.worksheets.map((w) => w.name)).toEqual(['Summary', 'Results', 'QC', 'Flags', 'Method', 'Provenance']);
+  it('are Summary, Results, QC, Flags, Trends, Method, Provenance, in that order', () => {
+    expect(kestrel.wb.worksheets.map((w) => w.name)).toEqual(['Summary', 'Results', 'QC', 'Flags', 'Trends', 'Method', 'Provenance']);
   });
 
   it('Results has its header frozen and filter buttons over every column', () => {
@@ -336,7 +336,7 @@ describe('reproducible', () => {
     const pb = await unzipParts(path);
     const changed = [...pa.keys()].filter((k) => !pa.get(k)!.equals(pb.get(k)!)).sort();
     // core.xml (created/modified), the Summary (run time) and Provenance sheets.
-    expect(changed).toEqual(['docProps/core.xml', 'xl/worksheets/sheet1.xml', 'xl/worksheets/sheet6.xml']);
+    expect(changed).toEqual(['docProps/core.xml', 'xl/worksheets/sheet1.xml', 'xl/worksheets/sheet7.xml']);
   });
 });
 

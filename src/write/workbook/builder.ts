@@ -6,7 +6,7 @@ const asCell = (x: Input): PlannedCell | undefined =>
   x === undefined ? undefined : x !== null && typeof x === 'object' ? x : cell(x);
 
 /**
- * Builds a small sheet row by row in memory (Summary, QC, Flags, Method,
+ * Builds a small sheet row by row in memory (Summary, QC, Flags, Trends, Method,
  * Provenance): titles, key–value lines and tables with one header row.
  */
 export class SheetBuilder {

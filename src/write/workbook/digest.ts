@@ -4,7 +4,7 @@
  * from the stored cells.
  *
  * Serialisation (UTF-8, one line each, "\n" after every line):
- *   `phasebook integrity digest 1`
+ *   `phasebook integrity digest 2`
  *   every row of the Results sheet, header included: a JSON array with one entry per
  *     column: a number, a text, or null for an empty cell; numbers of the as-used and
  *     computed columns are taken to 12 significant digits (so a spreadsheet that
@@ -12,18 +12,21 @@
  *     digest), every other cell exactly;
  *   `method <SHA-256 of the method text on the Method sheet>`;
  *   every row of the acceptance limits table on the Method sheet, then of the in-house
- *     limits table where the method uses one, as a JSON array.
+ *     limits table where the method uses one, as a JSON array;
+ *   `trends`, then the Trends sheet's history line, points-needed line and every row
+ *     of its points table (each point's values up to its recovery), as a JSON array.
  */
 import { createHash, type Hash } from 'node:crypto';
 import type { CellValue } from './cells.js';
 
-export const DIGEST_HEADER = 'phasebook integrity digest 1';
+export const DIGEST_HEADER = 'phasebook integrity digest 2';
 
 export const DIGEST_DESCRIPTION =
-  'SHA-256 over, one line each: "phasebook integrity digest 1"; every row of the Results sheet, header included, as a JSON array ' +
+  'SHA-256 over, one line each: "phasebook integrity digest 2"; every row of the Results sheet, header included, as a JSON array ' +
   '(empty cells null; as-used and computed numbers to 12 significant digits, all other cells exact); "method " and the SHA-256 of ' +
   'the method text on the Method sheet; every row of the acceptance limits table on the Method sheet (and of the in-house limits ' +
-  'table, when the method uses in-house limits) as a JSON array. ' +
+  'table, when the method uses in-house limits) as a JSON array; "trends", then the Trends sheet\'s QC history and points-needed ' +
+  'lines and every row of its points table (values up to the recovery) as a JSON array. ' +
   'phasebook verify recomputes it from the stored cells.';
 
 function canonical(v: CellValue | undefined, approximate: boolean): CellValue {
@@ -55,6 +58,11 @@ export class IntegrityDigest {
   addMethod(textSha256: string, limits: readonly (readonly (CellValue | undefined)[])[]): void {
     this.hash.update(`method ${textSha256}\n`, 'utf8');
     for (const row of limits) this.hash.update(`${JSON.stringify(row.map((v) => canonical(v, false)))}\n`, 'utf8');
+  }
+
+  addTrends(rows: readonly (readonly (CellValue | undefined)[])[]): void {
+    this.hash.update('trends\n', 'utf8');
+    for (const row of rows) this.hash.update(`${JSON.stringify(row.map((v) => canonical(v, false)))}\n`, 'utf8');
   }
 
   hex(): string {

@@ -1,3 +1,5 @@
+import type { TrendsSheetInput } from './trends-sheet.js';
+
 /** Facts about the run that only the caller knows. */
 export interface RunInfo {
   /** ISO 8601 UTC time of the run (fixed with --timestamp for reproducible files). */
@@ -21,10 +23,12 @@ export interface WorkbookOptions {
   formulaRowLimit?: number;
   /** Most cell notes written in the workbook; marked cells beyond it keep their fill. Default DEFAULT_MAX_NOTES. */
   maxNotes?: number;
+  /** The QC history's series for the Trends sheet (without it the sheet says no history was given). */
+  history?: TrendsSheetInput;
 }
 
 export const DEFAULT_FORMULA_ROW_LIMIT = 100_000;
 export const DEFAULT_MAX_NOTES = 10_000;
 
 /** Identifies a phasebook workbook and the layout `verify` expects. */
-export const WORKBOOK_FORMAT = 'phasebook-workbook 1';
+export const WORKBOOK_FORMAT = 'phasebook-workbook 2';

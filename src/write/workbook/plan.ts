@@ -1,6 +1,6 @@
 /**
- * The whole workbook as a plan: the six sheets in order (Summary, Results, QC,
- * Flags, Method, Provenance). The Provenance sheet needs the integrity digest,
+ * The whole workbook as a plan: the seven sheets in order (Summary, Results, QC,
+ * Flags, Trends, Method, Provenance). The Provenance sheet needs the integrity digest,
  * which is taken over the Results rows as they are written (or, in verify, as
  * they are stored), so it is planned last from that digest.
  */
@@ -15,8 +15,10 @@ import { planQcSheet } from './qc-sheet.js';
 import { planResultsSheet, type ResultsSheet } from './results-sheet.js';
 import { sheetText } from './cells.js';
 import { planSummarySheet } from './summary-sheet.js';
+import { planTrendsSheet, type TrendsSheet, type TrendsSheetInput } from './trends-sheet.js';
+import { MIN_POINTS } from '../../history/trends.js';
 
-export const SHEET_ORDER = ['Summary', 'Results', 'QC', 'Flags', 'Method', 'Provenance'] as const;
+export const SHEET_ORDER = ['Summary', 'Results', 'QC', 'Flags', 'Trends', 'Method', 'Provenance'] as const;
 
 export interface PlanOptions {
   run: RunInfo;
@@ -27,6 +29,10 @@ export interface PlanOptions {
   /** How the worklist was read, in words (default from result.raw.format). */
   readAs?: string;
   decimalComma?: boolean;
+  /** The QC history's series, this run included (history/trends.ts trendsIncludingRun), for the Trends sheet. */
+  history?: TrendsSheetInput;
+  /** Points a series needs before it has limits (default MIN_POINTS). */
+  minPoints?: number;
 }
 
 export interface WorkbookPlan {
@@ -37,6 +43,7 @@ export interface WorkbookPlan {
   results: ResultsSheet;
   qc: SheetPlan;
   flags: SheetPlan;
+  trends: TrendsSheet;
   method: SheetPlan;
   /** Which Results columns the digest takes to 12 significant digits (as-used and computed). */
   approximate: boolean[];
@@ -63,6 +70,7 @@ export function planWorkbook(result: RecalcResult, options: PlanOptions): Workbo
     results,
     qc: planQcSheet(result, { layout, live: true }),
     flags: planFlagsSheet(result, { layout }),
+    trends: planTrendsSheet(result, { history: options.history, minPoints: options.minPoints ?? MIN_POINTS }),
     method,
     approximate: layout.columns.map((c) => c.kind === 'as-used' || c.kind === 'computed'),
     methodTextSha: sha256Text(sheetTextOfMethod),

@@ -27,8 +27,8 @@ export const COLOURS = {
 
 /** What each mark means, for the legend on the Summary sheet. */
 export const MARK_MEANINGS: Record<Mark, string> = {
-  fail: 'fails: a failing QC flag (REC_LOW, REC_HIGH, RPD_HIGH, BLANK_HIT, NO_PARENT), an input error, or qc_status fail',
-  inform: 'informs: a flag that does not fail the row (BELOW_RL, OVER_RANGE, OUTLIER, LCS_ASSOC, MATRIX_ASSOC, BLANK_ASSOC)',
+  fail: 'fails: a failing QC flag (REC_LOW, REC_HIGH, RPD_HIGH, BLANK_HIT, NO_PARENT), an input error, qc_status fail, or on the Trends sheet a Westgard rejection rule broken',
+  inform: 'informs: a flag that does not fail the row (BELOW_RL, OVER_RANGE, OUTLIER, LCS_ASSOC, MATRIX_ASSOC, BLANK_ASSOC), or on the Trends sheet the 1-2s warning rule',
   note: 'a note: something the engine noted (no partition coefficient, a division by zero) or a value written without a spreadsheet formula',
 };
 

@@ -266,8 +266,10 @@ export async function writePlannedWorkbook(
   });
   await writeSheet(wb, plan.qc, { budget, rowWriter });
   await writeSheet(wb, plan.flags, { budget, rowWriter });
+  await writeSheet(wb, plan.trends.plan, { budget, rowWriter });
   await writeSheet(wb, plan.method, { budget, rowWriter });
   digest.addMethod(plan.methodTextSha, plan.limits);
+  digest.addTrends(plan.trends.digestRows);
   await writeSheet(wb, plan.provenance(digest.hex()), { budget, rowWriter });
   await wb.commit();
 }

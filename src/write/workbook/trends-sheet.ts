@@ -1,0 +1,227 @@
+/**
+ * The Trends sheet: the QC history's series as `phasebook trends` prints them,
+ * traceable cell by cell.
+ *
+ * - A series table, one row per analyte and control type: n, mean and SD as live
+ *   formulas (COUNT, AVERAGE, STDEV) over that series' recoveries in the points
+ *   table below, the warning (mean ± 2s) and control (mean ± 3s) limits as
+ *   formulas over those, empty below the points needed for limits (a cell of this
+ *   sheet); the engine's values cached. Then the Westgard rule violations.
+ * - A points table: every recovery of every series, in run order, with its run,
+ *   worklist (name and SHA-256), batch, sample and the rules it broke; a point
+ *   that broke a rejection rule is marked as failing, one that broke only 1-2s as
+ *   informing, each with a note naming the rules.
+ *
+ * Without a history the sheet says so and lists nothing. `verify` rebuilds the
+ * series from the stored points, plans this sheet again and compares; the
+ * integrity digest covers the points (digest.ts).
+ */
+import type { RecalcResult } from '../../pipeline.js';
+import type { TrendSeries } from '../../history/trends.js';
+import type { WestgardViolation } from '../../history/westgard.js';
+import { SheetBuilder } from './builder.js';
+import { cell, columnLetter, type CellValue, type PlannedCell, type SheetPlan } from './cells.js';
+
+export const TRENDS_SHEET = 'Trends';
+
+export const TRENDS_KEYS = {
+  history: 'QC history',
+  minPoints: 'points needed for limits',
+} as const;
+
+/** Column B of the history line when the run was given no history. */
+export const NO_HISTORY = 'none: this run was not given one (recalc --history FILE records runs and fills this sheet)';
+
+export const SERIES_TITLE = 'Series: one per analyte and control type';
+export const POINTS_TITLE = 'Points: every recovery of each series, in run order';
+
+export const SERIES_HEADERS = [
+  'analyte',
+  'sample type',
+  'n',
+  'mean %',
+  'SD %',
+  'warning low %',
+  'warning high %',
+  'control low %',
+  'control high %',
+  'rule violations',
+  'rules broken',
+  'points',
+] as const;
+
+export const POINT_HEADERS = [
+  'analyte',
+  'sample type',
+  'point',
+  'run',
+  'run time',
+  'worklist',
+  'worklist SHA-256',
+  'batch',
+  'sample_id',
+  'worklist row',
+  'recovery %',
+  'this run',
+  'rules broken here',
+] as const;
+
+/** 1-based column of the recovery in the points table (K). */
+const RECOVERY_COLUMN = POINT_HEADERS.indexOf('recovery %') + 1;
+
+export interface TrendsSheetInput {
+  /** The history file as named on the command line (its base name is shown). */
+  file: string;
+  series: readonly TrendSeries[];
+}
+
+export interface TrendsSheet {
+  plan: SheetPlan;
+  /** The history line, the points-needed line and every points-table row, as values: the digest's tail. */
+  digestRows: CellValue[][];
+}
+
+export function planTrendsSheet(result: RecalcResult, options: { history?: TrendsSheetInput; minPoints: number }): TrendsSheet {
+  const { history, minPoints } = options;
+  const b = new SheetBuilder();
+  b.title('Trends: control recoveries across runs, from the QC history');
+  const historyName = history ? baseName(history.file) : NO_HISTORY;
+  b.keyValue(TRENDS_KEYS.history, historyName);
+  const minRow = b.keyValue(TRENDS_KEYS.minPoints, minPoints, [
+    'below this many points a series has n, mean and SD but no limits, and no rule is judged (US EPA SW-846 Method 8000 practice)',
+  ]);
+  b.keyValue('which points', 'every recorded recovery of the analyte and control type, this run included, in run order (run time, then order recorded, then worklist row); all are used');
+  b.keyValue('limits', 'warning: mean ± 2s; control: mean ± 3s; s the sample SD (n − 1)');
+  b.keyValue(
+    'rules',
+    'Westgard multirules (Westgard et al., Clin. Chem. 1981) over each series against its limits: 1-2s (warning), 1-3s, 2-2s, R-4s (within one batch of one run), 4-1s, 10-x; "beyond" is strictly beyond',
+  );
+  const digestRows: CellValue[][] = [[TRENDS_KEYS.history, historyName], [TRENDS_KEYS.minPoints, minPoints]];
+  b.blank();
+  if (!history) {
+    b.add([cell('No QC history: nothing to show.', { mark: 'note' })]);
+    return { plan: finish(b), digestRows };
+  }
+  const series = history.series;
+  if (series.length === 0) {
+    b.add([cell('The history holds no control recoveries yet.', { mark: 'note' })]);
+    return { plan: finish(b), digestRows };
+  }
+
+  // Rows from here: series title, its header, one row per series, a blank, the points title, its header, the points.
+  const seriesHeaderRow = b.nextRow + 1;
+  let nextPointRow = seriesHeaderRow + series.length + 4;
+  const ranges = series.map((s) => {
+    const first = nextPointRow;
+    nextPointRow += s.points.length;
+    return { first, last: nextPointRow - 1 };
+  });
+
+  b.title(SERIES_TITLE, 'section');
+  b.table(
+    SERIES_HEADERS,
+    series.map((s, i) => seriesRow(s, { row: seriesHeaderRow + 1 + i, range: ranges[i]!, minRow })),
+  );
+  b.blank();
+  b.title(POINTS_TITLE, 'section');
+  const pointRows: (PlannedCell | CellValue)[][] = [];
+  for (const s of series) {
+    const byPoint = violationsByPoint(s.violations);
+    s.points.forEach((p, i) => {
+      const values: CellValue[] = [
+        s.analyte,
+        s.sampleType,
+        i + 1,
+        p.runId,
+        p.runTime,
+        p.worklistName,
+        p.worklistSha256,
+        p.batchId || null,
+        p.sampleId || null,
+        p.rowNumber,
+        p.value,
+      ];
+      digestRows.push(values);
+      const broken = byPoint.get(i) ?? [];
+      const reject = broken.some((v) => v.severity === 'reject');
+      const recovery = cell(p.value, {
+        numFmt: '0.0',
+        ...(broken.length ? { mark: reject ? 'fail' : 'inform', note: `Breaks ${broken.map(describeViolation).join('; ')}` } : {}),
+      });
+      pointRows.push([
+        ...values.slice(0, RECOVERY_COLUMN - 1),
+        recovery,
+        p.worklistSha256 === result.worklist.sha256 ? 'yes' : null,
+        broken.length ? broken.map(ruleName).join(', ') : null,
+      ]);
+    });
+  }
+  b.table(POINT_HEADERS, pointRows);
+  return { plan: finish(b), digestRows };
+}
+
+function seriesRow(s: TrendSeries, at: { row: number; range: { first: number; last: number }; minRow: number }): (PlannedCell | CellValue)[] {
+  const l = s.limits;
+  const r = at.row;
+  const k = columnLetter(RECOVERY_COLUMN);
+  const span = `${k}${at.range.first}:${k}${at.range.last}`;
+  const enough = `C${r}>=$B$${at.minRow}`;
+  const live = (formula: string, value: number, shown: boolean): PlannedCell =>
+    cell(shown && Number.isFinite(value) ? value : '', { formula, numFmt: '0.00' });
+  const rejections = s.violations.filter((v) => v.severity === 'reject').length;
+  return [
+    s.analyte,
+    s.sampleType || null,
+    cell(l.n, { formula: `COUNT(${span})` }),
+    live(`AVERAGE(${span})`, l.mean, true),
+    live(`IF(C${r}>=2,STDEV(${span}),"")`, l.sd, l.n >= 2),
+    live(`IF(${enough},D${r}-2*E${r},"")`, l.warningLow, l.sufficient),
+    live(`IF(${enough},D${r}+2*E${r},"")`, l.warningHigh, l.sufficient),
+    live(`IF(${enough},D${r}-3*E${r},"")`, l.controlLow, l.sufficient),
+    live(`IF(${enough},D${r}+3*E${r},"")`, l.controlHigh, l.sufficient),
+    cell(s.violations.length, rejections > 0 ? { mark: 'fail' } : s.violations.length > 0 ? { mark: 'inform' } : {}),
+    l.sufficient ? ruleCounts(s.violations) || 'none' : `no limits yet: ${l.n} of the points needed`,
+    `rows ${at.range.first}–${at.range.last}`,
+  ];
+}
+
+function violationsByPoint(violations: readonly WestgardViolation[]): Map<number, WestgardViolation[]> {
+  const out = new Map<number, WestgardViolation[]>();
+  for (const v of violations) {
+    const list = out.get(v.index);
+    if (list) list.push(v);
+    else out.set(v.index, [v]);
+  }
+  return out;
+}
+
+const ruleName = (v: WestgardViolation): string => (v.severity === 'warning' ? `${v.rule} (warning)` : v.rule);
+
+const RULE_WORDS: Record<WestgardViolation['rule'], string> = {
+  '1-2s': 'one point beyond mean ± 2s',
+  '1-3s': 'one point beyond mean ± 3s',
+  '2-2s': 'two points in a row beyond the same 2s limit',
+  'R-4s': 'within one batch of one run, one point beyond +2s and another beyond −2s',
+  '4-1s': 'four points in a row beyond the same 1s limit',
+  '10-x': 'ten points in a row on the same side of the mean',
+};
+
+function describeViolation(v: WestgardViolation): string {
+  return `${ruleName(v)}: ${RULE_WORDS[v.rule]}`;
+}
+
+/** "1-2s (warning) ×2, 2-2s ×1", in the order the rules were first broken. */
+function ruleCounts(violations: readonly WestgardViolation[]): string {
+  const counts = new Map<string, number>();
+  for (const v of violations) counts.set(ruleName(v), (counts.get(ruleName(v)) ?? 0) + 1);
+  return [...counts].map(([rule, n]) => `${rule} ×${n}`).join(', ');
+}
+
+function baseName(path: string): string {
+  const parts = path.split(/[\\/]/);
+  return parts[parts.length - 1] || path;
+}
+
+function finish(b: SheetBuilder): SheetPlan {
+  return b.plan(TRENDS_SHEET, { widths: [20, 12, 8, 20, 28, 22, 18, 14, 20, 12, 24, 28, 24] });
+}
