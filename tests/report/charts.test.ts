@@ -1,0 +1,59 @@
+/**
+ * Charts of the same shape share one compiled Vega specification, with each chart's
+ * rows handed to the view. The SVG must be exactly what compiling each spec with
+ * its data inline gives (vega-lite's own compile is the reference).
+ */
+import { mkdtempSync, rmSync } from 'node:fs';
+import { tmpdir } from 'node:os';
+import { join } from 'node:path';
+import { afterAll, beforeAll, describe, expect, it } from 'vitest';
+import type { TrendSeries } from '../../src/history/trends.js';
+import { controlChartSpec, recoveryChartSpec, renderSvg, type RecoveryPoint } from '../../src/report/charts.js';
+import { reportScenario } from './fixtures.js';
+
+let dir: string;
+let history: TrendSeries[];
+
+beforeAll(async () => {
+  dir = mkdtempSync(join(tmpdir(), 'phasebook-charts-'));
+  ({ history } = await reportScenario(dir));
+}, 120_000);
+
+afterAll(() => rmSync(dir, { recursive: true, force: true }));
+
+/** Invented recoveries: six controls, the last without limits, shifted by `k` (long labels from k 20 on). */
+function points(k: number): RecoveryPoint[] {
+  return Array.from({ length: 6 }, (_, i) => ({
+    label: k >= 20 ? `control sample number ${i + 1}` : `C${i + 1}`,
+    sampleId: `S-${k}-${i}`,
+    sampleType: i % 2 ? 'lcs' : 'ms',
+    rowNumber: i + 2,
+    value: 62 + 11 * i + k,
+    low: i === 5 ? Number.NaN : 70,
+    high: i === 5 ? Number.NaN : 130,
+  }));
+}
+
+describe('renderSvg reusing a compiled chart shape', () => {
+  it('draws recovery charts of one shape with different data exactly as compiling each one does, growing or shrinking', async () => {
+    const svgs: string[] = [];
+    for (const k of [0, 40, 5, 0]) {
+      const spec = recoveryChartSpec(points(k), { analyte: 'Atrazine' });
+      const reused = await renderSvg(spec);
+      expect(reused).toBe(await renderSvg(spec, { reuse: false }));
+      svgs.push(reused);
+    }
+    expect(new Set(svgs).size).toBe(3); // the data did change the drawing
+    expect(svgs[3]).toBe(svgs[0]);
+  });
+
+  it('draws every control chart of the report scenario exactly as compiling each one does', async () => {
+    expect(history.length).toBeGreaterThan(1);
+    for (const s of history) {
+      for (const current of [() => false, (i: number) => i === s.points.length - 1]) {
+        const spec = controlChartSpec(s, { isCurrent: current });
+        expect(await renderSvg(spec), `${s.analyte} ${s.sampleType}`).toBe(await renderSvg(spec, { reuse: false }));
+      }
+    }
+  });
+});
