@@ -16,6 +16,7 @@
  * series from the stored points, plans this sheet again and compares; the
  * integrity digest covers the points (digest.ts).
  */
+import { basename } from 'node:path';
 import type { RecalcResult } from '../../pipeline.js';
 import type { TrendSeries } from '../../history/trends.js';
 import type { WestgardViolation } from '../../history/westgard.js';
@@ -85,7 +86,7 @@ export function planTrendsSheet(result: RecalcResult, options: { history?: Trend
   const { history, minPoints } = options;
   const b = new SheetBuilder();
   b.title('Trends: control recoveries across runs, from the QC history');
-  const historyName = history ? baseName(history.file) : NO_HISTORY;
+  const historyName = history ? basename(history.file) : NO_HISTORY;
   b.keyValue(TRENDS_KEYS.history, historyName);
   const minRow = b.keyValue(TRENDS_KEYS.minPoints, minPoints, [
     'below this many points a series has n, mean and SD but no limits, and no rule is judged (US EPA SW-846 Method 8000 practice)',
@@ -215,11 +216,6 @@ function ruleCounts(violations: readonly WestgardViolation[]): string {
   const counts = new Map<string, number>();
   for (const v of violations) counts.set(ruleName(v), (counts.get(ruleName(v)) ?? 0) + 1);
   return [...counts].map(([rule, n]) => `${rule} ×${n}`).join(', ');
-}
-
-function baseName(path: string): string {
-  const parts = path.split(/[\\/]/);
-  return parts[parts.length - 1] || path;
 }
 
 function finish(b: SheetBuilder): SheetPlan {
