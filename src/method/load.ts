@@ -1,29 +1,15 @@
 import { createHash } from 'node:crypto';
 import { readFileSync } from 'node:fs';
-import AjvModule from 'ajv';
 import { LineCounter, parseDocument, isNode, type Document } from 'yaml';
 import { StopError, fsReason } from '../errors.js';
 import { parseAcidBase } from '../chemistry/partition.js';
 import { isCanonicalField, type CanonicalField, type SampleType } from '../columns/fields.js';
 import { GENERIC_LIMITS, GENERIC_QC } from './defaults.js';
+import { methodSchemaValidator } from './schema-validator.js';
 import type { AnalyteInfo, FieldConfig, FormulaDef, LimitTable, Method } from './types.js';
 
 /** Significance levels of the Dixon's Q table phasebook carries (Rorabacher, Anal. Chem. 1991). */
 const DIXON_ALPHAS = [0.1, 0.05, 0.04, 0.02, 0.01];
-
-const SCHEMA_URL = new URL('../../templates/method.schema.json', import.meta.url);
-
-type AjvClass = typeof AjvModule.default;
-const Ajv: AjvClass = (AjvModule as unknown as { default?: AjvClass }).default ?? (AjvModule as unknown as AjvClass);
-
-let validator: ReturnType<InstanceType<AjvClass>['compile']> | undefined;
-function schemaValidator() {
-  if (!validator) {
-    const schema = JSON.parse(readFileSync(SCHEMA_URL, 'utf8')) as object;
-    validator = new Ajv({ allErrors: false, strict: false }).compile(schema);
-  }
-  return validator;
-}
 
 /** Read a method file; throws a StopError('method') naming file, line and key. */
 export function loadMethod(path: string): Method {
@@ -56,7 +42,7 @@ export function parseMethod(text: string, options: { file: string }): Method {
   if (data === null || typeof data !== 'object' || Array.isArray(data)) {
     throw new StopError('method', 'expected a method (a YAML mapping with name and formulas), got nothing usable', { file, line: 1 });
   }
-  const validate = schemaValidator();
+  const validate = methodSchemaValidator();
   if (!validate(data)) {
     const err = validate.errors![0]!;
     const path = pointerToPath(err.instancePath);
