@@ -1,7 +1,7 @@
 /**
  * End to end over the built CLI: samples/qc-failures-2026-12.csv (invented scenario)
  * with its method holds at least one failure of every kind of DESIGN.md §5 / issue 3.
- * Run `npx tsc -p tsconfig.json` (or `npm test`, which builds first) so dist/ is current.
+ * Run `npm run build` (or `npm test`, which builds first) so dist/ is current.
  */
 import { spawnSync } from 'node:child_process';
 import { existsSync, mkdtempSync, readFileSync, rmSync, writeFileSync } from 'node:fs';
@@ -62,10 +62,7 @@ describe('phasebook recalc over a worklist with every kind of QC failure', () =>
   let headers: string[];
 
   beforeAll(() => {
-    if (!existsSync(CLI)) {
-      const build = spawnSync('npx', ['tsc', '-p', 'tsconfig.json'], { cwd: ROOT, encoding: 'utf8' });
-      if (build.status !== 0) throw new Error(`build failed: ${build.stdout}${build.stderr}`);
-    }
+    if (!existsSync(CLI)) throw new Error('dist/cli.js is missing: run `npm run build` first (npm test does)');
     out = mkdtempSync(join(tmpdir(), 'phasebook-qc-e2e-'));
     const res = spawnSync(process.execPath, [CLI, 'recalc', WORKLIST, '-m', METHOD, '-o', out, '--outputs', 'csv', '--timestamp', '2026-12-03T18:00:00Z'], {
       cwd: ROOT,
