@@ -79,13 +79,13 @@ export function htmlReportJobs(result: RecalcResult, options: ReportJobOptions):
 /** The whole report of one batch as an HTML document. */
 export async function renderReport(result: RecalcResult, options: ReportOptions): Promise<string> {
   const batch = options.batch ?? reportBatches(result)[0]!;
-  const rows = rowsOfBatch(result, batch);
-  const groups = result.groups.filter((g) => g.batch === batch);
+  const index = batchIndex(result);
+  const rows = index.rows.get(batch) ?? [];
+  const groups = index.groups.get(batch) ?? [];
   const failed = groups.filter((g) => g.verdict === 'fail');
   const verdict = failed.length ? 'fail' : 'pass';
   const analytes = [...new Set(rows.map((r) => text(result, 'analyte', r)))];
-  const inBatch = new Set(rows);
-  const flags = result.flags.filter((f) => inBatch.has(f.row));
+  const flags = index.flags.get(batch) ?? [];
   const title = batch ? `Batch ${batch}` : `Worklist ${result.worklist.name}`;
 
   const recoverySections: Markup[] = [];
@@ -153,10 +153,36 @@ ${historySections}
   return doc.text;
 }
 
-function rowsOfBatch(result: RecalcResult, batch: string): number[] {
-  const out: number[] = [];
-  for (let r = 0; r < result.rowsOut; r++) if (text(result, 'batch_id', r) === batch) out.push(r);
-  return out;
+/** Each batch's rows, summary groups and flags, in worklist order. */
+interface BatchIndex {
+  rows: Map<string, number[]>;
+  groups: Map<string, GroupSummary[]>;
+  flags: Map<string, Flag[]>;
+}
+
+const batchIndexes = new WeakMap<RecalcResult, BatchIndex>();
+
+/**
+ * Built once per result: a worklist of thousands of batches gets one report each,
+ * and looking each batch's rows up by scanning the whole worklist made the reports
+ * quadratic in its length.
+ */
+function batchIndex(result: RecalcResult): BatchIndex {
+  const known = batchIndexes.get(result);
+  if (known) return known;
+  const ids = result.table.texts.get('batch_id');
+  const batchOf = (r: number) => ids?.[r] ?? '';
+  const add = <T>(map: Map<string, T[]>, key: string, item: T) => {
+    const list = map.get(key);
+    if (list) list.push(item);
+    else map.set(key, [item]);
+  };
+  const index: BatchIndex = { rows: new Map(), groups: new Map(), flags: new Map() };
+  for (let r = 0; r < result.rowsOut; r++) add(index.rows, batchOf(r), r);
+  for (const g of result.groups) add(index.groups, g.batch, g);
+  for (const f of result.flags) if (f.row >= 0 && f.row < result.rowsOut) add(index.flags, batchOf(f.row), f);
+  batchIndexes.set(result, index);
+  return index;
 }
 
 function text(result: RecalcResult, field: string, r: number): string {
