@@ -7,9 +7,10 @@
  *   `phasebook integrity digest 2`
  *   every row of the Results sheet, header included: a JSON array with one entry per
  *     column: a number, a text, or null for an empty cell; numbers of the as-used and
- *     computed columns are taken to 12 significant digits (so a spreadsheet that
- *     recalculates and saves its own last-digit differences does not break the
- *     digest), every other cell exactly;
+ *     computed columns are written to 12 significant digits as JavaScript's
+ *     `toPrecision(12)` writes them (so a spreadsheet that recalculates and saves its
+ *     own last-digit differences does not break the digest), every other number as
+ *     `String(x)` and every text as JSON;
  *   `method <SHA-256 of the method text on the Method sheet>`;
  *   every row of the acceptance limits table on the Method sheet, then of the in-house
  *     limits table where the method uses one, as a JSON array;
@@ -23,16 +24,15 @@ export const DIGEST_HEADER = 'phasebook integrity digest 2';
 
 export const DIGEST_DESCRIPTION =
   'SHA-256 over, one line each: "phasebook integrity digest 2"; every row of the Results sheet, header included, as a JSON array ' +
-  '(empty cells null; as-used and computed numbers to 12 significant digits, all other cells exact); "method " and the SHA-256 of ' +
+  '(empty cells null; as-used and computed numbers to 12 significant digits as toPrecision(12) writes them, all other cells exact); "method " and the SHA-256 of ' +
   'the method text on the Method sheet; every row of the acceptance limits table on the Method sheet (and of the in-house limits ' +
   'table, when the method uses in-house limits) as a JSON array; "trends", then the Trends sheet\'s QC history and points-needed ' +
   'lines and every row of its points table (values up to the recovery) as a JSON array. ' +
   'phasebook verify recomputes it from the stored cells.';
 
-function canonical(v: CellValue | undefined, approximate: boolean): CellValue {
-  if (v === undefined || v === null || v === '') return null;
-  if (typeof v === 'number' && approximate) return Number(v.toPrecision(12));
-  return v;
+/** Empty (undefined, null or "") as null, anything else as it is. */
+function canonical(v: CellValue | undefined): CellValue {
+  return v === undefined || v === null || v === '' ? null : v;
 }
 
 export class IntegrityDigest {
@@ -48,21 +48,22 @@ export class IntegrityDigest {
     const width = Math.max(values.length, approximate.length);
     let line = '[';
     for (let c = 0; c < width; c++) {
-      const v = canonical(values[c], approximate[c] === true);
+      const v = canonical(values[c]);
       if (c > 0) line += ',';
-      line += v === null ? 'null' : typeof v === 'number' ? String(v) : JSON.stringify(v);
+      // toPrecision's text is itself the rounding (and a JSON number): no round trip through a number.
+      line += v === null ? 'null' : typeof v === 'number' ? (approximate[c] === true ? v.toPrecision(12) : String(v)) : JSON.stringify(v);
     }
     this.hash.update(`${line}]\n`, 'utf8');
   }
 
   addMethod(textSha256: string, limits: readonly (readonly (CellValue | undefined)[])[]): void {
     this.hash.update(`method ${textSha256}\n`, 'utf8');
-    for (const row of limits) this.hash.update(`${JSON.stringify(row.map((v) => canonical(v, false)))}\n`, 'utf8');
+    for (const row of limits) this.hash.update(`${JSON.stringify(row.map((v) => canonical(v)))}\n`, 'utf8');
   }
 
   addTrends(rows: readonly (readonly (CellValue | undefined)[])[]): void {
     this.hash.update('trends\n', 'utf8');
-    for (const row of rows) this.hash.update(`${JSON.stringify(row.map((v) => canonical(v, false)))}\n`, 'utf8');
+    for (const row of rows) this.hash.update(`${JSON.stringify(row.map((v) => canonical(v)))}\n`, 'utf8');
   }
 
   hex(): string {
