@@ -44,7 +44,7 @@ describe(`npm run bench at ${SIZE} rows (smoke test: correctness, not time)`, ()
     expect(run.stderr).not.toMatch(/Error/);
     expect(run.code).toBe(0);
     expect(run.stdout).toMatch(/\| rows \| variant \|/);
-    expect(report.results.map((r) => r.variant)).toEqual(['floor csv', 'phasebook csv', 'floor xlsx', 'phasebook csv+xlsx']);
+    expect(report.results.map((r) => r.variant)).toEqual(['floor csv', 'phasebook csv', 'floor xlsx', 'phasebook csv+xlsx', 'phasebook every output']);
     for (const r of report.results) {
       expect(r.size).toBe(SIZE);
       expect(r.runs).toBe(1);
