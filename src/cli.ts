@@ -8,6 +8,7 @@
  */
 import { Command, CommanderError, InvalidArgumentError, Option } from 'commander';
 import { StopError } from './errors.js';
+import { EXIT } from './commands/io.js';
 import { registerTrendsCommand } from './commands/trends.js';
 import { registerMethodCommand } from './commands/method.js';
 import { registerPlanCommand } from './commands/plan.js';
@@ -20,10 +21,6 @@ import { VERSION } from './version.js';
 import { installInterruptCleanup } from './write/atomic.js';
 import { OUTPUT_KINDS, workbookDeclined, writeOutputs, type OutputKind } from './write/outputs.js';
 import { createProgress, type ProgressLine } from './progress.js';
-
-const EXIT_OK = 0;
-const EXIT_FINDINGS = 1;
-const EXIT_STOP = 2;
 
 const debug = process.argv.includes('--debug');
 
@@ -143,7 +140,7 @@ async function recalcWithProgress(worklist: string, opts: RecalcCliOptions, prog
     } catch (err) {
       const why = err instanceof StopError ? err.describe() : (err as Error).message;
       process.stderr.write(`phasebook: the outputs were written, but the run could not be recorded in the history: ${why}\n`);
-      return EXIT_STOP;
+      return EXIT.stop;
     }
   }
   const code = exitCodeOf(result);
@@ -155,7 +152,7 @@ async function recalcWithProgress(worklist: string, opts: RecalcCliOptions, prog
 export function exitCodeOf(result: RecalcResult): number {
   const inputErrors = result.table.rowError.some((x) => x === 1);
   const failedControl = result.qc.status.some((s) => s === 'fail');
-  return inputErrors || failedControl || result.verdict.verdict === 'fail' ? EXIT_FINDINGS : EXIT_OK;
+  return inputErrors || failedControl || result.verdict.verdict === 'fail' ? EXIT.findings : EXIT.ok;
 }
 
 function describeRun(result: RecalcResult, written: Record<string, string[]>): string {
@@ -176,12 +173,12 @@ function describeRun(result: RecalcResult, written: Record<string, string[]>): s
 }
 
 export async function main(argv: string[]): Promise<number> {
-  let code = EXIT_OK;
+  let code: number = EXIT.ok;
   // An error outside this promise chain (a late stream error, a timer) gets the same one line: no stack without --debug.
   const crash = (err: unknown) => {
     process.stderr.write(`phasebook: unexpected error: ${(err as Error)?.message ?? String(err)}\nNothing was written.${debug ? '' : ' (run with --debug for details)'}\n`);
     if (debug && (err as Error)?.stack) process.stderr.write((err as Error).stack + '\n');
-    process.exit(EXIT_STOP); // the exit handler of write/atomic.ts removes temp files
+    process.exit(EXIT.stop); // the exit handler of write/atomic.ts removes temp files
   };
   process.on('uncaughtException', crash);
   process.on('unhandledRejection', crash);
@@ -192,16 +189,16 @@ export async function main(argv: string[]): Promise<number> {
   } catch (err) {
     if (err instanceof CommanderError) {
       // --help and --version end with code 0; usage errors were already printed by commander.
-      return err.exitCode === 0 ? EXIT_OK : EXIT_STOP;
+      return err.exitCode === 0 ? EXIT.ok : EXIT.stop;
     }
     if (err instanceof StopError) {
       process.stderr.write(`phasebook: ${err.describe()}\nNothing was written.\n`);
       if (debug && err.stack) process.stderr.write(err.stack + '\n');
-      return EXIT_STOP;
+      return EXIT.stop;
     }
     process.stderr.write(`phasebook: unexpected error: ${(err as Error)?.message ?? String(err)}\nNothing was written.${debug ? '' : ' (run with --debug for details)'}\n`);
     if (debug && (err as Error)?.stack) process.stderr.write((err as Error).stack + '\n');
-    return EXIT_STOP;
+    return EXIT.stop;
   }
 }
 
@@ -210,6 +207,6 @@ main(process.argv).then(
     process.exitCode = code;
   },
   () => {
-    process.exitCode = EXIT_STOP;
+    process.exitCode = EXIT.stop;
   },
 );

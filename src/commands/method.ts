@@ -12,24 +12,15 @@ import { fileURLToPath } from 'node:url';
 import { InvalidArgumentError, type Command } from 'commander';
 import { compileMethod } from '../engine/evaluate.js';
 import { StopError } from '../errors.js';
+import { EXIT, type CommandIo } from './io.js';
 import { describeMethod } from '../method/describe.js';
 import { draftMethod, type DraftResult } from '../method/draft.js';
 import { loadMethod, parseMethod } from '../method/load.js';
 import { readWorklist } from '../read/worklist.js';
 import { writeFileAtomic } from '../write/atomic.js';
 
-const EXIT_OK = 0;
-const EXIT_STOP = 2;
 
 const SCHEMA_PATH = fileURLToPath(new URL('../../templates/method.schema.json', import.meta.url));
-
-export interface MethodCommandIo {
-  exit: (code: number) => void;
-  /** Where results go; default process.stdout. */
-  stdout?: (text: string) => void;
-  /** Where summaries and errors go; default process.stderr. */
-  stderr?: (text: string) => void;
-}
 
 interface DraftCliOptions {
   out?: string;
@@ -38,7 +29,7 @@ interface DraftCliOptions {
   name?: string;
 }
 
-export function registerMethodCommand(program: Command, io: MethodCommandIo): Command {
+export function registerMethodCommand(program: Command, io: CommandIo): Command {
   const stdout = io.stdout ?? ((t: string) => void process.stdout.write(t));
   const stderr = io.stderr ?? ((t: string) => void process.stderr.write(t));
 
@@ -54,11 +45,11 @@ export function registerMethodCommand(program: Command, io: MethodCommandIo): Co
       try {
         const loaded = loadMethod(file);
         stdout(describeMethod(loaded, compileMethod(loaded)));
-        io.exit(EXIT_OK);
+        io.exit(EXIT.ok);
       } catch (err) {
         if (!(err instanceof StopError)) throw err;
         stderr(`phasebook: ${err.describe()}\nThe method is not valid.\n`);
-        io.exit(EXIT_STOP);
+        io.exit(EXIT.stop);
       }
     });
 
@@ -83,7 +74,7 @@ export function registerMethodCommand(program: Command, io: MethodCommandIo): Co
         stdout(draft.text);
       }
       stderr(draftSummary(draft, opts.out));
-      io.exit(EXIT_OK);
+      io.exit(EXIT.ok);
     });
 
   return method;

@@ -14,20 +14,11 @@ import { InvalidArgumentError, Option, type Command } from 'commander';
 import { distributionRatio, neutralFraction } from '../chemistry/partition.js';
 import { efficiencyTable, neutralPh, portionsFor, solventVolumeFor } from '../chemistry/plan.js';
 import { StopError } from '../errors.js';
+import { EXIT, type CommandIo } from './io.js';
 
-const EXIT_OK = 0;
-const EXIT_STOP = 2;
 /** The neutral fraction the pH advice aims at. */
 const NEUTRAL_TARGET = 0.99;
 const MAX_PORTIONS_LIMIT = 100;
-
-export interface PlanCommandIo {
-  exit: (code: number) => void;
-  /** Where the plan goes; default process.stdout. */
-  stdout?: (text: string) => void;
-  /** Where errors go; default process.stderr. */
-  stderr?: (text: string) => void;
-}
 
 export interface PlanInput {
   /** Partition coefficient K of the neutral form (give this or logK). */
@@ -221,7 +212,7 @@ interface PlanCliOptions {
   json?: boolean;
 }
 
-export function registerPlanCommand(program: Command, io: PlanCommandIo): Command {
+export function registerPlanCommand(program: Command, io: CommandIo): Command {
   const stdout = io.stdout ?? ((t: string) => void process.stdout.write(t));
   const stderr = io.stderr ?? ((t: string) => void process.stderr.write(t));
   return program
@@ -252,11 +243,11 @@ export function registerPlanCommand(program: Command, io: PlanCommandIo): Comman
           maxPortions: opts.maxPortions,
         });
         stdout(opts.json ? JSON.stringify(report, null, 2) + '\n' : formatPlan(report));
-        io.exit(EXIT_OK);
+        io.exit(EXIT.ok);
       } catch (err) {
         if (!(err instanceof StopError)) throw err;
         stderr(`phasebook: ${err.describe()}\n`);
-        io.exit(EXIT_STOP);
+        io.exit(EXIT.stop);
       }
     });
 }

@@ -6,13 +6,8 @@
  */
 import type { Command } from 'commander';
 import { StopError } from '../errors.js';
+import { EXIT, type CommandIo } from './io.js';
 import { MIN_POINTS, readTrends, trendsJson, type TrendSeries } from '../history/trends.js';
-
-export interface TrendsIo {
-  exit: (code: number) => void;
-  /** Where the report goes (default standard output). */
-  stdout?: (text: string) => void;
-}
 
 interface TrendsCliOptions {
   history: string;
@@ -20,7 +15,7 @@ interface TrendsCliOptions {
   json?: boolean;
 }
 
-export function registerTrendsCommand(program: Command, io: TrendsIo): void {
+export function registerTrendsCommand(program: Command, io: CommandIo): void {
   program
     .command('trends')
     .description('show in-house control limits and Westgard rule violations from a QC history')
@@ -30,7 +25,7 @@ export function registerTrendsCommand(program: Command, io: TrendsIo): void {
     .action(async (opts: TrendsCliOptions) => {
       const out = io.stdout ?? ((text: string) => void process.stdout.write(text));
       out(await runTrends(opts));
-      io.exit(0);
+      io.exit(EXIT.ok);
     });
 }
 

@@ -9,19 +9,8 @@
  */
 import type { Command } from 'commander';
 import { StopError } from '../errors.js';
+import { EXIT, type CommandIo } from './io.js';
 import { formatDifference } from '../verify/difference.js';
-
-const EXIT_OK = 0;
-const EXIT_DIFFERENCES = 1;
-const EXIT_STOP = 2;
-
-export interface VerifyIo {
-  exit: (code: number) => void;
-  /** Difference lines; default process.stdout. */
-  stdout?: (text: string) => void;
-  /** The summary line and errors; default process.stderr. */
-  stderr?: (text: string) => void;
-}
 
 interface VerifyCliOptions {
   quiet?: boolean;
@@ -37,7 +26,7 @@ function ignoreEpipe(err: NodeJS.ErrnoException): void {
   if (err.code !== 'EPIPE') throw err;
 }
 
-export function registerVerifyCommand(program: Command, io: VerifyIo): void {
+export function registerVerifyCommand(program: Command, io: CommandIo): void {
   const stdout = io.stdout ?? writeToStdout;
   const stderr = io.stderr ?? ((t: string) => void process.stderr.write(t));
   program
@@ -54,7 +43,7 @@ export function registerVerifyCommand(program: Command, io: VerifyIo): void {
       } catch (err) {
         if (!(err instanceof StopError)) throw err;
         stderr(`phasebook: ${err.describe()}\n`);
-        io.exit(EXIT_STOP);
+        io.exit(EXIT.stop);
         return;
       }
       const n = report.differences.length;
@@ -72,6 +61,6 @@ export function registerVerifyCommand(program: Command, io: VerifyIo): void {
             : `phasebook verify: ${workbook}: ${n} difference${n === 1 ? '' : 's'}; ${digest}\n`,
         );
       }
-      io.exit(n === 0 ? EXIT_OK : EXIT_DIFFERENCES);
+      io.exit(n === 0 ? EXIT.ok : EXIT.findings);
     });
 }

@@ -1,31 +1,17 @@
 import { existsSync, mkdtempSync, readFileSync, writeFileSync } from 'node:fs';
 import { tmpdir } from 'node:os';
 import { join } from 'node:path';
-import { Command, CommanderError } from 'commander';
+import { CommanderError } from 'commander';
 import { describe, expect, it } from 'vitest';
 import { registerMethodCommand } from '../../src/commands/method.js';
+import { runCommand } from '../helpers/command.js';
 import { StopError } from '../../src/errors.js';
 import { parseMethod } from '../../src/method/load.js';
 
 const ROOT = join(import.meta.dirname, '../..');
 
 /** Run `phasebook method ...` in process. A StopError or CommanderError thrown by an action is returned. */
-async function method(args: string[]): Promise<{ code?: number; stdout: string; stderr: string; error?: unknown }> {
-  let code: number | undefined;
-  let stdout = '';
-  let stderr = '';
-  const program = new Command('phasebook')
-    .exitOverride()
-    .configureOutput({ writeOut: (s) => void (stdout += s), writeErr: (s) => void (stderr += s) });
-  registerMethodCommand(program, { exit: (c) => (code = c), stdout: (s) => void (stdout += s), stderr: (s) => void (stderr += s) });
-  try {
-    await program.parseAsync(['node', 'phasebook', 'method', ...args]);
-  } catch (error) {
-    if (error instanceof StopError || error instanceof CommanderError) return { code, stdout, stderr, error };
-    throw error;
-  }
-  return { code, stdout, stderr };
-}
+const method = (args: string[]) => runCommand(registerMethodCommand, ['method', ...args]);
 
 function tempFile(name: string, text?: string): string {
   const path = join(mkdtempSync(join(tmpdir(), 'phasebook-method-')), name);

@@ -1,7 +1,8 @@
-import { Command, CommanderError } from 'commander';
+import { CommanderError } from 'commander';
 import { describe, expect, it } from 'vitest';
 import { formatPlan, planExtraction, registerPlanCommand, type PlanReport } from '../../src/commands/plan.js';
 import { StopError } from '../../src/errors.js';
+import { runCommand } from '../helpers/command.js';
 
 // Worked examples from REFERENCES.md §1 (E1, E3, E4, E5), each attributed there and named beside its check.
 
@@ -10,23 +11,8 @@ function expectPublished(value: number, published: number, decimals: number): vo
   expect(Math.abs(value - published)).toBeLessThanOrEqual(0.5 * 10 ** -decimals + 1e-12);
 }
 
-/** Run `phasebook plan ...` in process; commander errors come back as the thrown CommanderError. */
-async function plan(args: string[]): Promise<{ code: number | undefined; stdout: string; stderr: string; error?: CommanderError }> {
-  let code: number | undefined;
-  let stdout = '';
-  let stderr = '';
-  const program = new Command('phasebook')
-    .exitOverride()
-    .configureOutput({ writeOut: (s) => void (stdout += s), writeErr: (s) => void (stderr += s) });
-  registerPlanCommand(program, { exit: (c) => (code = c), stdout: (s) => void (stdout += s), stderr: (s) => void (stderr += s) });
-  try {
-    await program.parseAsync(['node', 'phasebook', 'plan', ...args]);
-  } catch (err) {
-    if (err instanceof CommanderError) return { code, stdout, stderr, error: err };
-    throw err;
-  }
-  return { code, stdout, stderr };
-}
+/** Run `phasebook plan ...` in process; commander errors come back as `error`. */
+const plan = (args: string[]) => runCommand(registerPlanCommand, ['plan', ...args]);
 
 async function planJson(args: string[]): Promise<PlanReport> {
   const r = await plan([...args, '--json']);

@@ -3,9 +3,9 @@ import { createHash } from 'node:crypto';
 import { copyFileSync, existsSync, mkdtempSync, readFileSync, rmSync } from 'node:fs';
 import { tmpdir } from 'node:os';
 import { join, resolve } from 'node:path';
-import { Command } from 'commander';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { registerTrendsCommand } from '../../src/commands/trends.js';
+import { runCommand } from '../helpers/command.js';
 import { StopError } from '../../src/errors.js';
 import type { HistoryRow } from '../../src/history/records.js';
 import { recordRun } from '../../src/history/store.js';
@@ -184,13 +184,11 @@ describe('trendsIncludingRun', () => {
 });
 
 describe('the trends command', () => {
+  /** Run `phasebook trends ...` in process; a StopError is thrown, as the command throws it. */
   async function run(args: string[]): Promise<{ out: string; code: number | undefined }> {
-    let out = '';
-    let code: number | undefined;
-    const program = new Command('phasebook').exitOverride();
-    registerTrendsCommand(program, { exit: (c) => (code = c), stdout: (t) => (out += t) });
-    await program.parseAsync(['node', 'phasebook', 'trends', ...args]);
-    return { out, code };
+    const r = await runCommand(registerTrendsCommand, ['trends', ...args]);
+    if (r.error) throw r.error;
+    return { out: r.stdout, code: r.code };
   }
 
   it('prints the array of --json objects with exactly the documented keys', async () => {
