@@ -1,5 +1,5 @@
 import type { FlagCode } from '../issues.js';
-import { batchAnalyteKey, type Finding, type QcContext } from './context.js';
+import { batchAnalyteKey, rowsByBatchAnalyte, type Finding, type QcContext } from './context.js';
 
 /** What an association rule may ask about the rows already judged. */
 export interface JudgedRows {
@@ -55,14 +55,7 @@ export const ASSOCIATION_RULES: readonly AssociationRule[] = [
  * the controls that caused it.
  */
 export function associate(ctx: QcContext, judged: Omit<JudgedRows, 'batchSamples'>): Array<{ row: number; code: FlagCode; finding: Finding }> {
-  const samplesByKey = new Map<string, number[]>();
-  for (let r = 0; r < ctx.rowCount; r++) {
-    if (ctx.type[r] !== 'sample') continue;
-    const k = batchAnalyteKey(ctx, r);
-    const list = samplesByKey.get(k);
-    if (list) list.push(r);
-    else samplesByKey.set(k, [r]);
-  }
+  const samplesByKey = rowsByBatchAnalyte(ctx, 'sample');
   const j: JudgedRows = { ...judged, batchSamples: (r) => samplesByKey.get(batchAnalyteKey(ctx, r)) ?? [] };
   const out: Array<{ row: number; code: FlagCode; finding: Finding }> = [];
   for (const rule of ASSOCIATION_RULES) {

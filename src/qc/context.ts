@@ -117,3 +117,16 @@ export function fmt(x: number): string {
 export function batchAnalyteKey(ctx: QcContext, row: number): string {
   return `${ctx.batch[row]}\u0000${ctx.analyte[row]}`;
 }
+
+/** The rows of one sample type, grouped by batch and analyte (batchAnalyteKey), in worklist order. */
+export function rowsByBatchAnalyte(ctx: QcContext, type: string): Map<string, number[]> {
+  const groups = new Map<string, number[]>();
+  for (let r = 0; r < ctx.rowCount; r++) {
+    if (ctx.type[r] !== type) continue;
+    const k = batchAnalyteKey(ctx, r);
+    const g = groups.get(k);
+    if (g) g.push(r);
+    else groups.set(k, [r]);
+  }
+  return groups;
+}

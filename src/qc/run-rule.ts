@@ -1,4 +1,4 @@
-import { batchAnalyteKey, type QcContext } from './context.js';
+import { rowsByBatchAnalyte, type QcContext } from './context.js';
 
 export interface RunRuleOutcome {
   batch: string;
@@ -24,14 +24,7 @@ export const NO_LEVEL = '(no level)';
 export function applyRunRule(ctx: QcContext, passed: (row: number) => boolean): RunRuleOutcome[] {
   const { runRule, runRuleAll, runRulePerLevel } = ctx.method.qc;
   if (runRule === 'off') return [];
-  const groups = new Map<string, number[]>();
-  for (let r = 0; r < ctx.rowCount; r++) {
-    if (ctx.type[r] !== 'qc') continue;
-    const k = batchAnalyteKey(ctx, r);
-    const g = groups.get(k);
-    if (g) g.push(r);
-    else groups.set(k, [r]);
-  }
+  const groups = rowsByBatchAnalyte(ctx, 'qc');
   const out: RunRuleOutcome[] = [];
   for (const rows of groups.values()) {
     const nPassed = rows.filter(passed).length;

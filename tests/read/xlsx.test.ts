@@ -5,7 +5,7 @@ import ExcelJS from 'exceljs';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { StopError } from '../../src/errors.js';
 import { readXlsx } from '../../src/read/xlsx.js';
-import { buildZip } from './make-zip.js';
+import { buildZip } from '../helpers/zip.mjs';
 
 let dir: string;
 let book: string;

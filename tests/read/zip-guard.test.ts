@@ -4,7 +4,7 @@ import { join } from 'node:path';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { StopError } from '../../src/errors.js';
 import { checkZip, formatBytes } from '../../src/read/zip-guard.js';
-import { buildZip, deflateZeros } from './make-zip.js';
+import { buildZip, deflateZeros } from '../helpers/zip.mjs';
 
 const MiB = 1024 * 1024;
 let dir: string;

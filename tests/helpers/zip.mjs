@@ -1,5 +1,6 @@
 /**
- * Test helper: build small zip archives byte by byte, including dishonest ones
+ * Test helper (plain JavaScript: tests/fixtures/broken/make-corpus.mjs runs under Node
+ * without a TypeScript step; zip.d.mts gives the types): build small zip archives byte by byte, including dishonest ones
  * (a central directory that states a size the data does not have).
  *
  * Layout per PKWARE APPNOTE.TXT §4.3 (local file header 4.3.7, central
@@ -7,19 +8,10 @@
  */
 import { createDeflateRaw, crc32, deflateRawSync } from 'node:zlib';
 
-export interface ZipEntrySpec {
-  name: string;
-  /** Unpacked content (ignored when `packed` is given). */
-  data?: Buffer;
-  /** Already deflated content, with its true unpacked size and CRC. */
-  packed?: { bytes: Buffer; size: number; crc: number };
-  /** Unpacked size to state in the headers instead of the true one. */
-  statedSize?: number;
-}
-
-export function buildZip(entries: readonly ZipEntrySpec[]): Buffer {
-  const locals: Buffer[] = [];
-  const centrals: Buffer[] = [];
+/** @param {readonly import('./zip.d.mts').ZipEntrySpec[]} entries */
+export function buildZip(entries) {
+  const locals = [];
+  const centrals = [];
   let offset = 0;
   for (const e of entries) {
     const name = Buffer.from(e.name, 'utf8');
@@ -72,12 +64,13 @@ export function buildZip(entries: readonly ZipEntrySpec[]): Buffer {
 }
 
 /** Deflate `bytes` zero bytes without holding them in memory. */
-export async function deflateZeros(bytes: number): Promise<{ bytes: Buffer; size: number; crc: number }> {
+/** @param {number} bytes */
+export async function deflateZeros(bytes) {
   const block = Buffer.alloc(1 << 20);
   const z = createDeflateRaw({ level: 9 });
-  const out: Buffer[] = [];
-  z.on('data', (b: Buffer) => out.push(b));
-  const done = new Promise<void>((resolve, reject) => {
+  const out = [];
+  z.on('data', (b) => out.push(b));
+  const done = new Promise((resolve, reject) => {
     z.on('end', resolve);
     z.on('error', reject);
   });
