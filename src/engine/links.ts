@@ -1,3 +1,4 @@
+import { groupBy, pushTo } from '../group.js';
 import type { SampleType } from '../columns/fields.js';
 
 /**
@@ -81,9 +82,7 @@ class RowIndex {
   add(analyte: string, id: string, row: number): void {
     let ids = this.byAnalyte.get(analyte);
     if (!ids) this.byAnalyte.set(analyte, (ids = new Map()));
-    const list = ids.get(id);
-    if (list) list.push(row);
-    else ids.set(id, [row]);
+    pushTo(ids, id, row);
   }
 
   rows(analyte: string, id: string): number[] | undefined {
@@ -102,12 +101,7 @@ class RowIndex {
     if (rows.length > FEW) {
       let m = this.byBatch.get(rows);
       if (!m) {
-        m = new Map();
-        for (const x of rows) {
-          const list = m.get(this.batchId[x]!);
-          if (list) list.push(x);
-          else m.set(this.batchId[x]!, [x]);
-        }
+        m = groupBy(rows, (x) => this.batchId[x]!);
         this.byBatch.set(rows, m);
       }
       sameBatch = m.get(batch!) ?? [];

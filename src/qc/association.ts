@@ -1,3 +1,4 @@
+import { pushTo } from '../group.js';
 import type { FlagCode } from '../issues.js';
 import { batchAnalyteKey, rowsByBatchAnalyte, type Finding, type QcContext } from './context.js';
 
@@ -65,9 +66,7 @@ export function associate(ctx: QcContext, judged: Omit<JudgedRows, 'batchSamples
       for (const t of rule.targets(ctx, r, j)) {
         // A sample with an input error has no result to qualify; its INPUT_ERROR says enough.
         if (ctx.input.rowError[t]) continue;
-        const list = sourcesOf.get(t);
-        if (list) list.push(r);
-        else sourcesOf.set(t, [r]);
+        pushTo(sourcesOf, t, r);
       }
     }
     for (const [row, sources] of sourcesOf) {

@@ -1,3 +1,4 @@
+import { pushTo } from '../group.js';
 import type { SampleType } from '../columns/fields.js';
 import { significant } from '../format.js';
 import { conversionFactor } from '../columns/units.js';
@@ -123,10 +124,7 @@ export function rowsByBatchAnalyte(ctx: QcContext, type: string): Map<string, nu
   const groups = new Map<string, number[]>();
   for (let r = 0; r < ctx.rowCount; r++) {
     if (ctx.type[r] !== type) continue;
-    const k = batchAnalyteKey(ctx, r);
-    const g = groups.get(k);
-    if (g) g.push(r);
-    else groups.set(k, [r]);
+    pushTo(groups, batchAnalyteKey(ctx, r), r);
   }
   return groups;
 }

@@ -1,3 +1,4 @@
+import { pushTo } from '../group.js';
 import { fmt, type Finding, type QcContext } from './context.js';
 import { dixonTest, grubbsTest } from './outliers.js';
 
@@ -30,10 +31,7 @@ export function findOutliers(ctx: QcContext): { outliers: Array<{ row: number; f
   const groups = new Map<string, number[]>();
   for (let r = 0; r < ctx.rowCount; r++) {
     if (ctx.input.rowError[r] || !ctx.type[r] || !Number.isFinite(ctx.recovery[r]!)) continue;
-    const k = [ctx.batch[r], ctx.analyte[r], ctx.type[r], ctx.qcLevel[r]!.toLowerCase()].join('\u0000');
-    const g = groups.get(k);
-    if (g) g.push(r);
-    else groups.set(k, [r]);
+    pushTo(groups, [ctx.batch[r], ctx.analyte[r], ctx.type[r], ctx.qcLevel[r]!.toLowerCase()].join('\u0000'), r);
   }
   const out: Array<{ row: number; finding: Finding }> = [];
   const undecided: Array<{ row: number; text: string }> = [];

@@ -9,6 +9,7 @@
  * Content-Security-Policy forbids loading anything. Every piece of worklist and
  * method text is escaped (markup.ts).
  */
+import { pushTo } from '../group.js';
 import { significant } from '../format.js';
 import { writeFile } from 'node:fs/promises';
 import { join } from 'node:path';
@@ -172,15 +173,10 @@ function batchIndex(result: RecalcResult): BatchIndex {
   if (known) return known;
   const ids = result.table.texts.get('batch_id');
   const batchOf = (r: number) => ids?.[r] ?? '';
-  const add = <T>(map: Map<string, T[]>, key: string, item: T) => {
-    const list = map.get(key);
-    if (list) list.push(item);
-    else map.set(key, [item]);
-  };
   const index: BatchIndex = { rows: new Map(), groups: new Map(), flags: new Map() };
-  for (let r = 0; r < result.rowsOut; r++) add(index.rows, batchOf(r), r);
-  for (const g of result.groups) add(index.groups, g.batch, g);
-  for (const f of result.flags) if (f.row >= 0 && f.row < result.rowsOut) add(index.flags, batchOf(f.row), f);
+  for (let r = 0; r < result.rowsOut; r++) pushTo(index.rows, batchOf(r), r);
+  for (const g of result.groups) pushTo(index.groups, g.batch, g);
+  for (const f of result.flags) if (f.row >= 0 && f.row < result.rowsOut) pushTo(index.flags, batchOf(f.row), f);
   batchIndexes.set(result, index);
   return index;
 }

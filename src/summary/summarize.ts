@@ -1,3 +1,4 @@
+import { pushTo } from '../group.js';
 import { SAMPLE_TYPES, type SampleType } from '../columns/fields.js';
 import { FAILING_CODES, type Flag, type FlagCode } from '../issues.js';
 import type { QcResult, QcStatus, RunRuleOutcome } from '../qc/assess.js';
@@ -97,7 +98,7 @@ export function summarize(input: SummaryInput): { groups: GroupSummary[]; overal
   const conc = input.computed.get('pre_extraction_conc') ?? nan;
 
   const rowsByGroup = new Map<string, number[]>();
-  for (let r = 0; r < n; r++) push(rowsByGroup, `${batch[r]}\u0000${analyte[r]}`, r);
+  for (let r = 0; r < n; r++) pushTo(rowsByGroup, `${batch[r]}\u0000${analyte[r]}`, r);
   const codesByRow = new Map<number, Set<FlagCode>>();
   for (const f of input.flags) {
     const s = codesByRow.get(f.row) ?? new Set<FlagCode>();
@@ -122,7 +123,7 @@ export function summarize(input: SummaryInput): { groups: GroupSummary[]; overal
     for (const r of rows) {
       const t = input.sampleType[r];
       if (!t || !Number.isFinite(recovery[r]!)) continue;
-      push(byType, `${t}\u0000${t === 'qc' ? level[r]!.toLowerCase() : ''}`, r);
+      pushTo(byType, `${t}\u0000${t === 'qc' ? level[r]!.toLowerCase() : ''}`, r);
     }
     const recoveries: RecoveryStats[] = [];
     for (const [k, rs] of byType) {
@@ -146,7 +147,7 @@ export function summarize(input: SummaryInput): { groups: GroupSummary[]; overal
     const byLevel = new Map<string, number[]>();
     for (const r of rows) {
       if (input.sampleType[r] !== 'qc' || input.rowError[r] || !Number.isFinite(conc[r]!)) continue;
-      push(byLevel, level[r]!.toLowerCase(), r);
+      pushTo(byLevel, level[r]!.toLowerCase(), r);
     }
     const precision: PrecisionStats[] = [...byLevel]
       .map(([lv, rs]) => {
@@ -172,7 +173,7 @@ export function summarize(input: SummaryInput): { groups: GroupSummary[]; overal
         tolerated.push(r);
         continue;
       }
-      for (const c of failingCodes(r)) push(byCode, c, r);
+      for (const c of failingCodes(r)) pushTo(byCode, c, r);
     }
     for (const [code, rs] of byCode) reasons.push(`${code}: ${rs.map(describe).join(', ')}`);
     const errorRows = rows.filter((r) => input.rowError[r]);
@@ -226,12 +227,6 @@ function analyteLabel(a: string): string {
 
 function byTypeThenLevel(x: RecoveryStats, y: RecoveryStats): number {
   return SAMPLE_TYPES.indexOf(x.type) - SAMPLE_TYPES.indexOf(y.type) || x.level.localeCompare(y.level);
-}
-
-function push<K>(m: Map<K, number[]>, k: K, v: number): void {
-  const list = m.get(k);
-  if (list) list.push(v);
-  else m.set(k, [v]);
 }
 
 export type { QcStatus };

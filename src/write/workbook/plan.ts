@@ -4,6 +4,7 @@
  * which is taken over the Results rows as they are written (or, in verify, as
  * they are stored), so it is planned last from that digest.
  */
+import { groupBy } from '../../group.js';
 import type { RecalcResult } from '../../pipeline.js';
 import type { CellValue, SheetPlan } from './cells.js';
 import { sha256Text } from './digest.js';
@@ -58,7 +59,8 @@ export function planWorkbook(result: RecalcResult, options: PlanOptions): Workbo
   const maxNotes = options.maxNotes ?? DEFAULT_MAX_NOTES;
   const formulas = options.formulas ?? result.rowsOut <= formulaRowLimit;
   const { refs } = planMethodSheet(result);
-  const results = planResultsSheet(result, { refs, formulas });
+  const flagsByRow = groupBy(result.flags, (f) => f.row);
+  const results = planResultsSheet(result, { refs, formulas, flagsByRow });
   const method = planMethodSheet(result, { formulaForms: results.formulaForms }).plan;
   const layout = results.layout;
   const sheetTextOfMethod = methodLines(result.method.text).map(sheetText).join(lineEndOf(lineEnds(result.method.text)));
@@ -68,7 +70,7 @@ export function planWorkbook(result: RecalcResult, options: PlanOptions): Workbo
     maxNotes,
     summary: planSummarySheet(result, { run: options.run, formulas, formulaRowLimit, maxNotes }),
     results,
-    qc: planQcSheet(result, { layout, live: true }),
+    qc: planQcSheet(result, { layout, live: true, flagsByRow }),
     flags: planFlagsSheet(result, { layout }),
     trends: planTrendsSheet(result, { history: options.history, minPoints: options.minPoints ?? MIN_POINTS }),
     method,

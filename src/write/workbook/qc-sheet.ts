@@ -19,17 +19,15 @@ const MARKS: Partial<Record<FlagCode, { column: 'recovery' | 'rpd' | 'result'; m
   BLANK_HIT: { column: 'result', mark: 'fail' },
 };
 
-export function planQcSheet(result: RecalcResult, options: { layout: ResultsLayout; live: boolean }): SheetPlan {
+export function planQcSheet(
+  result: RecalcResult,
+  options: { layout: ResultsLayout; live: boolean; /** result.flags by row (shared with the Results sheet). */ flagsByRow: ReadonlyMap<number, readonly Flag[]> },
+): SheetPlan {
   const { layout } = options;
   const { table, method } = result;
   const conc = method.units.concentration;
   const texts = table.texts;
-  const flagsByRow = new Map<number, Flag[]>();
-  for (const f of result.flags) {
-    const list = flagsByRow.get(f.row) ?? [];
-    list.push(f);
-    flagsByRow.set(f.row, list);
-  }
+  const { flagsByRow } = options;
 
   /** A live reference to a Results cell (empty stays empty), or the value. */
   const ref = (columnName: string, values: Float64Array | undefined, r: number, kind: 'as-used' | 'computed'): PlannedCell => {

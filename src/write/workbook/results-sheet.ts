@@ -19,6 +19,7 @@
  * form is written as its value with a note. Above a row limit (an option) the whole
  * sheet holds values only, and the Summary and Provenance sheets say so.
  */
+import { groupBy } from '../../group.js';
 import { createHash } from 'node:crypto';
 import { FIELD_SPECS, isCanonicalField, type CanonicalField } from '../../columns/fields.js';
 import { parseNumberCell } from '../../columns/numbers.js';
@@ -224,6 +225,8 @@ export interface ResultsOptions {
   refs: MethodRefs;
   /** Live formulas (true) or values only. */
   formulas: boolean;
+  /** result.flags by row (shared with the QC sheet). */
+  flagsByRow: ReadonlyMap<number, readonly Flag[]>;
 }
 
 export function planResultsSheet(result: RecalcResult, options: ResultsOptions): ResultsSheet {
@@ -286,18 +289,8 @@ export function planResultsSheet(result: RecalcResult, options: ResultsOptions):
   });
 
   // Marks and notes per row.
-  const flagsByRow = new Map<number, Flag[]>();
-  for (const f of result.flags) {
-    const list = flagsByRow.get(f.row);
-    if (list) list.push(f);
-    else flagsByRow.set(f.row, [f]);
-  }
-  const notesByRow = new Map<number, { column?: string; message: string }[]>();
-  for (const note of result.notes) {
-    const list = notesByRow.get(note.row);
-    if (list) list.push(note);
-    else notesByRow.set(note.row, [note]);
-  }
+  const { flagsByRow } = options;
+  const notesByRow = groupBy(result.notes, (note) => note.row);
   const targetColumn = (column: string | undefined): number => targetColumnOf(result, layout, column);
 
   // Display formats and widths.

@@ -16,6 +16,7 @@
  * series from the stored points, plans this sheet again and compares; the
  * integrity digest covers the points (digest.ts).
  */
+import { groupBy } from '../../group.js';
 import { basename } from 'node:path';
 import type { RecalcResult } from '../../pipeline.js';
 import type { TrendSeries } from '../../history/trends.js';
@@ -127,7 +128,7 @@ export function planTrendsSheet(result: RecalcResult, options: { history?: Trend
   b.title(POINTS_TITLE, 'section');
   const pointRows: (PlannedCell | CellValue)[][] = [];
   for (const s of series) {
-    const byPoint = violationsByPoint(s.violations);
+    const byPoint = groupBy(s.violations, (v) => v.index);
     s.points.forEach((p, i) => {
       const values: CellValue[] = [
         s.analyte,
@@ -184,16 +185,6 @@ function seriesRow(s: TrendSeries, at: { row: number; range: { first: number; la
     l.sufficient ? ruleCounts(s.violations) || 'none' : `no limits yet: ${l.n} of the points needed`,
     `rows ${at.range.first}–${at.range.last}`,
   ];
-}
-
-function violationsByPoint(violations: readonly WestgardViolation[]): Map<number, WestgardViolation[]> {
-  const out = new Map<number, WestgardViolation[]>();
-  for (const v of violations) {
-    const list = out.get(v.index);
-    if (list) list.push(v);
-    else out.set(v.index, [v]);
-  }
-  return out;
 }
 
 const ruleName = (v: WestgardViolation): string => (v.severity === 'warning' ? `${v.rule} (warning)` : v.rule);
