@@ -43,10 +43,8 @@ const CSP = "default-src 'none'; style-src 'unsafe-inline'; img-src data:; base-
 
 /** Batch ids in the order they first appear in the worklist. */
 export function reportBatches(result: RecalcResult): string[] {
-  const batch = result.table.texts.get('batch_id') ?? [];
-  const seen = new Set<string>();
-  for (let r = 0; r < result.rowsOut; r++) seen.add(batch[r] ?? '');
-  return seen.size ? [...seen] : [''];
+  const batches = [...batchIndex(result).rows.keys()];
+  return batches.length ? batches : [''];
 }
 
 /**

@@ -155,6 +155,8 @@ describe('report files', () => {
     const fake = {
       rowsOut: batches.length,
       table: { texts: new Map([['batch_id', batches]]) },
+      groups: [],
+      flags: [],
     } as unknown as RecalcResult;
     expect(htmlReportPaths(fake, { outDir: '', stem: 'w' }).map((p) => p.path)).toEqual(names);
   });
