@@ -18,6 +18,16 @@
 
 export type WestgardRule = '1-2s' | '1-3s' | '2-2s' | 'R-4s' | '4-1s' | '10-x';
 
+/** What breaks each rule, in words (as README's table says it). */
+export const WESTGARD_RULE_WORDS: Record<WestgardRule, string> = {
+  '1-2s': 'one point beyond mean ± 2s',
+  '1-3s': 'one point beyond mean ± 3s',
+  '2-2s': 'two points in a row beyond the same 2s limit',
+  'R-4s': 'within one batch of one run, one point beyond +2s and another beyond −2s',
+  '4-1s': 'four points in a row beyond the same 1s limit',
+  '10-x': 'ten points in a row on the same side of the mean',
+};
+
 export interface ControlPoint {
   value: number;
   batchId: string;

@@ -20,7 +20,7 @@ import { groupBy } from '../../group.js';
 import { basename } from 'node:path';
 import type { RecalcResult } from '../../pipeline.js';
 import type { TrendSeries } from '../../history/trends.js';
-import type { WestgardViolation } from '../../history/westgard.js';
+import { WESTGARD_RULE_WORDS, type WestgardViolation } from '../../history/westgard.js';
 import { SheetBuilder } from './builder.js';
 import { cell, columnLetter, type CellValue, type PlannedCell, type SheetPlan } from './cells.js';
 
@@ -189,17 +189,9 @@ function seriesRow(s: TrendSeries, at: { row: number; range: { first: number; la
 
 const ruleName = (v: WestgardViolation): string => (v.severity === 'warning' ? `${v.rule} (warning)` : v.rule);
 
-const RULE_WORDS: Record<WestgardViolation['rule'], string> = {
-  '1-2s': 'one point beyond mean ± 2s',
-  '1-3s': 'one point beyond mean ± 3s',
-  '2-2s': 'two points in a row beyond the same 2s limit',
-  'R-4s': 'within one batch of one run, one point beyond +2s and another beyond −2s',
-  '4-1s': 'four points in a row beyond the same 1s limit',
-  '10-x': 'ten points in a row on the same side of the mean',
-};
 
 function describeViolation(v: WestgardViolation): string {
-  return `${ruleName(v)}: ${RULE_WORDS[v.rule]}`;
+  return `${ruleName(v)}: ${WESTGARD_RULE_WORDS[v.rule]}`;
 }
 
 /** "1-2s (warning) ×2, 2-2s ×1", in the order the rules were first broken. */
