@@ -6,6 +6,7 @@
  * draft: write a first method from a worklist's headers, to stdout or --out
  * (never replacing a file without --force); a summary goes to stderr.
  */
+import { SCHEMA_URL } from '../method/schema-validator.js';
 import { writeFile } from 'node:fs/promises';
 import { dirname, relative, resolve, sep } from 'node:path';
 import { fileURLToPath } from 'node:url';
@@ -20,7 +21,7 @@ import { readWorklist } from '../read/worklist.js';
 import { writeFileAtomic } from '../write/atomic.js';
 
 
-const SCHEMA_PATH = fileURLToPath(new URL('../../templates/method.schema.json', import.meta.url));
+const SCHEMA_PATH = fileURLToPath(SCHEMA_URL);
 
 interface DraftCliOptions {
   out?: string;

@@ -1,6 +1,5 @@
-import AjvModule from 'ajv';
 import standaloneModule from 'ajv/dist/standalone/index.js';
-import { AJV_OPTIONS, schemaStamp } from './schema-validator.js';
+import { AJV_OPTIONS, loadAjv, schemaStamp } from './schema-validator.js';
 
 /**
  * Source of a CommonJS module that validates method files against `schemaText`
@@ -11,13 +10,12 @@ import { AJV_OPTIONS, schemaStamp } from './schema-validator.js';
  * (scripts/precompile-method-schema.mjs); the module requires ajv's small
  * run-time helpers from node_modules.
  */
-type AjvClass = typeof AjvModule.default;
-const Ajv: AjvClass = (AjvModule as unknown as { default?: AjvClass }).default ?? (AjvModule as unknown as AjvClass);
 type Standalone = typeof standaloneModule.default;
 const standaloneCode: Standalone =
   (standaloneModule as unknown as { default?: Standalone }).default ?? (standaloneModule as unknown as Standalone);
 
 export function validatorModuleSource(schemaText: string): string {
+  const Ajv = loadAjv();
   const ajv = new Ajv({ ...AJV_OPTIONS, code: { source: true } });
   const validate = ajv.compile(JSON.parse(schemaText) as object);
   const code = standaloneCode(ajv, validate);

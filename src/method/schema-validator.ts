@@ -27,7 +27,8 @@ export const AJV_OPTIONS = { allErrors: false, strict: false } as const;
 /** Name of the build's precompiled validator, next to this module in dist/method/. */
 export const PRECOMPILED_FILE = 'method-schema.validate.cjs';
 
-const SCHEMA_URL = new URL('../../templates/method.schema.json', import.meta.url);
+/** templates/method.schema.json. */
+export const SCHEMA_URL = new URL('../../templates/method.schema.json', import.meta.url);
 const PRECOMPILED_URL = new URL(`./${PRECOMPILED_FILE}`, import.meta.url);
 
 // Loaded when needed, from node_modules (the bundled CLI keeps these run-time loads).
@@ -63,9 +64,14 @@ export function precompiledValidator(file: string, options: { stamp: string }): 
 
 type AjvClass = typeof import('ajv').default;
 
+/** ajv's class, loaded from node_modules when first needed (its CommonJS export may or may not carry `default`). */
+export function loadAjv(): AjvClass {
+  const mod = loadCommonJs('ajv') as AjvClass & { default?: AjvClass };
+  return mod.default ?? mod;
+}
+
 /** Compile the schema with ajv now (the way without a build). */
 export function compileSchema(schemaText: string): SchemaValidator {
-  const mod = loadCommonJs('ajv') as AjvClass & { default?: AjvClass };
-  const Ajv = mod.default ?? mod;
+  const Ajv = loadAjv();
   return new Ajv({ ...AJV_OPTIONS }).compile(JSON.parse(schemaText) as object) as SchemaValidator;
 }
