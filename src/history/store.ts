@@ -12,6 +12,7 @@
  * - An empty file (0 bytes, or an SQLite file with no tables) becomes a new history.
  */
 import { existsSync } from 'node:fs';
+import { createRequire } from 'node:module';
 import { dirname } from 'node:path';
 import type { Database, Options } from 'better-sqlite3';
 import { StopError } from '../errors.js';
@@ -32,9 +33,11 @@ export interface RecordSummary {
 }
 
 export interface LoadOptions {
-  /** How to load the package (tests replace it); default `import('better-sqlite3')`. */
+  /** How to load the package (tests replace it); default: `require('better-sqlite3')`. */
   importer?: () => Promise<{ default: unknown }>;
 }
+
+const require = createRequire(import.meta.url);
 
 const MISSING_PACKAGE =
   'the QC history needs the optional package better-sqlite3 (version 12), which is not installed or could not load its native part; ' +
@@ -42,7 +45,9 @@ const MISSING_PACKAGE =
 
 /** The better-sqlite3 constructor, or a StopError saying how to install it. */
 export async function loadSqlite(options: LoadOptions = {}): Promise<SqliteConstructor> {
-  const importer = options.importer ?? (() => import('better-sqlite3'));
+  // required, not imported: the package is CommonJS, and the bundled command line runs as a
+  // script, in which a dynamic import() would need Node's experimental vm loader (scripts/cli-entry.mjs)
+  const importer = options.importer ?? (async () => ({ default: require('better-sqlite3') as unknown }));
   try {
     const mod = await importer();
     return mod.default as SqliteConstructor;

@@ -177,7 +177,7 @@ export function mergeLimitTables(base: LimitTable, override: LimitTable): LimitT
 
 /** µ (U+00B5) and μ (U+03BC) are the micro prefix; mathjs spells it u. */
 export function normaliseUnitText(unit: string): string {
-  return unit.trim().replace(/[µμ]/g, 'u').replace(/\s+/g, '');
+  return unit.trim().replace(/[\u00b5\u03bc]/g, 'u').replace(/\s+/g, '');
 }
 
 function resolveFormulaUnit(unit: string | undefined, units: Method['units']): string {

@@ -139,7 +139,7 @@ ${
   options.history
     ? html`<section id="history">
 <h2>Across runs: control charts</h2>
-<p class="note">Recoveries from the QC history in run order, this batch in dark marks. Lines: mean, ±2s (warning) and ±3s (control), from all points of the series once it has ${MIN_POINTS} or more (US EPA SW-846 Method 8000 practice). Rings mark points that broke a Westgard rule (Westgard et al., Clin. Chem. 1981).</p>
+<p class="note">Recoveries from the QC history in run order, this batch in dark marks. Lines: mean, &plusmn;2s (warning) and &plusmn;3s (control), from all points of the series once it has ${MIN_POINTS} or more (US EPA SW-846 Method 8000 practice). Rings mark points that broke a Westgard rule (Westgard et al., Clin. Chem. 1981).</p>
 ${historySections}
 </section>`
     : ''

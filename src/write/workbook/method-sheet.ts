@@ -29,7 +29,7 @@ export function inHouseApplied(result: RecalcResult): { analyte: string; type: s
   const seen = new Map<string, { analyte: string; type: string; low: number; high: number; n: number }>();
   const analyte = result.table.texts.get('analyte')!;
   result.qc.limits.forEach((lim, r) => {
-    const m = /in-house control limits \(mean ± 3s of (\d+) /.exec(lim?.origin ?? '');
+    const m = /in-house control limits \(mean \u00b1 3s of (\d+) /.exec(lim?.origin ?? '');
     if (!m || !lim.recovery) return;
     const type = result.table.sampleType[r]!;
     const key = `${analyte[r]!.trim().toLowerCase()}\u0000${type}`;
