@@ -154,7 +154,8 @@ export function asUsedPlanner(result: RecalcResult, ctx: AsUsedContext): AsUsedP
     plan: (r, R, live) => {
       const v = values[r]!;
       const value = Number.isFinite(v) ? v : null;
-      if (!live) return cell(value, { numFmt });
+      // A literal, not cell(): numbers need no sheetText, and this runs for every cell of the column.
+      if (!live) return { value, numFmt };
       const empty = whenEmpty(r, R);
       if (!src) {
         if (empty === 'text') return cell(value, { numFmt, mark: 'note', note: literalNote(`${ctx.inputLetter(logK!.column)}${R}`, ctx.inputValue(logK!.column, r)) });

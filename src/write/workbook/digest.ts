@@ -35,8 +35,63 @@ function canonical(v: CellValue | undefined): CellValue {
   return v === undefined || v === null || v === '' ? null : v;
 }
 
+/** "." and the zeros that pad an integer of `k` digits to 12 significant digits, by k. */
+const INTEGER_PADDING = Array.from({ length: 12 }, (_, k) => (k === 0 ? '' : `.${'0'.repeat(12 - k)}`));
+
+/**
+ * `x.toPrecision(12)`, with a short way for integers below 10^12 (most as-used
+ * values: volumes, counts), where V8's own is slow: all their digits are
+ * significant, so the text is the integer followed by zeros up to 12 digits.
+ */
+export function precision12(x: number): string {
+  if (Number.isInteger(x) && x > -1e12 && x < 1e12) {
+    const s = String(x); // "0" for -0, as toPrecision writes it
+    const digits = x < 0 ? s.length - 1 : s.length;
+    return digits === 12 ? s : s + INTEGER_PADDING[digits]!;
+  }
+  return x.toPrecision(12);
+}
+
+/** Most texts a column's cache holds. */
+const CACHE_LIMIT = 4096;
+
+/**
+ * precision12 per Results column, remembering the texts of the values a column
+ * repeats (pH, pKa, volumes: a few distinct values over many rows). Once its cache
+ * is full, a column that has missed more often than it has hit stops caching.
+ */
+class PrecisionTexts {
+  private readonly cache = new Map<number, string>();
+  private hits = 0;
+  private misses = 0;
+  private caching = true;
+
+  of(x: number): string {
+    if (!this.caching) return precision12(x);
+    const known = this.cache.get(x);
+    if (known !== undefined) {
+      this.hits++;
+      return known;
+    }
+    const text = precision12(x);
+    this.misses++;
+    if (this.cache.size < CACHE_LIMIT) this.cache.set(x, text);
+    else if (this.hits < this.misses) {
+      this.caching = false;
+      this.cache.clear();
+    }
+    return text;
+  }
+}
+
+/** Pending text is handed to the hash in pieces of about this many characters. */
+const PENDING_LIMIT = 1 << 16;
+
 export class IntegrityDigest {
   private readonly hash: Hash = createHash('sha256');
+  /** Results lines not yet hashed (one update per line would cost more than the hashing). */
+  private pending = '';
+  private readonly precision: PrecisionTexts[] = [];
 
   constructor() {
     this.hash.update(`${DIGEST_HEADER}\n`, 'utf8');
@@ -51,23 +106,40 @@ export class IntegrityDigest {
       const v = canonical(values[c]);
       if (c > 0) line += ',';
       // toPrecision's text is itself the rounding (and a JSON number): no round trip through a number.
-      line += v === null ? 'null' : typeof v === 'number' ? (approximate[c] === true ? v.toPrecision(12) : String(v)) : JSON.stringify(v);
+      line +=
+        v === null
+          ? 'null'
+          : typeof v === 'number'
+            ? approximate[c] === true
+              ? (this.precision[c] ??= new PrecisionTexts()).of(v)
+              : String(v)
+            : JSON.stringify(v);
     }
-    this.hash.update(`${line}]\n`, 'utf8');
+    this.pending += `${line}]\n`;
+    if (this.pending.length > PENDING_LIMIT) this.flush();
   }
 
   addMethod(textSha256: string, limits: readonly (readonly (CellValue | undefined)[])[]): void {
+    this.flush();
     this.hash.update(`method ${textSha256}\n`, 'utf8');
     for (const row of limits) this.hash.update(`${JSON.stringify(row.map((v) => canonical(v)))}\n`, 'utf8');
   }
 
   addTrends(rows: readonly (readonly (CellValue | undefined)[])[]): void {
+    this.flush();
     this.hash.update('trends\n', 'utf8');
     for (const row of rows) this.hash.update(`${JSON.stringify(row.map((v) => canonical(v)))}\n`, 'utf8');
   }
 
   hex(): string {
+    this.flush();
     return this.hash.digest('hex');
+  }
+
+  private flush(): void {
+    if (this.pending === '') return;
+    this.hash.update(this.pending, 'utf8');
+    this.pending = '';
   }
 }
 

@@ -29,15 +29,28 @@ export function planQcSheet(
   const texts = table.texts;
   const { flagsByRow } = options;
 
-  /** A live reference to a Results cell (empty stays empty), or the value. */
-  const ref = (columnName: string, values: Float64Array | undefined, r: number, kind: 'as-used' | 'computed'): PlannedCell => {
+  /** A live reference to a Results cell (empty stays empty) in the given display format, or the value. */
+  const ref = (columnName: string, kind: 'as-used' | 'computed', numFmt: string) => {
     const col = kind === 'as-used' ? layout.asUsed.get(columnName) : layout.computed.get(columnName);
-    const v = values?.[r];
-    const value = v !== undefined && Number.isFinite(v) ? v : null;
-    if (!col || !options.live) return cell(value);
-    const a = `${RESULTS_SHEET}!${col.letter}${r + 2}`;
-    return cell(value ?? '', { formula: `IF(${a}="","",${a})` });
+    const values = kind === 'as-used' ? table.numbers.get(columnName) : result.computed.get(columnName);
+    const sheetRef = col ? `${RESULTS_SHEET}!${col.letter}` : '';
+    // Literals, not cell(): the values are numbers or "", which need no sheetText.
+    return (r: number): PlannedCell => {
+      const v = values?.[r];
+      const value = v !== undefined && Number.isFinite(v) ? v : null;
+      if (!col || !options.live) return { value, numFmt };
+      const a = `${sheetRef}${r + 2}`;
+      return { value: value ?? '', formula: `IF(${a}="","",${a})`, numFmt };
+    };
   };
+  const spikeCell = ref('spike_conc', 'as-used', '0.0###');
+  const resultCell = ref('pre_extraction_conc', 'computed', '0.0###');
+  const recoveryCell = ref('spike_recovery_pct', 'computed', '0.0');
+  const rpdCell = ref('rpd_pct', 'computed', '0.0');
+  const sampleIds = texts.get('sample_id')!;
+  const analytes = texts.get('analyte')!;
+  const batches = texts.get('batch_id')!;
+  const qcLevels = texts.get('qc_level')!;
 
   const header = [
     'worklist row',
@@ -66,10 +79,10 @@ export function planQcSheet(
     const status = result.qc.status[r]!;
     const limits = result.qc.limits[r];
     const cells: Record<'spike' | 'result' | 'recovery' | 'rpd', PlannedCell> = {
-      spike: ref('spike_conc', table.numbers.get('spike_conc'), r, 'as-used'),
-      result: ref('pre_extraction_conc', result.computed.get('pre_extraction_conc'), r, 'computed'),
-      recovery: ref('spike_recovery_pct', result.computed.get('spike_recovery_pct'), r, 'computed'),
-      rpd: ref('rpd_pct', result.computed.get('rpd_pct'), r, 'computed'),
+      spike: spikeCell(r),
+      result: resultCell(r),
+      recovery: recoveryCell(r),
+      rpd: rpdCell(r),
     };
     for (const f of flagsByRow.get(r) ?? []) {
       const m = MARKS[f.code];
@@ -77,21 +90,21 @@ export function planQcSheet(
       const c = cells[m.column];
       cells[m.column] = { ...c, mark: c.mark === 'fail' ? 'fail' : m.mark, note: c.note ? `${c.note}\n${f.code}: ${f.message}` : `${f.code}: ${f.message}` };
     }
-    const sampleId = texts.get('sample_id')![r]!;
+    const sampleId = sampleIds[r]!;
     const values: (PlannedCell | CellValue)[] = [
       result.raw.rowNumbers[r]!,
       r + 2,
       sampleId,
-      texts.get('analyte')![r]! || null,
-      texts.get('batch_id')![r]! || null,
+      analytes[r]! || null,
+      batches[r]! || null,
       table.sampleType[r]! || null,
-      texts.get('qc_level')![r]! || null,
-      { ...cells.spike, numFmt: '0.0###' },
-      { ...cells.result, numFmt: '0.0###' },
-      { ...cells.recovery, numFmt: '0.0' },
+      qcLevels[r]! || null,
+      cells.spike,
+      cells.result,
+      cells.recovery,
       limits?.recovery?.[0] ?? null,
       limits?.recovery?.[1] ?? null,
-      { ...cells.rpd, numFmt: '0.0' },
+      cells.rpd,
       limits?.rpdMax ?? null,
       limits?.origin ?? null,
       result.rowFlags[r]! || null,

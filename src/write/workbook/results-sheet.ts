@@ -20,7 +20,7 @@
  * sheet holds values only, and the Summary and Provenance sheets say so.
  */
 import { groupBy } from '../../group.js';
-import { createHash } from 'node:crypto';
+import { hash } from 'node:crypto';
 import { FIELD_SPECS, isCanonicalField, type CanonicalField } from '../../columns/fields.js';
 import { parseNumberCell } from '../../columns/numbers.js';
 import { DERIVED_COLUMNS, compileMethod } from '../../engine/evaluate.js';
@@ -189,7 +189,8 @@ export function inputCellWriter(result: RecalcResult): (column: number, row: num
 
 /** First 16 hex digits of SHA-256 over the row's input cells as written (JSON). */
 export function rowCheck(values: readonly CellValue[]): string {
-  return createHash('sha256').update(JSON.stringify(values), 'utf8').digest('hex').slice(0, 16);
+  // One-shot hash: a Hash object per row costs more than the hashing.
+  return hash('sha256', JSON.stringify(values), 'hex').slice(0, 16);
 }
 
 // ---- formula templates ----------------------------------------------------------------------
@@ -235,7 +236,12 @@ export function planResultsSheet(result: RecalcResult, options: ResultsOptions):
   const { table, raw } = result;
   const n = result.rowsOut;
   const inputValue = inputCellWriter(result);
-  const inputValues = (r: number): CellValue[] => raw.headers.map((_, c) => inputValue(c, r));
+  const inputCount = raw.headers.length;
+  const inputValues = (r: number): CellValue[] => {
+    const values: CellValue[] = [];
+    for (let c = 0; c < inputCount; c++) values.push(inputValue(c, r));
+    return values;
+  };
   const inputLetter = (column: number) => columnLetter(column + 1);
 
   // Formula templates, per formula column and per (parent row?, pair row?).

@@ -39,7 +39,7 @@ type RowWriter = 'direct' | 'exceljs';
 
 /** The members of exceljs's streaming worksheet the direct row writer uses. */
 interface StreamingSheetInternals {
-  stream: { write(chunk: string): unknown };
+  stream: { write(chunk: string | Buffer): unknown };
   startedData: boolean;
   hasComments: boolean;
   _writeColumns(): void;
@@ -123,6 +123,7 @@ function forgetWrittenFormulas(ws: ExcelJS.Worksheet): void {
   if (w._formulae !== undefined) w._formulae = {};
 }
 
+/** Bytes of a sheet part handed to the zip at a time. */
 const CHUNK = 1 << 18;
 
 const yieldToEventLoop = (): Promise<void> => new Promise((resolve) => setImmediate(resolve));
@@ -180,8 +181,30 @@ async function writeSheet(
       }
       return id;
     };
+    // A cell's style id, remembered per column: the cells of a column mostly share one style.
+    const lastStyle: PlannedCell['style'][] = [];
+    const lastMark: PlannedCell['mark'][] = [];
+    const lastFmt: PlannedCell['numFmt'][] = [];
+    const lastId: number[] = [];
+    const cellStyleId = (j: number, c: PlannedCell): number => {
+      if (lastId[j] !== undefined && c.style === lastStyle[j] && c.mark === lastMark[j] && c.numFmt === lastFmt[j]) return lastId[j]!;
+      lastStyle[j] = c.style;
+      lastMark[j] = c.mark;
+      lastFmt[j] = c.numFmt;
+      return (lastId[j] = styleId(styleFor(c.style, c.mark, c.numFmt)));
+    };
+    // Rows go into the part as UTF-8 bytes, encoded row by row into a chunk: one long
+    // string of many rows would be flattened and encoded by the part stream at once,
+    // which costs more than the rows' own building.
+    let chunk = Buffer.allocUnsafe(CHUNK);
+    let used = 0;
+    const flush = async (): Promise<void> => {
+      sheet.stream.write(chunk.subarray(0, used));
+      chunk = Buffer.allocUnsafe(CHUNK);
+      used = 0;
+      await drained(sheet.stream);
+    };
     const letters: string[] = [];
-    let chunk = '';
     for (let i = 0; i < plan.rowCount; i++) {
       const p = plan.row(i);
       onRow?.(p, i);
@@ -193,24 +216,28 @@ async function writeSheet(
         const c = cells[j];
         if (!c) continue;
         const ref = `${(letters[j] ??= columnLetter(j + 1))}${r}`;
-        xml += cellXml(ref, c, styleId(styleFor(c.style, c.mark, c.numFmt)));
+        xml += cellXml(ref, c, cellStyleId(j, c));
         if (c.note !== undefined && budget.left > 0) {
           (comments ??= []).push(noteModel(ref, c.note));
           budget.left--;
         }
       }
-      if (xml) chunk += `<row r="${r}">${xml}</row>`;
       if (comments) {
         sheet.hasComments = true;
         sheet._sheetCommentsWriter.addComments(comments);
       }
-      if (chunk.length > CHUNK) {
-        sheet.stream.write(chunk);
-        chunk = '';
+      if (!xml) continue;
+      const text = `<row r="${r}">${xml}</row>`;
+      // A UTF-16 unit is at most 3 bytes of UTF-8.
+      if (used > 0 && used + text.length * 3 > CHUNK) await flush();
+      if (text.length * 3 > CHUNK) {
+        sheet.stream.write(Buffer.from(text, 'utf8'));
         await drained(sheet.stream);
+      } else {
+        used += chunk.write(text, used, 'utf8');
       }
     }
-    if (chunk) sheet.stream.write(chunk);
+    if (used > 0) sheet.stream.write(chunk.subarray(0, used));
     ws.commit();
     return;
   }
@@ -257,12 +284,18 @@ export async function writePlannedWorkbook(
   const budget: NoteBudget = { left: plan.maxNotes };
   const rowWriter = options.rowWriter ?? 'direct';
   const digest = new IntegrityDigest();
+  const values: CellValue[] = [];
 
   await writeSheet(wb, plan.summary, { budget, rowWriter });
   await writeSheet(wb, plan.results.plan, {
     budget,
     rowWriter,
-    onRow: (row) => digest.addResultsRow(row.cells.map((c) => c?.value ?? null), plan.approximate),
+    onRow: (row) => {
+      // One array for every row's values: the digest reads it before the next row.
+      values.length = row.cells.length;
+      for (let j = 0; j < values.length; j++) values[j] = row.cells[j]?.value ?? null;
+      digest.addResultsRow(values, plan.approximate);
+    },
   });
   await writeSheet(wb, plan.qc, { budget, rowWriter });
   await writeSheet(wb, plan.flags, { budget, rowWriter });
