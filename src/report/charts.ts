@@ -247,7 +247,10 @@ const MAX_VIEWS = 64;
  * Compile a Vega-Lite spec and render it to an SVG string (no xmlns: it is inlined
  * into HTML). Specs of the same shape are compiled once and drawn by one view
  * (`withoutValues`); tests check that the SVG is the same as compiling each spec
- * with its data inline (`reuse: false`).
+ * with its data inline (`reuse: false`). Not proven for all data: a view reused
+ * for charts of different analytes (tried, 2026-12-02) listed an axis's grid lines
+ * in another order than a fresh compile, the same drawing in other bytes; so the
+ * analyte's name, in the description, stays part of the shape.
  */
 export async function renderSvg(spec: TopLevelSpec, options: { reuse?: boolean } = {}): Promise<string> {
   libraries ??= Promise.all([import('vega'), import('vega-lite')]);
