@@ -247,10 +247,7 @@ const MAX_VIEWS = 64;
  * Compile a Vega-Lite spec and render it to an SVG string (no xmlns: it is inlined
  * into HTML). Specs of the same shape are compiled once and drawn by one view
  * (`withoutValues`); tests check that the SVG is the same as compiling each spec
- * with its data inline (`reuse: false`). Not proven for all data: a view reused
- * for charts of different analytes (tried, 2026-12-02) listed an axis's grid lines
- * in another order than a fresh compile, the same drawing in other bytes; so the
- * analyte's name, in the description, stays part of the shape.
+ * with its data inline (`reuse: false`), also over random recoveries and limits.
  */
 export async function renderSvg(spec: TopLevelSpec, options: { reuse?: boolean } = {}): Promise<string> {
   libraries ??= Promise.all([import('vega'), import('vega-lite')]);
@@ -276,6 +273,11 @@ export async function renderSvg(spec: TopLevelSpec, options: { reuse?: boolean }
   }
   const { view } = entry;
   const drawn = entry.queue.then(async () => {
+    // Empty the view first: items (axis ticks, grid lines) that outlive a data change
+    // would keep their place, and the SVG would list them in another order than a
+    // view drawing this chart alone does.
+    for (const name of datasets.keys()) view.data(name, []);
+    await view.runAsync();
     for (const [name, values] of datasets) view.data(name, values);
     // Lay the view out again for this chart's content (vega only does so on its own after a size change).
     view.resize();

@@ -47,6 +47,28 @@ describe('renderSvg reusing a compiled chart shape', () => {
     expect(svgs[3]).toBe(svgs[0]);
   });
 
+  it('draws 60 recovery charts of random recoveries and limits (some none) exactly as compiling each one does', async () => {
+    // A 32-bit linear congruential generator (Numerical Recipes' constants; common practice), so a failure repeats.
+    let seed = 20261202;
+    const random = () => (seed = (Math.imul(seed, 1664525) + 1013904223) >>> 0) / 2 ** 32;
+    const mismatches: number[] = [];
+    for (let i = 0; i < 60; i++) {
+      const low = 50 + Math.round(random() * 30);
+      const chart: RecoveryPoint[] = Array.from({ length: 4 }, (_, j) => ({
+        label: `C${j + 1}`,
+        sampleId: `S-${i}-${j}`,
+        sampleType: j % 2 ? 'lcs' : 'ms',
+        rowNumber: j + 2,
+        value: 20 + random() * 160,
+        low: random() < 0.2 ? Number.NaN : low,
+        high: low + 40 + Math.round(random() * 30),
+      }));
+      const spec = recoveryChartSpec(chart, { analyte: i % 3 ? 'Atrazine' : 'Simazine' });
+      if ((await renderSvg(spec)) !== (await renderSvg(spec, { reuse: false }))) mismatches.push(i);
+    }
+    expect(mismatches).toEqual([]);
+  });
+
   it('draws every control chart of the report scenario exactly as compiling each one does', async () => {
     expect(history.length).toBeGreaterThan(1);
     for (const s of history) {
