@@ -260,7 +260,10 @@ export async function renderSvg(spec: TopLevelSpec, options: { reuse?: boolean }
       view.finalize();
     }
   }
-  const { shape, datasets } = withoutValues(spec);
+  // The chart's description is the view's, not the drawing's (vega puts it on a page's
+  // container element, not in the SVG): charts differing only in it share one view.
+  const { description, ...drawing } = spec as TopLevelSpec & { description?: string };
+  const { shape, datasets } = withoutValues(drawing as TopLevelSpec);
   const key = JSON.stringify(shape);
   let entry = views.get(key);
   if (entry === undefined) {
@@ -278,6 +281,7 @@ export async function renderSvg(spec: TopLevelSpec, options: { reuse?: boolean }
     // view drawing this chart alone does.
     for (const name of datasets.keys()) view.data(name, []);
     await view.runAsync();
+    view.description(description ?? '');
     for (const [name, values] of datasets) view.data(name, values);
     // Lay the view out again for this chart's content (vega only does so on its own after a size change).
     view.resize();

@@ -35,10 +35,17 @@ function points(k: number): RecoveryPoint[] {
 }
 
 describe('renderSvg reusing a compiled chart shape', () => {
-  it('draws recovery charts of one shape with different data exactly as compiling each one does, growing or shrinking', async () => {
+  it('draws recovery charts of one shape with different data and analytes exactly as compiling each one does, growing or shrinking', async () => {
     const svgs: string[] = [];
-    for (const k of [0, 40, 5, 0]) {
-      const spec = recoveryChartSpec(points(k), { analyte: 'Atrazine' });
+    // Charts of different analytes differ only in their description, and share a view.
+    const charts = [
+      [0, 'Atrazine'],
+      [40, 'Simazine'],
+      [5, 'Atrazine'],
+      [0, '2,4-Dichlorophenol'],
+    ] as const;
+    for (const [k, analyte] of charts) {
+      const spec = recoveryChartSpec(points(k), { analyte });
       const reused = await renderSvg(spec);
       expect(reused).toBe(await renderSvg(spec, { reuse: false }));
       svgs.push(reused);
