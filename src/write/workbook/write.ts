@@ -14,7 +14,13 @@
  * API; when they are missing, each row goes through exceljs's own row writer.
  */
 import { once } from 'node:events';
-import ExcelJS from 'exceljs';
+import type ExcelJS from 'exceljs';
+// The streaming writer and the value types from their own files: the package's entry
+// also loads the workbook reader, the CSV parts and their dependencies, about half of
+// exceljs's load time, which a run that only writes does not need (exceljs 4.4.0,
+// pinned; its package has no exports map, so these paths are public to Node).
+import WorkbookWriter from 'exceljs/lib/stream/xlsx/workbook-writer.js';
+import enums from 'exceljs/lib/doc/enums.js';
 import { columnLetter, escapeForXlsx, sheetText, type CellValue, type PlannedCell, type PlannedRow, type SheetPlan } from './cells.js';
 import { IntegrityDigest } from './digest.js';
 import type { WorkbookPlan } from './plan.js';
@@ -176,7 +182,7 @@ async function writeSheet(
       if (!style) return 0;
       let id = styleIds.get(style);
       if (id === undefined) {
-        id = styles.addStyleModel(style, ExcelJS.ValueType.Number);
+        id = styles.addStyleModel(style, enums.ValueType.Number);
         styleIds.set(style, id);
       }
       return id;
@@ -275,7 +281,7 @@ export async function writePlannedWorkbook(
   plan: WorkbookPlan,
   options: { run: RunInfo; rowWriter?: RowWriter },
 ): Promise<void> {
-  const wb = new ExcelJS.stream.xlsx.WorkbookWriter({ filename: path, useStyles: true, useSharedStrings: false });
+  const wb = new WorkbookWriter({ filename: path, useStyles: true, useSharedStrings: false });
   const time = new Date(options.run.timestamp);
   wb.creator = `phasebook ${options.run.version}`;
   wb.lastModifiedBy = wb.creator;
