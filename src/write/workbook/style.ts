@@ -56,18 +56,22 @@ const MARK_FILL: Record<Mark, ExcelJS.Fill> = {
 /** A swatch style for the legend. */
 export const markFill = (mark: Mark): ExcelJS.Fill => MARK_FILL[mark];
 
-const cache = new Map<string, Partial<ExcelJS.Style>>();
+/** Styles by key, then mark, then number format: looked up for every cell, so no key text is built. */
+const cache = new Map<StyleKey | undefined, Map<Mark | undefined, Map<string | undefined, Partial<ExcelJS.Style>>>>();
 
 /** The shared exceljs style for a combination, or undefined for a plain cell. */
 export function styleFor(key: StyleKey | undefined, mark: Mark | undefined, numFmt: string | undefined): Partial<ExcelJS.Style> | undefined {
   if (key === undefined && mark === undefined && numFmt === undefined) return undefined;
-  const id = `${key ?? ''}|${mark ?? ''}|${numFmt ?? ''}`;
-  let style = cache.get(id);
+  let byMark = cache.get(key);
+  if (!byMark) cache.set(key, (byMark = new Map()));
+  let byFormat = byMark.get(mark);
+  if (!byFormat) byMark.set(mark, (byFormat = new Map()));
+  let style = byFormat.get(numFmt);
   if (!style) {
     style = { ...(key ? BASE[key] : {}) };
     if (mark) style.fill = MARK_FILL[mark];
     if (numFmt) style.numFmt = numFmt;
-    cache.set(id, style);
+    byFormat.set(numFmt, style);
   }
   return style;
 }

@@ -187,18 +187,6 @@ async function writeSheet(
       }
       return id;
     };
-    // A cell's style id, remembered per column: the cells of a column mostly share one style.
-    const lastStyle: PlannedCell['style'][] = [];
-    const lastMark: PlannedCell['mark'][] = [];
-    const lastFmt: PlannedCell['numFmt'][] = [];
-    const lastId: number[] = [];
-    const cellStyleId = (j: number, c: PlannedCell): number => {
-      if (lastId[j] !== undefined && c.style === lastStyle[j] && c.mark === lastMark[j] && c.numFmt === lastFmt[j]) return lastId[j]!;
-      lastStyle[j] = c.style;
-      lastMark[j] = c.mark;
-      lastFmt[j] = c.numFmt;
-      return (lastId[j] = styleId(styleFor(c.style, c.mark, c.numFmt)));
-    };
     // Rows go into the part as UTF-8 bytes, encoded row by row into a chunk: one long
     // string of many rows would be flattened and encoded by the part stream at once,
     // which costs more than the rows' own building.
@@ -222,7 +210,7 @@ async function writeSheet(
         const c = cells[j];
         if (!c) continue;
         const ref = `${(letters[j] ??= columnLetter(j + 1))}${r}`;
-        xml += cellXml(ref, c, cellStyleId(j, c));
+        xml += cellXml(ref, c, styleId(styleFor(c.style, c.mark, c.numFmt)));
         if (c.note !== undefined && budget.left > 0) {
           (comments ??= []).push(noteModel(ref, c.note));
           budget.left--;
