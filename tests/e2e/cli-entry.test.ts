@@ -4,12 +4,11 @@
  * faster: with a cache V8 refuses, a cache of another build or none, the same
  * run writes the same files.
  */
-import { spawnSync } from 'node:child_process';
 import { copyFileSync, mkdirSync, readFileSync, readdirSync, rmSync, symlinkSync, writeFileSync } from 'node:fs';
 import { join } from 'node:path';
 import vm from 'node:vm';
 import { afterAll, describe, expect, it } from 'vitest';
-import { ROOT, tempDir } from '../helpers/cli.js';
+import { ROOT, runCli, tempDir } from '../helpers/cli.js';
 
 const DIST = join(ROOT, 'dist');
 const BUNDLE = join(DIST, 'cli-bundle.js');
@@ -37,23 +36,9 @@ function installWithCache(name: string, cache: Buffer | undefined): string {
 /** The demo through an install; the results CSV and the process's exit and stderr. */
 function demo(root: string) {
   const out = join(work, `out-${root.split('/').pop()}`);
-  const r = spawnSync(
-    process.execPath,
-    [
-      join(root, 'dist', 'cli.js'),
-      'recalc',
-      join(ROOT, 'samples', 'kestrel-brook-2026-11.csv'),
-      '--method',
-      join(ROOT, 'templates', 'surface-water.yaml'),
-      '--out',
-      out,
-      '--outputs',
-      'csv',
-      '--quiet',
-    ],
-    { encoding: 'utf8', timeout: 120_000 },
-  );
-  return { code: r.status, stderr: r.stderr, csv: readFileSync(join(out, 'kestrel-brook-2026-11.results.csv'), 'utf8') };
+  const args = ['recalc', join(ROOT, 'samples', 'kestrel-brook-2026-11.csv'), '--method', join(ROOT, 'templates', 'surface-water.yaml')];
+  const r = runCli([...args, '--out', out, '--outputs', 'csv', '--quiet'], { cli: join(root, 'dist', 'cli.js') });
+  return { code: r.code, stderr: r.stderr, csv: readFileSync(join(out, 'kestrel-brook-2026-11.results.csv'), 'utf8') };
 }
 
 describe('the built entry and its code cache', () => {

@@ -6,10 +6,10 @@ import { join, resolve } from 'node:path';
 export const ROOT = resolve(import.meta.dirname, '../..');
 export const CLI = join(ROOT, 'dist/cli.js');
 
-/** Run the built CLI (npm test builds dist/ first). */
-export function runCli(args: string[], options: { cwd?: string; env?: NodeJS.ProcessEnv; input?: string } = {}) {
+/** Run the built CLI (npm test builds dist/ first); `cli` runs another copy of the entry. */
+export function runCli(args: string[], options: { cwd?: string; env?: NodeJS.ProcessEnv; input?: string; cli?: string } = {}) {
   if (!existsSync(CLI)) throw new Error('dist/cli.js is missing: run `npm run build` first (npm test does)');
-  const r = spawnSync(process.execPath, [CLI, ...args], {
+  const r = spawnSync(process.execPath, [options.cli ?? CLI, ...args], {
     cwd: options.cwd ?? ROOT,
     env: { ...process.env, ...options.env },
     input: options.input,
