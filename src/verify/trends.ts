@@ -17,6 +17,20 @@ export interface StoredTrends {
 }
 
 const POINT_VALUES = POINT_HEADERS.indexOf('recovery %') + 1;
+/** Where each field of a point is in a stored row (by the points table's header, as the sheet writes it). */
+const at = (header: (typeof POINT_HEADERS)[number]): number => POINT_HEADERS.indexOf(header);
+const FIELD = {
+  analyte: at('analyte'),
+  sampleType: at('sample type'),
+  runId: at('run'),
+  runTime: at('run time'),
+  worklistName: at('worklist'),
+  worklistSha256: at('worklist SHA-256'),
+  batchId: at('batch'),
+  sampleId: at('sample_id'),
+  rowNumber: at('worklist row'),
+  recoveryPct: at('recovery %'),
+};
 
 export function storedTrends(sheet: StoredSheet, options: { defaultMinPoints: number }): StoredTrends {
   let name: CellValue = null;
@@ -43,16 +57,16 @@ export function storedTrends(sheet: StoredSheet, options: { defaultMinPoints: nu
       const v = Array.from({ length: POINT_VALUES }, (_, i) => cells.get(i + 1)?.value ?? null);
       digestRows.push(v);
       rows.push({
-        analyte: text(v[0]),
-        sampleType: text(v[1]),
-        runId: number(v[3]),
-        runTime: text(v[4]),
-        worklistName: text(v[5]),
-        worklistSha256: text(v[6]),
-        batchId: text(v[7]),
-        sampleId: text(v[8]),
-        rowNumber: number(v[9]),
-        recoveryPct: number(v[10]),
+        analyte: text(v[FIELD.analyte]!),
+        sampleType: text(v[FIELD.sampleType]!),
+        runId: number(v[FIELD.runId]!),
+        runTime: text(v[FIELD.runTime]!),
+        worklistName: text(v[FIELD.worklistName]!),
+        worklistSha256: text(v[FIELD.worklistSha256]!),
+        batchId: text(v[FIELD.batchId]!),
+        sampleId: text(v[FIELD.sampleId]!),
+        rowNumber: number(v[FIELD.rowNumber]!),
+        recoveryPct: number(v[FIELD.recoveryPct]!),
       });
     }
   }
