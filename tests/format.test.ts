@@ -1,5 +1,5 @@
 import { describe, expect, it } from 'vitest';
-import { significant } from '../src/format.js';
+import { formatBytes, significant } from '../src/format.js';
 
 // Rounding to significant figures as ECMA-262 Number.prototype.toPrecision defines it.
 describe('numbers for people to read', () => {
@@ -16,5 +16,18 @@ describe('numbers for people to read', () => {
     [Infinity, 4, 'Infinity'],
   ])('%s to %i figures is %s', (x, digits, want) => {
     expect(significant(x, digits)).toBe(want);
+  });
+});
+
+describe('formatBytes', () => {
+  it.each([
+    [512, '512 bytes'],
+    [1536, '1.5 KiB'],
+    [2000, '2 KiB'],
+    [512 * 1024 * 1024, '512 MiB'],
+    [3 * 1024 * 1024 * 1024, '3 GiB'],
+  ])('%d → %s', (n, text) => {
+    // IEC binary prefixes (KiB = 1024 bytes): IEC 80000-13.
+    expect(formatBytes(n)).toBe(text);
   });
 });

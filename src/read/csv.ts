@@ -25,7 +25,7 @@ import { StopError, fsReason } from '../errors.js';
 import { rowMessage } from '../issues.js';
 import { ColumnBuilder, estimateRows } from './column-builder.js';
 import type { RawTable, RowProblem } from './types.js';
-import { formatBytes } from './zip-guard.js';
+import { formatBytes } from '../format.js';
 
 export type CsvDelimiter = ',' | ';' | '\t';
 

@@ -14,6 +14,7 @@ import { open } from 'node:fs/promises';
 import yauzl from 'yauzl';
 import type { Entry, ZipFile } from 'yauzl';
 import { StopError } from '../errors.js';
+import { formatBytes } from '../format.js';
 
 const MiB = 1024 * 1024;
 
@@ -104,19 +105,6 @@ export async function checkZip(path: string, options: ZipGuardOptions = {}): Pro
   } finally {
     zip.close();
   }
-}
-
-/** 1536 → "1.5 KiB"; used in messages only. */
-export function formatBytes(n: number): string {
-  if (n < 1024) return `${n} bytes`;
-  const units = ['KiB', 'MiB', 'GiB', 'TiB'];
-  let v = n / 1024;
-  let i = 0;
-  while (v >= 1024 && i < units.length - 1) {
-    v /= 1024;
-    i++;
-  }
-  return `${v.toFixed(1).replace(/\.0$/, '')} ${units[i]}`;
 }
 
 /** True when the file begins with a zip local-file signature "PK\x03\x04". */

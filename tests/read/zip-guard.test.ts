@@ -3,7 +3,7 @@ import { tmpdir } from 'node:os';
 import { join } from 'node:path';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { StopError } from '../../src/errors.js';
-import { checkZip, formatBytes } from '../../src/read/zip-guard.js';
+import { checkZip } from '../../src/read/zip-guard.js';
 import { buildZip, deflateZeros } from '../helpers/zip.mjs';
 
 const MiB = 1024 * 1024;
@@ -112,18 +112,5 @@ describe('checkZip refuses', () => {
     const p = await file('liar2.zip', buildZip([{ name: 'liar.bin', packed: { ...(await deflateZeros(2 * MiB)), size: 10 }, statedSize: 10 }]));
     await expect(checkZip(p, { verifyData: false })).resolves.toEqual({ entries: 1, unpackedBytes: 10 });
     await expect(checkZip(p)).rejects.toThrow(/unpacks to more than the 10 bytes it states/);
-  });
-});
-
-describe('formatBytes', () => {
-  it.each([
-    [512, '512 bytes'],
-    [1536, '1.5 KiB'],
-    [2000, '2 KiB'],
-    [512 * MiB, '512 MiB'],
-    [3 * 1024 * MiB, '3 GiB'],
-  ])('%d → %s', (n, text) => {
-    // IEC binary prefixes (KiB = 1024 bytes): IEC 80000-13.
-    expect(formatBytes(n)).toBe(text);
   });
 });
