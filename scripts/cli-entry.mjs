@@ -1,22 +1,9 @@
 #!/usr/bin/env node
-// The command line's entry, copied to dist/cli.js by scripts/bundle-cli.mjs.
-//
-// It runs the bundle dist/cli-bundle.js (the whole command line in one file)
-// through V8's code cache: dist/cli-bundle.cache holds the code V8 compiled
-// for the bundle during a run at build time, so a run skips parsing and
-// compiling most of the bundle again. The cache is used only when it was
-// made from this very bundle (the build id on the bundle's first line is also
-// the cache's first bytes) and V8 accepts it (same V8, same flags); otherwise
-// the bundle is compiled as usual. Either way the same code runs.
-import { readFileSync, renameSync, writeFileSync } from 'node:fs';
-import { createRequire } from 'node:module';
-import { dirname } from 'node:path';
-import { fileURLToPath } from 'node:url';
-import vm from 'node:vm';
-
-const BUNDLE = fileURLToPath(new URL('./cli-bundle.js', import.meta.url));
-const CACHE = fileURLToPath(new URL('./cli-bundle.cache', import.meta.url));
-const ID_LENGTH = 64;
+// The command line's entry, copied to dist/cli.js by scripts/bundle-cli.mjs:
+// it runs the bundle dist/cli-bundle.js (the whole command line but the chart
+// drawing, in one file) through V8's code cache (see bundle-loader.mjs).
+import { Worker } from 'node:worker_threads';
+import { runBundle } from './bundle-loader.js';
 
 // Node warns about `Buffer()` (DEP0005) only when the caller is outside
 // node_modules. Bundled dependency code is (exceljs's zip writer calls
@@ -28,34 +15,36 @@ process.emitWarning = function (warning, ...rest) {
   return emitWarning.call(this, warning, ...rest);
 };
 
-const source = readFileSync(BUNDLE, 'latin1'); // the build makes sure it is ASCII
-const buildId = source.slice(3, 3 + ID_LENGTH); // the first line is "// <id>"
-const cachedData = cacheFor(buildId);
-// The bundle holds no dynamic import(): a script would need Node's experimental
-// vm loader for it, which the code cache does not keep.
-const script = new vm.Script(source, { filename: BUNDLE, cachedData });
+// A recalc that writes the report has its charts drawn on a worker thread
+// (src/report/draw.ts). Started here, before the bundle loads, the worker is
+// ready when the first chart is asked for. The command line takes it over, or
+// ends it if its own reading of the arguments says no report is written; this
+// reading may be wrong either way and costs only time.
+const dist = new URL('./', import.meta.url).href;
+runBundle(dist, 'cli-bundle', { chartWorker: writesReport(process.argv.slice(2)) ? startChartWorker() : undefined });
 
-// At build time only: after the run, keep what V8 compiled (with the build id in front).
-const writeCacheTo = process.env.PHASEBOOK_WRITE_CODE_CACHE;
-if (writeCacheTo) {
-  process.on('exit', () => {
-    writeFileSync(`${writeCacheTo}.tmp`, Buffer.concat([Buffer.from(buildId, 'latin1'), script.createCachedData()]));
-    renameSync(`${writeCacheTo}.tmp`, writeCacheTo);
-  });
+/** Whether the arguments ask `recalc` for the report (the default outputs include it). */
+function writesReport(args) {
+  if (args[0] !== 'recalc') return false;
+  let outputs = 'html';
+  for (let i = 1; i < args.length && args[i] !== '--'; i++) {
+    if (args[i] === '--outputs') outputs = args[i + 1] ?? '';
+    else if (args[i].startsWith('--outputs=')) outputs = args[i].slice('--outputs='.length);
+  }
+  return outputs.split(',').some((kind) => kind.trim() === 'html');
 }
 
-// The bundle is CommonJS wrapped as Node wraps a module, plus the URL of dist/.
-const run = script.runInThisContext();
-const module = { exports: {} };
-run(module.exports, createRequire(BUNDLE), module, BUNDLE, dirname(BUNDLE), new URL('./', import.meta.url).href);
-
-/** The cached code made from the bundle with this build id, or undefined. */
-function cacheFor(id) {
-  let bytes;
+/** The chart worker, as src/report/chart-protocol.ts's EarlyChartWorker; its workerData is CHART_WORKER_DATA there. */
+function startChartWorker() {
+  let thread;
   try {
-    bytes = readFileSync(CACHE);
+    thread = new Worker(new URL('./chart-worker.js', dist), { workerData: 'phasebook-chart-worker' });
   } catch {
     return undefined;
   }
-  return bytes.length > ID_LENGTH && bytes.toString('latin1', 0, ID_LENGTH) === id ? bytes.subarray(ID_LENGTH) : undefined;
+  const early = { thread, exited: false };
+  thread.unref();
+  thread.on('error', () => undefined); // seen by the command line as the exit that follows
+  thread.on('exit', () => (early.exited = true));
+  return early;
 }

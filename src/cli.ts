@@ -21,6 +21,7 @@ import { VERSION } from './version.js';
 import { installInterruptCleanup } from './write/atomic.js';
 import { OUTPUT_KINDS, workbookDeclined, writeOutputs, type OutputKind } from './write/outputs.js';
 import { createProgress, type ProgressLine } from './progress.js';
+import { prepareChartWorker, stopChartWorker } from './report/draw.js';
 
 const debug = process.argv.includes('--debug');
 
@@ -98,9 +99,12 @@ interface RecalcCliOptions {
 async function runRecalc(worklist: string, opts: RecalcCliOptions): Promise<number> {
   // On a terminal, work over a second shows a progress line on stderr (progress.ts).
   const progress = createProgress({ quiet: opts.quiet });
+  // The report's charts are drawn on a second thread, which loads vega meanwhile (report/draw.ts).
+  prepareChartWorker((opts.outputs ?? OUTPUT_KINDS).includes('html'));
   try {
     return await recalcWithProgress(worklist, opts, progress);
   } finally {
+    stopChartWorker();
     progress?.finish();
   }
 }

@@ -19,7 +19,8 @@ import type { RecalcResult } from '../pipeline.js';
 import type { GroupSummary } from '../summary/summarize.js';
 import type { WriteJob } from '../write/atomic.js';
 import type { RunInfo } from '../write/workbook.js';
-import { CONTROL_LAYERS, RECOVERY_LAYERS, controlChartSpec, recoveryChartSpec, renderSvg, type RecoveryPoint } from './charts.js';
+import { CONTROL_LAYERS, RECOVERY_LAYERS, controlChartSpec, recoveryChartSpec, type RecoveryPoint } from './charts.js';
+import { drawChart } from './draw.js';
 import { html, trusted, type Markup } from './markup.js';
 import { REPORT_CSS } from './style.js';
 
@@ -65,12 +66,35 @@ export function htmlReportPaths(result: RecalcResult, options: { outDir: string;
   });
 }
 
-/** Write jobs for the reports, to join the other outputs in one all-or-nothing commit (write/atomic.ts). */
+/** Reports being made ahead of their turn to be written (see htmlReportJobs). */
+const REPORTS_AHEAD = 2;
+
+/**
+ * Write jobs for the reports, to join the other outputs in one all-or-nothing
+ * commit (write/atomic.ts). The first reports are begun at once, before any
+ * output is written, and each one written begins the next: with a chart worker
+ * (draw.ts) their charts are drawn while the CSV and the workbook are written.
+ * At most REPORTS_AHEAD + 1 reports are held in memory at a time.
+ */
 export function htmlReportJobs(result: RecalcResult, options: ReportJobOptions): WriteJob[] {
-  return htmlReportPaths(result, options).map(({ batch, path }) => ({
+  const paths = htmlReportPaths(result, options);
+  const made: Array<Promise<string> | undefined> = [];
+  const begin = (i: number) => {
+    if (i >= paths.length || made[i] !== undefined) return;
+    const report = renderReport(result, { batch: paths[i]!.batch, history: options.history, run: options.run });
+    report.catch(() => undefined); // awaited by its write; a run stopped before then must not see it as unhandled
+    made[i] = report;
+  };
+  for (let i = 0; i < REPORTS_AHEAD; i++) begin(i);
+  return paths.map(({ path }, i) => ({
     target: path,
     write: async (tmp: string) => {
-      await writeFile(tmp, await renderReport(result, { batch, history: options.history, run: options.run }), 'utf8');
+      begin(i);
+      const report = made[i]!;
+      begin(i + REPORTS_AHEAD);
+      const text = await report;
+      made[i] = undefined;
+      await writeFile(tmp, text, 'utf8');
     },
   }));
 }
@@ -87,12 +111,13 @@ export async function renderReport(result: RecalcResult, options: ReportOptions)
   const flags = index.flags.get(batch) ?? [];
   const title = batch ? `Batch ${batch}` : `Worklist ${result.worklist.name}`;
 
-  const recoverySections: Markup[] = [];
-  for (const analyte of analytes) recoverySections.push(await recoverySection(result, rows, analyte));
-  const historySections: Markup[] = [];
-  if (options.history) {
-    for (const analyte of analytes) historySections.push(await historySection(result, batch, options.history, analyte));
-  }
+  // Every chart of the report is asked for at once: a chart worker (draw.ts) draws
+  // them one after another while this thread goes on with other outputs.
+  const history = options.history;
+  const [recoverySections, historySections] = await Promise.all([
+    Promise.all(analytes.map((analyte) => recoverySection(result, rows, analyte))),
+    history ? Promise.all(analytes.map((analyte) => historySection(result, batch, history, analyte))) : [],
+  ]);
   const m = result.method;
 
   const doc = html`<!doctype html>
@@ -243,7 +268,7 @@ async function recoverySection(result: RecalcResult, rows: readonly number[], an
     });
   }
   if (points.length === 0) return html`<h3>${analyte}</h3><p class="note">No control recoveries for ${analyte} in this batch.</p>`;
-  const svg = await renderSvg(recoveryChartSpec(points, { analyte }));
+  const svg = await drawChart(recoveryChartSpec(points, { analyte }));
   const withLimits = points.filter((p) => Number.isFinite(p.low)).length;
   const outside = points.filter((p) => p.value < p.low || p.value > p.high).length;
   return html`<h3>${analyte}</h3>
@@ -256,22 +281,21 @@ ${trusted(svg)}
 async function historySection(result: RecalcResult, batch: string, history: readonly TrendSeries[], analyte: string): Promise<Markup> {
   const series = history.filter((s) => s.analyte === analyte);
   if (series.length === 0) return html`<h3>${analyte}</h3><p class="note">No recoveries of ${analyte} in the QC history.</p>`;
-  const parts: Markup[] = [];
-  for (const s of series) {
+  const parts = await Promise.all(series.map(async (s) => {
     const isCurrent = (i: number) => s.points[i]!.worklistSha256 === result.worklist.sha256 && s.points[i]!.batchId === batch;
-    const svg = await renderSvg(controlChartSpec(s, { isCurrent }));
+    const svg = await drawChart(controlChartSpec(s, { isCurrent }));
     const l = s.limits;
     const caption = l.sufficient
       ? `n ${l.n}, mean ${num(l.mean, 2)} %, SD ${num(l.sd, 2)} %; warning limits ${num(l.warningLow, 1)}–${num(l.warningHigh, 1)} %, control limits ${num(l.controlLow, 1)}–${num(l.controlHigh, 1)} %; ${s.violations.length} rule violation${s.violations.length === 1 ? '' : 's'}.`
       : `n ${l.n}${Number.isFinite(l.mean) ? `, mean ${num(l.mean, 2)} %` : ''}${Number.isFinite(l.sd) ? `, SD ${num(l.sd, 2)} %` : ''}; no in-house limits yet: ${MIN_POINTS} points needed, so no rule is judged.`;
     const marked = new Set(s.violations.map((v) => v.index)).size;
-    parts.push(html`<h3>${analyte}, ${s.sampleType}</h3>
+    return html`<h3>${analyte}, ${s.sampleType}</h3>
 <figure class="chart" data-chart="control" data-analyte="${analyte}" data-sample-type="${s.sampleType}" data-points="${s.points.length}" data-violations="${marked}" data-layer="${CONTROL_LAYERS.points}">
 ${trusted(svg)}
 <figcaption>${caption}</figcaption>
 </figure>
-${s.violations.length ? violationsTable(s, isCurrent) : ''}`);
-  }
+${s.violations.length ? violationsTable(s, isCurrent) : ''}`;
+  }));
   return html`${parts}`;
 }
 

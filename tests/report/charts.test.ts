@@ -8,7 +8,8 @@ import { tmpdir } from 'node:os';
 import { join } from 'node:path';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import type { TrendSeries } from '../../src/history/trends.js';
-import { controlChartSpec, recoveryChartSpec, renderSvg, type RecoveryPoint } from '../../src/report/charts.js';
+import { controlChartSpec, recoveryChartSpec, type RecoveryPoint } from '../../src/report/charts.js';
+import { renderSvg } from '../../src/report/svg.js';
 import { reportScenario } from './fixtures.js';
 
 let dir: string;
