@@ -15,9 +15,13 @@ import type { MathNode } from 'mathjs';
  *   hundred typed functions, most of the remaining start-up) as soon as a
  *   SymbolNode class is made, only to tell, when a tree is *evaluated*, whether
  *   a bare name is a unit. phasebook evaluates its own way (engine/formula.ts),
- *   so the parser instance has no units at all. Unit conversion factors
- *   (columns/units.ts) use the module's default instance, whose unit system is
- *   built the first time a conversion is needed.
+ *   so the parser instance has no units at all. Likewise `subset`, `size` and
+ *   `matrix`, which the accessor, index and assignment node classes use only
+ *   when mathjs itself evaluates a tree, are stand-ins there: building them
+ *   (matrices, equality, addition, ...) was two thirds of what making the
+ *   parser still cost. Unit conversion factors (columns/units.ts) use the
+ *   module's default instance, whose unit system is built the first time a
+ *   conversion is needed.
  * - Hardened as the mathjs security page advises
  *   (https://mathjs.org/docs/expressions/security.html): `parse` is captured
  *   first, then everything that defines, imports, parses or evaluates code is
@@ -57,8 +61,16 @@ function NoUnit(): never {
 }
 NoUnit.isValuelessUnit = (): boolean => false;
 
+/** What only evaluating a tree with mathjs needs: stand-ins in the parser instance, which only parses. */
+const EVALUATION_ONLY = ['subset', 'size', 'matrix'] as const;
+
 const parser = createInstance({ predictable: true });
 put(parser, 'Unit', NoUnit);
+for (const name of EVALUATION_ONLY) {
+  put(parser, name, () => {
+    throw new Error(`${name} is not available to the formula parser`);
+  });
+}
 const capturedParse = parser.parse;
 harden(parser);
 
