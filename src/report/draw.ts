@@ -79,14 +79,20 @@ export function prepareChartWorker(willDraw: boolean): void {
 }
 
 /**
- * Let the chart worker end once it has answered everything asked of it; the
- * process waits for it (a worker ending cleanly may still write its code cache,
- * see scripts/cli-entry.mjs). Charts drawn after this are drawn on this thread.
+ * End the chart worker. One that has drawn is let end once it has answered
+ * everything asked of it, and the process waits for it (a worker ending cleanly
+ * may still write its code cache, see scripts/bundle-loader.mjs); one that was
+ * never asked for a chart (a run stopped before its outputs) is ended at once.
+ * Charts drawn after this are drawn on this thread.
  */
 export function stopChartWorker(): void {
   const w = worker;
   worker = undefined;
   if (w === undefined || w.gone) return;
+  if (w.nextId === 0) {
+    void w.thread.terminate();
+    return;
+  }
   w.thread.postMessage({ close: true } satisfies ChartRequest);
   w.thread.ref();
 }
