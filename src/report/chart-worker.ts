@@ -3,8 +3,9 @@
  * so that loading vega and drawing a report's charts happen while the main
  * thread reads the worklist and writes the other outputs.
  *
- * It answers each `{ id, spec }` with `{ id, svg }` or `{ id, error }`, in the
- * order asked, and ends when told to close. Loaded as a plain module (the
+ * It answers each `{ id, spec }` with `{ id, svg }` or `{ id, error }` (charts
+ * of one shape in the order asked, others as they are done; draw.ts matches
+ * answers by id) and ends when told to close. Loaded as a plain module (the
  * in-thread way of drawing) it serves nothing: it only serves a worker started
  * with CHART_WORKER_DATA (chart-protocol.ts).
  */
