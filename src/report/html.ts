@@ -71,10 +71,9 @@ const REPORTS_AHEAD = 2;
 
 /**
  * Write jobs for the reports, to join the other outputs in one all-or-nothing
- * commit (write/atomic.ts). The first reports are begun at once, before any
- * output is written, and each one written begins the next: with a chart worker
- * (draw.ts) their charts are drawn while the CSV and the workbook are written.
- * At most REPORTS_AHEAD + 1 reports are held in memory at a time.
+ * commit (write/atomic.ts). A report's job begins it and the next REPORTS_AHEAD
+ * ones: with a chart worker (draw.ts) their charts are drawn while this one is
+ * assembled and written. At most REPORTS_AHEAD + 1 reports are held in memory.
  */
 export function htmlReportJobs(result: RecalcResult, options: ReportJobOptions): WriteJob[] {
   const paths = htmlReportPaths(result, options);
@@ -82,17 +81,14 @@ export function htmlReportJobs(result: RecalcResult, options: ReportJobOptions):
   const begin = (i: number) => {
     if (i >= paths.length || made[i] !== undefined) return;
     const report = renderReport(result, { batch: paths[i]!.batch, history: options.history, run: options.run });
-    report.catch(() => undefined); // awaited by its write; a run stopped before then must not see it as unhandled
+    report.catch(() => undefined); // awaited by its own job; a commit stopped before then must not see it as unhandled
     made[i] = report;
   };
-  for (let i = 0; i < REPORTS_AHEAD; i++) begin(i);
   return paths.map(({ path }, i) => ({
     target: path,
     write: async (tmp: string) => {
-      begin(i);
-      const report = made[i]!;
-      begin(i + REPORTS_AHEAD);
-      const text = await report;
+      for (let k = i; k <= i + REPORTS_AHEAD; k++) begin(k);
+      const text = await made[i]!;
       made[i] = undefined;
       await writeFile(tmp, text, 'utf8');
     },

@@ -3,16 +3,20 @@
  * flushed to disk (fsync) and renamed into place, so a reader never sees half a
  * file and an interrupted run leaves no new output (DESIGN.md §7).
  *
- * Temporary names: `.phasebook-tmp-<random>-<basename>` next to the target.
+ * Temporary names: `.phasebook-tmp-<random>/<basename>`, in a folder made for
+ * the commit next to the targets (one per target folder). A folder, not files:
+ * removing it on Ctrl-C also stops a writer whose file was still being created
+ * at that moment (its create then fails) from leaving that file behind.
  * When replacing (force) inside `commitAll`, the old file is first kept as a
  * hard link (or copy) `.phasebook-old-<random>-<basename>` so that a failed
  * rename later in the set can put it back; the backups are removed at the end.
  */
 import { randomBytes } from 'node:crypto';
-import { unlinkSync } from 'node:fs';
-import { copyFile, link, lstat, open, rename, unlink } from 'node:fs/promises';
+import { mkdtempSync, rmSync } from 'node:fs';
+import { copyFile, link, lstat, open, rename, rm, unlink } from 'node:fs/promises';
 import { basename, dirname, join } from 'node:path';
 import { StopError } from '../errors.js';
+import { pushTo } from '../group.js';
 
 export interface AtomicWriteOptions {
   /** Replace targets that already exist. Default false: an existing target stops the run. */
@@ -24,9 +28,16 @@ export interface WriteJob {
   target: string;
   /** Writes the whole output to `tmpPath` (a new file in the target's folder). */
   write: (tmpPath: string) => Promise<void>;
+  /**
+   * Jobs of one lane are written one after another, in their order; jobs of
+   * different lanes at the same time (default: one lane for all). The reports
+   * have a lane of their own: their charts are drawn on another thread, so they
+   * go on while the workbook is written.
+   */
+  lane?: string;
 }
 
-/** Temp and backup files alive right now; removed on SIGINT/SIGTERM or exit. */
+/** Temp folders and backup files alive right now; removed on SIGINT/SIGTERM or exit. */
 const live = new Set<string>();
 
 /** Write one output atomically: temp file, fsync, rename. */
@@ -75,24 +86,44 @@ export async function commitAll(jobs: readonly WriteJob[], options: AtomicWriteO
     });
   }
 
-  // 2. Write every temp file.
-  const temps: string[] = [];
-  const backups: (string | null)[] = [];
-  try {
-    for (const job of jobs) {
-      const tmp = siblingName(job.target, 'tmp');
-      live.add(tmp);
-      temps.push(tmp);
-      try {
-        await job.write(tmp);
-        await fsyncFile(tmp);
-      } catch (err) {
-        throw outputError(job.target, err);
-      }
+  // 2. Write every temp file: each lane's jobs in order, the lanes at the same time.
+  //    After a failure no lane begins another job; once all have stopped, the temps go.
+  const tempFolders = new Map<string, string>();
+  for (const target of targets) {
+    const folder = dirname(target);
+    if (tempFolders.has(folder)) continue;
+    try {
+      const made = mkdtempSync(join(folder, '.phasebook-tmp-'));
+      live.add(made);
+      tempFolders.set(folder, made);
+    } catch (err) {
+      await removeAll([...tempFolders.values()]);
+      throw outputError(target, err);
     }
-  } catch (err) {
-    await removeAll(temps);
-    throw err;
+  }
+  const temps = targets.map((target) => join(tempFolders.get(dirname(target))!, basename(target)));
+  const backups: (string | null)[] = [];
+  const lanes = new Map<string, number[]>();
+  jobs.forEach((job, i) => pushTo(lanes, job.lane ?? '', i));
+  let failed = false;
+  const settled = await Promise.allSettled(
+    [...lanes.values()].map(async (indexes) => {
+      for (const i of indexes) {
+        if (failed) return;
+        try {
+          await jobs[i]!.write(temps[i]!);
+          await fsyncFile(temps[i]!);
+        } catch (err) {
+          failed = true;
+          throw outputError(jobs[i]!.target, err);
+        }
+      }
+    }),
+  );
+  const failure = settled.find((r): r is PromiseRejectedResult => r.status === 'rejected');
+  if (failure) {
+    await removeAll([...tempFolders.values()]);
+    throw failure.reason;
   }
 
   // 3. Rename into place, keeping a backup of each replaced file until all are in.
@@ -105,7 +136,7 @@ export async function commitAll(jobs: readonly WriteJob[], options: AtomicWriteO
       const target = jobs[i]!.target;
       let backup: string | null = null;
       if (existed[i]) {
-        backup = siblingName(target, 'old');
+        backup = backupName(target);
         live.add(backup);
         backups.push(backup);
         try {
@@ -125,7 +156,6 @@ export async function commitAll(jobs: readonly WriteJob[], options: AtomicWriteO
       } catch (err) {
         throw outputError(target, err);
       }
-      live.delete(temps[i]!);
       done++;
     }
     if (deferredExit !== null) throw new Error('interrupted');
@@ -140,7 +170,7 @@ export async function commitAll(jobs: readonly WriteJob[], options: AtomicWriteO
         // Best effort: the error below is what the user needs to see.
       }
     }
-    await removeAll([...temps, ...backups.filter((b): b is string => b !== null)]);
+    await removeAll([...tempFolders.values(), ...backups.filter((b): b is string => b !== null)]);
     throw err;
   } finally {
     renaming--;
@@ -149,7 +179,7 @@ export async function commitAll(jobs: readonly WriteJob[], options: AtomicWriteO
       process.exit(deferredExit);
     }
   }
-  await removeAll(backups.filter((b): b is string => b !== null));
+  await removeAll([...tempFolders.values(), ...backups.filter((b): b is string => b !== null)]);
   await fsyncFolders(targets);
 }
 
@@ -185,25 +215,29 @@ export function installInterruptCleanup(): void {
   if (!process.listeners('exit').includes(removeLiveTempFiles)) process.on('exit', removeLiveTempFiles);
 }
 
-/** Delete every live temp and backup file now (synchronous: usable in signal and exit handlers). */
+/**
+ * Delete every live temp folder and backup file now (synchronous: usable in
+ * signal and exit handlers). A file a writer creates in a temp folder while it
+ * is being removed makes the removal try again.
+ */
 export function removeLiveTempFiles(): void {
-  for (const file of live) {
+  for (const path of live) {
     try {
-      unlinkSync(file);
+      rmSync(path, { recursive: true, force: true, maxRetries: 3, retryDelay: 10 });
     } catch {
-      // already gone
+      // Best effort: the process is stopping.
     }
-    live.delete(file);
+    live.delete(path);
   }
 }
 
-/** Paths of the temp and backup files alive right now (for tests and diagnostics). */
+/** Paths of the temp folders and backup files alive right now (for tests and diagnostics). */
 export function liveTempFiles(): string[] {
   return [...live];
 }
 
-function siblingName(target: string, kind: 'tmp' | 'old'): string {
-  return join(dirname(target), `.phasebook-${kind}-${randomBytes(6).toString('hex')}-${basename(target)}`);
+function backupName(target: string): string {
+  return join(dirname(target), `.phasebook-old-${randomBytes(6).toString('hex')}-${basename(target)}`);
 }
 
 async function fsyncFile(path: string): Promise<void> {
@@ -231,12 +265,13 @@ async function fsyncFolders(targets: readonly string[]): Promise<void> {
   }
 }
 
+/** Remove temp folders (with what is in them) and backup files. */
 async function removeAll(paths: readonly string[]): Promise<void> {
   for (const p of paths) {
     try {
-      await unlink(p);
+      await rm(p, { recursive: true, force: true, maxRetries: 3, retryDelay: 10 });
     } catch {
-      // already gone
+      // Best effort: the error the caller throws is what the user needs to see.
     }
     live.delete(p);
   }

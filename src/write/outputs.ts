@@ -101,7 +101,8 @@ export async function writeOutputs(result: RecalcResult, options: WriteOptions):
   if (workbook) written.xlsx = [paths.xlsx];
   if (kinds.includes('html')) {
     const html = htmlReportJobs(result, { outDir: options.outDir, stem: outputStem(result.worklist.path), history: options.history, run: options.run });
-    jobs.push(...html);
+    // In a lane of their own: written while the CSV and the workbook are (see WriteJob.lane).
+    jobs.push(...html.map((job) => ({ ...job, lane: 'reports' })));
     written.html = html.map((j) => j.target);
   }
   if (options.onProgress) {

@@ -4,7 +4,7 @@ import { tmpdir } from 'node:os';
 import { basename, dirname, join } from 'node:path';
 import { afterAll, afterEach, beforeEach, describe, expect, it, vi } from 'vitest';
 import { StopError } from '../../src/errors.js';
-import { commitAll, installInterruptCleanup, liveTempFiles, writeFileAtomic } from '../../src/write/atomic.js';
+import { commitAll, installInterruptCleanup, liveTempFiles, removeLiveTempFiles, writeFileAtomic } from '../../src/write/atomic.js';
 
 let root: string;
 let dir: string;
@@ -39,8 +39,10 @@ describe('writeFileAtomic', () => {
       seenTmp = tmp;
       await writeFile(tmp, 'a,b\n');
     });
-    expect(dirname(seenTmp)).toBe(dir);
-    expect(basename(seenTmp)).toMatch(/^\.phasebook-tmp-[0-9a-f]{12}-results\.csv$/);
+    // In a temp folder of the commit's own, next to the target.
+    expect(dirname(dirname(seenTmp))).toBe(dir);
+    expect(basename(dirname(seenTmp))).toMatch(/^\.phasebook-tmp-\w{6}$/);
+    expect(basename(seenTmp)).toBe('results.csv');
     expect(await readFile(target, 'utf8')).toBe('a,b\n');
     expect(await readdir(dir)).toEqual(['results.csv']);
     expect(liveTempFiles()).toEqual([]);
@@ -257,6 +259,108 @@ describe('installInterruptCleanup', () => {
     expect(exit).toHaveBeenCalledWith(code);
     expect(tmpSeen).not.toBe('');
     expect(existsSync(target)).toBe(false);
+    expect(await readdir(dir)).toEqual([]);
+    expect(liveTempFiles()).toEqual([]);
+  });
+});
+
+describe('commitAll lanes', () => {
+  /**
+   * A promise and its resolve, for a job to wait on a job of another lane. The wait
+   * fails after 5 s: were the lanes written one after another, it would never end.
+   */
+  function gate() {
+    let open!: () => void;
+    const opened = new Promise<void>((resolve) => (open = resolve));
+    const timeout = (): Promise<never> =>
+      new Promise((_, reject) => setTimeout(() => reject(new Error('the lanes were written one after another')), 5000).unref());
+    return { open, opened: () => Promise.race([opened, timeout()]) };
+  }
+
+  it('writes the jobs of different lanes at the same time, and each lane in its order', async () => {
+    const events: string[] = [];
+    const reportStarted = gate();
+    const job = (name: string, lane: string | undefined, before?: () => Promise<void>, after?: () => void) => ({
+      target: join(dir, name),
+      lane,
+      write: async (tmp: string) => {
+        events.push(`start ${name}`);
+        after?.();
+        // The workbook waits for a report that only a lane of its own can have begun.
+        await before?.();
+        await writeFile(tmp, name);
+        events.push(`end ${name}`);
+      },
+    });
+    await commitAll([
+      job('a.csv', undefined),
+      job('a.xlsx', undefined, reportStarted.opened),
+      job('a.1.report.html', 'reports', undefined, reportStarted.open),
+      job('a.2.report.html', 'reports'),
+    ]);
+    expect((await readdir(dir)).sort()).toEqual(['a.1.report.html', 'a.2.report.html', 'a.csv', 'a.xlsx']);
+    expect(await readFile(join(dir, 'a.2.report.html'), 'utf8')).toBe('a.2.report.html');
+    // Within a lane, a job begins when the one before it has ended.
+    const at = (e: string) => events.indexOf(e);
+    expect(at('end a.csv')).toBeLessThan(at('start a.xlsx'));
+    expect(at('end a.1.report.html')).toBeLessThan(at('start a.2.report.html'));
+    expect(at('start a.1.report.html')).toBeLessThan(at('end a.xlsx'));
+    expect(liveTempFiles()).toEqual([]);
+  });
+
+  it('after a failure in one lane no lane begins another job, and none of the new files is left', async () => {
+    const started: string[] = [];
+    const failNow = gate();
+    const failing = gate();
+    const err = await stopOf(
+      commitAll([
+        {
+          target: join(dir, 'a.xlsx'),
+          write: async (tmp) => {
+            started.push('a.xlsx');
+            await failNow.opened();
+            await writeFile(tmp, 'half');
+            failing.open();
+            throw Object.assign(new Error('ENOSPC'), { code: 'ENOSPC' });
+          },
+        },
+        { target: join(dir, 'b.csv'), write: async (tmp) => (started.push('b.csv'), writeFile(tmp, 'b')) },
+        {
+          target: join(dir, 'a.1.report.html'),
+          lane: 'reports',
+          write: async (tmp) => {
+            started.push('a.1.report.html');
+            await writeFile(tmp, 'r1');
+            failNow.open();
+            await failing.opened();
+            await new Promise((r) => setImmediate(r)); // the workbook's failure is seen before this job ends
+          },
+        },
+        { target: join(dir, 'a.2.report.html'), lane: 'reports', write: async (tmp) => (started.push('a.2.report.html'), writeFile(tmp, 'r2')) },
+      ]),
+    );
+    expect(err.describe()).toBe(`${join(dir, 'a.xlsx')}: cannot be written: the disk is full`);
+    expect(started).toEqual(['a.xlsx', 'a.1.report.html']);
+    expect(await readdir(dir)).toEqual([]);
+    expect(liveTempFiles()).toEqual([]);
+  });
+});
+
+describe('commitAll and a file created after Ctrl-C removed the temps', () => {
+  it('cannot leave that file behind: it would be created in the removed temp folder, which fails', async () => {
+    // What the signal handler does, while a writer (say, a stream whose open was still queued) has yet to create its file.
+    const err = await stopOf(
+      commitAll([
+        {
+          target: join(dir, 'late.csv'),
+          write: async (tmp) => {
+            removeLiveTempFiles();
+            await writeFile(tmp, 'late');
+          },
+        },
+      ]),
+    );
+    expect(err.describe()).toMatch(/late\.csv: cannot be written: the folder .* does not exist$/);
     expect(await readdir(dir)).toEqual([]);
     expect(liveTempFiles()).toEqual([]);
   });
