@@ -79,7 +79,9 @@ export function prepareChartWorker(willDraw: boolean): void {
 }
 
 /**
- * End the chart worker. One that has drawn is let end once it has answered
+ * End the chart worker: after a run's last report (write/outputs.ts), so that
+ * it ends while the other outputs are still being written, and at the end of
+ * the run (cli.ts). One that has drawn is let end once it has answered
  * everything asked of it, and the process waits for it (a worker ending cleanly
  * may still write its code cache, see scripts/bundle-loader.mjs); one that was
  * never asked for a chart (a run stopped before its outputs) is ended at once.
