@@ -46,7 +46,7 @@ const MISSING_PACKAGE =
 /** The better-sqlite3 constructor, or a StopError saying how to install it. */
 export async function loadSqlite(options: LoadOptions = {}): Promise<SqliteConstructor> {
   // required, not imported: the package is CommonJS, and the bundled command line runs as a
-  // script, in which a dynamic import() would need Node's experimental vm loader (scripts/cli-entry.mjs)
+  // script, in which a dynamic import() would need Node's experimental vm loader (scripts/bundle-loader.mjs)
   const importer = options.importer ?? (async () => ({ default: require('better-sqlite3') as unknown }));
   try {
     const mod = await importer();

@@ -44,7 +44,10 @@ export function prepareChartWorker(willDraw: boolean): void {
     void early?.thread.terminate();
     return;
   }
-  if (worker !== undefined) return;
+  if (worker !== undefined) {
+    void early?.thread.terminate(); // one is running already
+    return;
+  }
   let thread: Worker;
   if (early !== undefined) {
     if (early.exited) return; // it failed to start: draw here
@@ -79,13 +82,11 @@ export function prepareChartWorker(willDraw: boolean): void {
 }
 
 /**
- * End the chart worker: after a run's last report (write/outputs.ts), so that
- * it ends while the other outputs are still being written, and at the end of
- * the run (cli.ts). One that has drawn is let end once it has answered
- * everything asked of it, and the process waits for it (a worker ending cleanly
- * may still write its code cache, see scripts/bundle-loader.mjs); one that was
- * never asked for a chart (a run stopped before its outputs) is ended at once.
- * Charts drawn after this are drawn on this thread.
+ * End the chart worker at the end of a run. One that has drawn is let end once
+ * it has answered everything asked of it, and the process waits for it (a worker
+ * ending cleanly may still write its code cache, see scripts/bundle-loader.mjs);
+ * one that was never asked for a chart (a run stopped before its outputs) is
+ * ended at once. Charts drawn after this are drawn on this thread.
  */
 export function stopChartWorker(): void {
   const w = worker;

@@ -7,7 +7,6 @@ import { writeResultsCsv } from './csv.js';
 import { outputColumns } from './output-columns.js';
 import type { RunInfo } from './workbook.js';
 import { htmlReportJobs } from '../report/html.js';
-import { stopChartWorker } from '../report/draw.js';
 import type { TrendSeries } from '../history/trends.js';
 import type { OnProgress } from '../progress.js';
 
@@ -103,21 +102,7 @@ export async function writeOutputs(result: RecalcResult, options: WriteOptions):
   if (kinds.includes('html')) {
     const html = htmlReportJobs(result, { outDir: options.outDir, stem: outputStem(result.worklist.path), history: options.history, run: options.run });
     // In a lane of their own: written while the CSV and the workbook are (see WriteJob.lane).
-    // The last report is the chart worker's last work: it is let end then, while the rest is written.
-    const last = html.length - 1;
-    jobs.push(
-      ...html.map((job, i) => ({
-        ...job,
-        lane: 'reports',
-        write:
-          i === last
-            ? async (tmp: string) => {
-                await job.write(tmp);
-                stopChartWorker();
-              }
-            : job.write,
-      })),
-    );
+    jobs.push(...html.map((job) => ({ ...job, lane: 'reports' })));
     written.html = html.map((j) => j.target);
   }
   if (options.onProgress) {
