@@ -10,7 +10,7 @@ import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import type { TrendSeries } from '../../src/history/trends.js';
 import { controlChartSpec, recoveryChartSpec, type RecoveryPoint } from '../../src/report/charts.js';
 import { renderSvg } from '../../src/report/svg.js';
-import { reportScenario } from './fixtures.js';
+import { inventedRecoveries, reportScenario } from './fixtures.js';
 
 let dir: string;
 let history: TrendSeries[];
@@ -22,18 +22,8 @@ beforeAll(async () => {
 
 afterAll(() => rmSync(dir, { recursive: true, force: true }));
 
-/** Invented recoveries: six controls, the last without limits, shifted by `k` (long labels from k 20 on). */
-function points(k: number): RecoveryPoint[] {
-  return Array.from({ length: 6 }, (_, i) => ({
-    label: k >= 20 ? `control sample number ${i + 1}` : `C${i + 1}`,
-    sampleId: `S-${k}-${i}`,
-    sampleType: i % 2 ? 'lcs' : 'ms',
-    rowNumber: i + 2,
-    value: 62 + 11 * i + k,
-    low: i === 5 ? Number.NaN : 70,
-    high: i === 5 ? Number.NaN : 130,
-  }));
-}
+/** Six invented controls shifted by `k`, with long labels from k 20 on. */
+const points = (k: number): RecoveryPoint[] => inventedRecoveries(6, k, { longLabels: k >= 20 });
 
 describe('renderSvg reusing a compiled chart shape', () => {
   it('draws recovery charts of one shape with different data and analytes exactly as compiling each one does, growing or shrinking', async () => {

@@ -10,9 +10,9 @@ import { join } from 'node:path';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import type { TopLevelSpec } from 'vega-lite';
 import type { TrendSeries } from '../../src/history/trends.js';
-import { controlChartSpec, recoveryChartSpec, type RecoveryPoint } from '../../src/report/charts.js';
+import { controlChartSpec, recoveryChartSpec } from '../../src/report/charts.js';
 import { renderSvg } from '../../src/report/svg.js';
-import { reportScenario } from './fixtures.js';
+import { inventedRecoveries, reportScenario } from './fixtures.js';
 
 type Draw = typeof import('../../src/report/draw.js');
 let draw: Draw;
@@ -30,28 +30,15 @@ afterAll(() => {
   rmSync(dir, { recursive: true, force: true });
 });
 
-/** Invented recoveries of `n` controls, the last without limits. */
-function points(n: number, shift: number): RecoveryPoint[] {
-  return Array.from({ length: n }, (_, i) => ({
-    label: `C${i + 1}`,
-    sampleId: `S-${shift}-${i}`,
-    sampleType: i % 2 ? 'lcs' : 'ms',
-    rowNumber: i + 2,
-    value: 55 + 9 * i + shift,
-    low: i === n - 1 ? Number.NaN : 70,
-    high: i === n - 1 ? Number.NaN : 130,
-  }));
-}
-
 describe('drawing charts on the chart worker', () => {
   it('draws recovery and control charts exactly as drawing them on this thread does, asked for all at once', async () => {
     draw.prepareChartWorker(true);
     const specs: TopLevelSpec[] = [
       // Up to six controls: the shape the worker warms up with; then wider charts.
-      recoveryChartSpec(points(3, 0), { analyte: 'Atrazine' }),
-      recoveryChartSpec(points(6, 4), { analyte: 'Simazine' }),
-      recoveryChartSpec(points(9, 2), { analyte: 'Atrazine' }),
-      recoveryChartSpec(points(25, 7), { analyte: 'Atrazine' }),
+      recoveryChartSpec(inventedRecoveries(3, 0), { analyte: 'Atrazine' }),
+      recoveryChartSpec(inventedRecoveries(6, 4), { analyte: 'Simazine' }),
+      recoveryChartSpec(inventedRecoveries(9, 2), { analyte: 'Atrazine' }),
+      recoveryChartSpec(inventedRecoveries(25, 7), { analyte: 'Atrazine' }),
       ...history.map((s) => controlChartSpec(s, { isCurrent: (i) => i === s.points.length - 1 })),
     ];
     expect(history.length).toBeGreaterThan(1);
@@ -74,7 +61,7 @@ describe('drawing charts on the chart worker', () => {
     expect(here).not.toBe('drawn');
     await expect(draw.drawChart(bad)).rejects.toThrow(here);
     // The worker goes on drawing after an error.
-    const good = recoveryChartSpec(points(4, 1), { analyte: 'Atrazine' });
+    const good = recoveryChartSpec(inventedRecoveries(4, 1), { analyte: 'Atrazine' });
     expect(await draw.drawChart(good)).toBe(await renderSvg(good, { reuse: false }));
     expect(draw.chartWorkerRunning()).toBe(true);
   });
@@ -82,7 +69,7 @@ describe('drawing charts on the chart worker', () => {
   it('draws on this thread after the worker is stopped', async () => {
     draw.stopChartWorker();
     expect(draw.chartWorkerRunning()).toBe(false);
-    const spec = recoveryChartSpec(points(5, 3), { analyte: 'Simazine' });
+    const spec = recoveryChartSpec(inventedRecoveries(5, 3), { analyte: 'Simazine' });
     expect(await draw.drawChart(spec)).toBe(await renderSvg(spec, { reuse: false }));
   });
 });

@@ -11,6 +11,7 @@ import { join, resolve } from 'node:path';
 import { recordRun } from '../../src/history/store.js';
 import { trendsIncludingRun, type TrendSeries } from '../../src/history/trends.js';
 import { recalculate, type RecalcResult } from '../../src/pipeline.js';
+import type { RecoveryPoint } from '../../src/report/charts.js';
 
 export const GENERIC_METHOD = resolve('templates/generic-lle.yaml');
 
@@ -96,4 +97,20 @@ export async function reportScenario(dir: string): Promise<{ current: RecalcResu
   const current = await recalcRows(dir, 'current.csv', rows);
   const history = await trendsIncludingRun(historyFile, current, { run: REPORT_RUN });
   return { current, history, historyFile };
+}
+
+/**
+ * Invented control recoveries for chart tests: `count` controls, the last without
+ * limits, values moved by `shift`; with `longLabels`, labels long enough to be cut.
+ */
+export function inventedRecoveries(count: number, shift: number, options: { longLabels?: boolean } = {}): RecoveryPoint[] {
+  return Array.from({ length: count }, (_, i) => ({
+    label: options.longLabels ? `control sample number ${i + 1}` : `C${i + 1}`,
+    sampleId: `S-${shift}-${i}`,
+    sampleType: i % 2 ? 'lcs' : 'ms',
+    rowNumber: i + 2,
+    value: 62 + 11 * i + shift,
+    low: i === count - 1 ? Number.NaN : 70,
+    high: i === count - 1 ? Number.NaN : 130,
+  }));
 }
