@@ -70,7 +70,7 @@ export function registerMethodCommand(program: Command, io: CommandIo): Command 
       // The draft must load and compile; a failure here is a fault of the drafter, not of the worklist.
       compileMethod(parseMethod(draft.text, { file: opts.out ?? '(draft)' }));
       if (target) {
-        await writeFileAtomic(target, (tmp) => writeFile(tmp, draft.text, 'utf8'), { force: opts.force });
+        await writeFileAtomic(target, (tmp) => writeFile(tmp, draft.text, 'utf8'), { force: opts.force, inputs: [{ path: worklist, role: 'the worklist' }] });
       } else {
         stdout(draft.text);
       }

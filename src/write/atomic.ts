@@ -13,7 +13,7 @@
  */
 import { randomBytes } from 'node:crypto';
 import { mkdtempSync, rmSync } from 'node:fs';
-import { copyFile, link, lstat, open, rename, rm, unlink } from 'node:fs/promises';
+import { copyFile, link, lstat, open, realpath, rename, rm, stat, unlink } from 'node:fs/promises';
 import { basename, dirname, join } from 'node:path';
 import { StopError } from '../errors.js';
 import { pushTo } from '../group.js';
@@ -21,6 +21,19 @@ import { pushTo } from '../group.js';
 export interface AtomicWriteOptions {
   /** Replace targets that already exist. Default false: an existing target stops the run. */
   force?: boolean;
+  /**
+   * Files the run reads (worklist, method, history). A target that is one of them
+   * (the same real path, or the same file by device and inode: a link, another
+   * spelling of the path) stops the run before anything is written, with or
+   * without `force`: an input is never replaced.
+   */
+  inputs?: readonly InputFile[];
+}
+
+/** A file the run reads, with what it is in words ("the worklist"). */
+export interface InputFile {
+  path: string;
+  role: string;
 }
 
 export interface WriteJob {
@@ -35,6 +48,45 @@ export interface WriteJob {
    * go on while the workbook is written.
    */
   lane?: string;
+}
+
+/**
+ * Stop when a target is one of the run's inputs. Compared by real path (symbolic
+ * links and `..` resolved) and by file identity (device and inode: a hard link or
+ * a bind mount), so no spelling of the path gets past it. An input that does not
+ * exist yet (a new history file) cannot be replaced and is skipped.
+ */
+async function refuseInputsAsTargets(targets: readonly string[], inputs: readonly InputFile[]): Promise<void> {
+  const known: { input: InputFile; real: string; dev: number; ino: number }[] = [];
+  for (const input of inputs) {
+    if (input.path === '') continue;
+    try {
+      const st = await stat(input.path);
+      known.push({ input, real: await realpath(input.path), dev: st.dev, ino: st.ino });
+    } catch {
+      // Not there: nothing to protect.
+    }
+  }
+  if (known.length === 0) return;
+  for (const target of targets) {
+    let st;
+    let real;
+    try {
+      st = await stat(target);
+      real = await realpath(target);
+    } catch {
+      continue; // no file there (or a dangling link): writing it replaces no input
+    }
+    const hit = known.find((k) => k.real === real || (k.dev === st.dev && k.ino === st.ino));
+    if (hit) {
+      const alias = hit.input.path === target ? '' : ' (the same file by another name or link)';
+      throw new StopError(
+        'output',
+        `would replace ${hit.input.role} "${hit.input.path}"${alias}; an input is never replaced, even with --force: choose another output folder with --out`,
+        { file: target },
+      );
+    }
+  }
 }
 
 /** Temp folders and backup files alive right now; removed on SIGINT/SIGTERM or exit. */
@@ -62,6 +114,7 @@ export async function commitAll(jobs: readonly WriteJob[], options: AtomicWriteO
 
   // 1. Check every target before writing anything. (A file created by someone
   //    else between this check and the rename would be replaced.)
+  await refuseInputsAsTargets(targets, options.inputs ?? []);
   const existed: boolean[] = [];
   const blocking: string[] = [];
   for (const target of targets) {

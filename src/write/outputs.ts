@@ -115,6 +115,11 @@ export async function writeOutputs(result: RecalcResult, options: WriteOptions):
       };
     }
   }
-  await commitAll(jobs, { force: options.force });
+  const inputs = [
+    { path: result.worklist.path, role: 'the worklist' },
+    { path: result.method.file, role: 'the method' },
+    ...(options.historyFile ? [{ path: options.historyFile, role: 'the QC history' }] : []),
+  ];
+  await commitAll(jobs, { force: options.force, inputs });
   return written;
 }

@@ -365,3 +365,29 @@ describe('commitAll and a file created after Ctrl-C removed the temps', () => {
     expect(liveTempFiles()).toEqual([]);
   });
 });
+
+describe('commitAll never replaces an input', () => {
+  it('refuses a target that is an input, with force, before writing anything', async () => {
+    const history = join(dir, 'qc-history.sqlite');
+    await writeFile(history, 'history');
+    const write = vi.fn(text('new'));
+    const err = await stopOf(
+      commitAll([{ target: join(dir, 'a.csv'), write }, { target: history, write }], {
+        force: true,
+        inputs: [{ path: history, role: 'the QC history' }],
+      }),
+    );
+    expect(err.describe()).toBe(
+      `${history}: would replace the QC history "${history}"; an input is never replaced, even with --force: choose another output folder with --out`,
+    );
+    expect(write).not.toHaveBeenCalled();
+    expect(await readFile(history, 'utf8')).toBe('history');
+    expect((await readdir(dir)).sort()).toEqual(['qc-history.sqlite']);
+  });
+
+  it('skips an input that does not exist yet (a new history file) and writes the rest', async () => {
+    const target = join(dir, 'a.csv');
+    await commitAll([{ target, write: text('x') }], { inputs: [{ path: join(dir, 'new.sqlite'), role: 'the QC history' }] });
+    expect(await readFile(target, 'utf8')).toBe('x');
+  });
+});
