@@ -206,11 +206,22 @@ export async function main(argv: string[]): Promise<number> {
   }
 }
 
+// The exit code is the settled run's, and only that: until main settles it is 2, so a process
+// whose event loop runs dry while a write still waits (a stream that never answers) cannot
+// exit 0 with nothing written (issue 19: a full disk did exactly that).
+let settled = false;
+process.exitCode = EXIT.stop;
+process.once('beforeExit', () => {
+  if (settled) return;
+  process.stderr.write('phasebook: the run ended before it finished: an operation never completed (please report this)\nNothing was written.\n');
+});
 main(process.argv).then(
   (code) => {
+    settled = true;
     process.exitCode = code;
   },
   () => {
+    settled = true;
     process.exitCode = EXIT.stop;
   },
 );

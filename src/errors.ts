@@ -67,6 +67,12 @@ export function fsReason(err: unknown): string {
       return 'a file of that name is in the way';
     case 'ENOSPC':
       return 'the disk is full';
+    case 'EDQUOT':
+      return 'the disk quota is used up';
+    case 'EROFS':
+      return 'the file system is read-only';
+    case 'EIO':
+      return 'the disk reported an input/output error';
     default:
       return err instanceof Error ? err.message : String(err);
   }

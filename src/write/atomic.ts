@@ -15,7 +15,7 @@ import { randomBytes } from 'node:crypto';
 import { mkdtempSync, rmSync } from 'node:fs';
 import { copyFile, link, lstat, open, realpath, rename, rm, stat, unlink } from 'node:fs/promises';
 import { basename, dirname, join } from 'node:path';
-import { StopError } from '../errors.js';
+import { StopError, fsReason } from '../errors.js';
 import { pushTo } from '../group.js';
 
 export interface AtomicWriteOptions {
@@ -335,15 +335,6 @@ function outputError(target: string, err: unknown): unknown {
   if (err instanceof StopError) return err;
   const code = (err as { code?: unknown } | null)?.code;
   if (typeof code !== 'string' || !code.startsWith('E')) return err;
-  const reason =
-    code === 'ENOENT'
-      ? `the folder ${dirname(target)} does not exist`
-      : code === 'EACCES' || code === 'EPERM'
-        ? 'permission denied'
-        : code === 'ENOSPC'
-          ? 'the disk is full'
-          : code === 'EROFS'
-            ? 'the file system is read-only'
-            : (err as Error).message;
+  const reason = code === 'ENOENT' ? `the folder ${dirname(target)} does not exist` : fsReason(err);
   return new StopError('output', `cannot be written: ${reason}`, { file: target });
 }

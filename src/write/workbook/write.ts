@@ -14,6 +14,7 @@
  * API; when they are missing, each row goes through exceljs's own row writer.
  */
 import { once } from 'node:events';
+import { createWriteStream } from 'node:fs';
 import type ExcelJS from 'exceljs';
 // The streaming writer and the value types from their own files: the package's entry
 // also loads the workbook reader, the CSV parts and their dependencies, about half of
@@ -269,34 +270,50 @@ export async function writePlannedWorkbook(
   plan: WorkbookPlan,
   options: { run: RunInfo; rowWriter?: RowWriter },
 ): Promise<void> {
-  const wb = new WorkbookWriter({ filename: path, useStyles: true, useSharedStrings: false });
-  const time = new Date(options.run.timestamp);
-  wb.creator = `phasebook ${options.run.version}`;
-  wb.lastModifiedBy = wb.creator;
-  wb.created = time;
-  wb.modified = time;
-  const budget: NoteBudget = { left: plan.maxNotes };
-  const rowWriter = options.rowWriter ?? 'direct';
-  const digest = new IntegrityDigest();
-  const values: CellValue[] = [];
+  // The file stream is ours, so that a write error (a full disk) is heard from the first
+  // byte on: exceljs listens for errors only once it finalises, and an error before that
+  // left the writer waiting for ever, the run's promise unsettled (issue 19).
+  const file = createWriteStream(path);
+  const failed = new Promise<never>((_, reject) => file.once('error', reject));
+  failed.catch(() => undefined); // handled by the race below; this keeps an early error from going unhandled
+  const wb = new WorkbookWriter({ stream: file, useStyles: true, useSharedStrings: false });
+  const write = async (): Promise<void> => {
+    const time = new Date(options.run.timestamp);
+    wb.creator = `phasebook ${options.run.version}`;
+    wb.lastModifiedBy = wb.creator;
+    wb.created = time;
+    wb.modified = time;
+    const budget: NoteBudget = { left: plan.maxNotes };
+    const rowWriter = options.rowWriter ?? 'direct';
+    const digest = new IntegrityDigest();
+    const values: CellValue[] = [];
 
-  await writeSheet(wb, plan.summary, { budget, rowWriter });
-  await writeSheet(wb, plan.results.plan, {
-    budget,
-    rowWriter,
-    onRow: (row) => {
-      // One array for every row's values: the digest reads it before the next row.
-      values.length = row.cells.length;
-      for (let j = 0; j < values.length; j++) values[j] = row.cells[j]?.value ?? null;
-      digest.addResultsRow(values, plan.approximate);
-    },
-  });
-  await writeSheet(wb, plan.qc, { budget, rowWriter });
-  await writeSheet(wb, plan.flags, { budget, rowWriter });
-  await writeSheet(wb, plan.trends.plan, { budget, rowWriter });
-  await writeSheet(wb, plan.method, { budget, rowWriter });
-  digest.addMethod(plan.methodTextSha, plan.limits);
-  digest.addTrends(plan.trends.digestRows);
-  await writeSheet(wb, plan.provenance(digest.hex()), { budget, rowWriter });
-  await wb.commit();
+    await writeSheet(wb, plan.summary, { budget, rowWriter });
+    await writeSheet(wb, plan.results.plan, {
+      budget,
+      rowWriter,
+      onRow: (row) => {
+        // One array for every row's values: the digest reads it before the next row.
+        values.length = row.cells.length;
+        for (let j = 0; j < values.length; j++) values[j] = row.cells[j]?.value ?? null;
+        digest.addResultsRow(values, plan.approximate);
+      },
+    });
+    await writeSheet(wb, plan.qc, { budget, rowWriter });
+    await writeSheet(wb, plan.flags, { budget, rowWriter });
+    await writeSheet(wb, plan.trends.plan, { budget, rowWriter });
+    await writeSheet(wb, plan.method, { budget, rowWriter });
+    digest.addMethod(plan.methodTextSha, plan.limits);
+    digest.addTrends(plan.trends.digestRows);
+    await writeSheet(wb, plan.provenance(digest.hex()), { budget, rowWriter });
+    await wb.commit();
+  };
+  const writing = write();
+  writing.catch(() => undefined); // after a write error it may stop half-way: the race below has the outcome
+  try {
+    await Promise.race([writing, failed]);
+  } catch (err) {
+    file.destroy();
+    throw err;
+  }
 }
