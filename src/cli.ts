@@ -130,7 +130,8 @@ async function recalcWithProgress(worklist: string, opts: RecalcCliOptions, prog
   };
   // Read the history first: a foreign file or a missing SQLite package stops the run before anything is written.
   const history = opts.history ? await trendsIncludingRun(opts.history, result, { run }) : undefined;
-  const written = await writeOutputs(result, { outDir: opts.out, outputs: opts.outputs, force: opts.force, run, history, historyFile: opts.history, onProgress: progress?.update });
+  const onNotice = opts.quiet ? undefined : (text: string) => process.stderr.write(`phasebook: ${text}\n`);
+  const written = await writeOutputs(result, { outDir: opts.out, outputs: opts.outputs, force: opts.force, run, history, historyFile: opts.history, onProgress: progress?.update, onNotice });
   progress?.finish();
   const declined = (opts.outputs ?? OUTPUT_KINDS).includes('xlsx') ? workbookDeclined(result.rowsOut) : undefined;
   if (declined) process.stderr.write(`phasebook: ${declined}\n`);

@@ -13,10 +13,11 @@
  */
 import { randomBytes } from 'node:crypto';
 import { mkdtempSync, rmSync } from 'node:fs';
-import { copyFile, link, lstat, open, realpath, rename, rm, stat, unlink } from 'node:fs/promises';
-import { basename, dirname, join } from 'node:path';
+import { copyFile, link, lstat, open, readdir, realpath, rename, rm, stat, unlink } from 'node:fs/promises';
+import { basename, dirname, join, resolve } from 'node:path';
 import { StopError, fsReason } from '../errors.js';
 import { pushTo } from '../group.js';
+import { lockFolder, releaseAllLocksSync, type FolderLock } from './folder-lock.js';
 
 export interface AtomicWriteOptions {
   /** Replace targets that already exist. Default false: an existing target stops the run. */
@@ -28,6 +29,15 @@ export interface AtomicWriteOptions {
    * without `force`: an input is never replaced.
    */
   inputs?: readonly InputFile[];
+  /**
+   * Files of a folder that belong to this output set (e.g. every `<stem>.*.report.html`).
+   * Those the commit does not write are earlier outputs: without `force` they stop the
+   * run like an existing target; with it they are removed in the same commit (and put
+   * back if the commit fails), so no stale output stays beside the new ones.
+   */
+  outputSet?: { folder: string; belongs: (name: string) => boolean };
+  /** Told what the commit did besides writing (a stale lock taken over, leftovers found). */
+  onNotice?: (text: string) => void;
 }
 
 /** A file the run reads, with what it is in words ("the worklist"). */
@@ -107,6 +117,49 @@ export async function writeFileAtomic(
  * A rename failing part-way puts back what was already renamed.
  */
 export async function commitAll(jobs: readonly WriteJob[], options: AtomicWriteOptions = {}): Promise<void> {
+  const folders = [...new Set(jobs.map((j) => dirname(j.target)))].sort();
+  const locks: FolderLock[] = [];
+  try {
+    // One run at a time per output folder, from the first check to the last rename.
+    for (const folder of folders) {
+      const lock = await lockFolder(folder);
+      locks.push(lock);
+      if (lock.tookOver) options.onNotice?.(`${folder}: ${lock.tookOver}`);
+      await clearLeftovers(folder, options.onNotice);
+    }
+    await commitLocked(jobs, options);
+  } finally {
+    for (const lock of locks) await lock.release();
+  }
+}
+
+/**
+ * Leftovers of a run that was killed (no handler ran): its temp folders hold only
+ * unfinished new outputs and are removed; a backup `.phasebook-old-*` is the earlier
+ * version of an output it was replacing, so it is kept and reported. Called with the
+ * folder's lock held, so nothing found here belongs to a live run.
+ */
+async function clearLeftovers(folder: string, onNotice: AtomicWriteOptions['onNotice']): Promise<void> {
+  let names: string[];
+  try {
+    names = (await readdir(folder)).sort();
+  } catch {
+    return;
+  }
+  for (const name of names) {
+    if (name.startsWith('.phasebook-tmp-')) {
+      await rm(join(folder, name), { recursive: true, force: true }).catch(() => undefined);
+      onNotice?.(`${folder}: removed ${name}, the unfinished outputs of a run that was stopped`);
+    } else if (name.startsWith('.phasebook-old-')) {
+      onNotice?.(
+        `${folder}: found ${name}, the earlier version of an output kept by a run that was stopped while replacing its outputs; ` +
+          'check the outputs beside it, then delete it',
+      );
+    }
+  }
+}
+
+async function commitLocked(jobs: readonly WriteJob[], options: AtomicWriteOptions): Promise<void> {
   const force = options.force ?? false;
   const targets = jobs.map((j) => j.target);
   const twice = targets.find((t, i) => targets.indexOf(t) !== i);
@@ -114,7 +167,8 @@ export async function commitAll(jobs: readonly WriteJob[], options: AtomicWriteO
 
   // 1. Check every target before writing anything. (A file created by someone
   //    else between this check and the rename would be replaced.)
-  await refuseInputsAsTargets(targets, options.inputs ?? []);
+  const obsolete = await earlierOutputs(targets, options.outputSet);
+  await refuseInputsAsTargets([...targets, ...obsolete], options.inputs ?? []);
   const existed: boolean[] = [];
   const blocking: string[] = [];
   for (const target of targets) {
@@ -130,13 +184,23 @@ export async function commitAll(jobs: readonly WriteJob[], options: AtomicWriteO
     }
     existed.push(exists);
   }
+  const stale = force ? [] : obsolete;
+  const also = stale.length === 0 ? '' : `; --force also removes ${stale.join(', ')}, an earlier output that this run does not write`;
   if (blocking.length === 1) {
-    throw new StopError('output', 'already exists; use --force to replace it', { file: blocking[0] });
+    throw new StopError('output', `already exists; use --force to replace it${also}`, { file: blocking[0] });
   }
   if (blocking.length > 1) {
-    throw new StopError('output', `${blocking.length} outputs already exist (${blocking.join(', ')}); use --force to replace them`, {
+    throw new StopError('output', `${blocking.length} outputs already exist (${blocking.join(', ')}); use --force to replace them${also}`, {
       file: blocking[0],
     });
+  }
+  if (stale.length > 0) {
+    throw new StopError(
+      'output',
+      `${stale.length === 1 ? 'is an earlier output' : `and ${stale.length - 1} more are earlier outputs`} of this worklist that this run does not write ` +
+        `(${stale.join(', ')}); use --force to replace the earlier outputs, which removes ${stale.length === 1 ? 'it' : 'them'}`,
+      { file: stale[0] },
+    );
   }
 
   // 2. Write every temp file: each lane's jobs in order, the lanes at the same time.
@@ -182,6 +246,7 @@ export async function commitAll(jobs: readonly WriteJob[], options: AtomicWriteO
   // 3. Rename into place, keeping a backup of each replaced file until all are in.
   //    A signal here waits (see onSignal): the set is rolled back, then the process exits.
   let done = 0;
+  const setAside: { path: string; aside: string }[] = [];
   renaming++;
   try {
     for (let i = 0; i < jobs.length; i++) {
@@ -211,8 +276,28 @@ export async function commitAll(jobs: readonly WriteJob[], options: AtomicWriteO
       }
       done++;
     }
+    // Earlier outputs this commit does not replace go aside with the backups (removed at the end).
+    for (const path of obsolete) {
+      if (deferredExit !== null) throw new Error('interrupted');
+      const aside = backupName(path);
+      live.add(aside);
+      try {
+        await rename(path, aside);
+      } catch (err) {
+        live.delete(aside);
+        throw outputError(path, err);
+      }
+      setAside.push({ path, aside });
+    }
     if (deferredExit !== null) throw new Error('interrupted');
   } catch (err) {
+    for (const { path, aside } of setAside.reverse()) {
+      try {
+        await rename(aside, path);
+      } catch {
+        // Best effort, as below.
+      }
+    }
     for (let i = done - 1; i >= 0; i--) {
       const target = jobs[i]!.target;
       const backup = backups[i];
@@ -223,7 +308,7 @@ export async function commitAll(jobs: readonly WriteJob[], options: AtomicWriteO
         // Best effort: the error below is what the user needs to see.
       }
     }
-    await removeAll([...tempFolders.values(), ...backups.filter((b): b is string => b !== null)]);
+    await removeAll([...tempFolders.values(), ...backups.filter((b): b is string => b !== null), ...setAside.map((a) => a.aside)]);
     throw err;
   } finally {
     renaming--;
@@ -232,8 +317,25 @@ export async function commitAll(jobs: readonly WriteJob[], options: AtomicWriteO
       process.exit(deferredExit);
     }
   }
-  await removeAll([...tempFolders.values(), ...backups.filter((b): b is string => b !== null)]);
+  await removeAll([...tempFolders.values(), ...backups.filter((b): b is string => b !== null), ...setAside.map((a) => a.aside)]);
   await fsyncFolders(targets);
+}
+
+/** Files of the output set's folder that belong to the set but are not targets of this commit. */
+async function earlierOutputs(targets: readonly string[], set: AtomicWriteOptions['outputSet']): Promise<string[]> {
+  if (!set) return [];
+  let names: string[];
+  try {
+    names = await readdir(set.folder);
+  } catch {
+    return [];
+  }
+  const writing = new Set(targets.map((t) => resolve(t)));
+  return names
+    .filter((name) => set.belongs(name))
+    .map((name) => join(set.folder, name))
+    .filter((path) => !writing.has(resolve(path)))
+    .sort();
 }
 
 /** commitAll calls in their rename phase, and the exit code of a signal that came meanwhile. */
@@ -274,6 +376,7 @@ export function installInterruptCleanup(): void {
  * is being removed makes the removal try again.
  */
 export function removeLiveTempFiles(): void {
+  releaseAllLocksSync();
   for (const path of live) {
     try {
       rmSync(path, { recursive: true, force: true, maxRetries: 3, retryDelay: 10 });

@@ -28,6 +28,8 @@ export interface WriteOptions {
   historyFile?: string;
   /** Told how many rows have been written (progress.ts draws it on a terminal). */
   onProgress?: OnProgress;
+  /** Told what the commit did besides writing (a stale lock taken over, leftovers of a stopped run). */
+  onNotice?: (text: string) => void;
 }
 
 /** Rows a spreadsheet sheet holds, the header included (Excel's limit, 2^20). */
@@ -120,6 +122,12 @@ export async function writeOutputs(result: RecalcResult, options: WriteOptions):
     { path: result.method.file, role: 'the method' },
     ...(options.historyFile ? [{ path: options.historyFile, role: 'the QC history' }] : []),
   ];
-  await commitAll(jobs, { force: options.force, inputs });
+  // The reports are one per batch: a report of a batch that is not in this run is an earlier
+  // output of this worklist, which --force removes with the rest (it stops the run without).
+  const stem = outputStem(result.worklist.path);
+  const outputSet = kinds.includes('html')
+    ? { folder: options.outDir, belongs: (name: string) => name.startsWith(`${stem}.`) && name.endsWith('.report.html') }
+    : undefined;
+  await commitAll(jobs, { force: options.force, inputs, outputSet, onNotice: options.onNotice });
   return written;
 }
