@@ -13,13 +13,11 @@ import { registerTrendsCommand } from './commands/trends.js';
 import { registerMethodCommand } from './commands/method.js';
 import { registerPlanCommand } from './commands/plan.js';
 import { registerVerifyCommand } from './commands/verify.js';
-import { recalculate, type RecalcResult } from './pipeline.js';
-import { recordRun } from './history/store.js';
-import { inHouseLimitsFrom, trendsIncludingRun } from './history/trends.js';
-import { loadMethod } from './method/load.js';
+import type { RecalcResult } from './pipeline.js';
+import { runRecalc } from './run.js';
 import { VERSION } from './version.js';
 import { installInterruptCleanup } from './write/atomic.js';
-import { OUTPUT_KINDS, workbookDeclined, writeOutputs, type OutputKind } from './write/outputs.js';
+import { OUTPUT_KINDS, type OutputKind } from './write/outputs.js';
 import { createProgress, type ProgressLine } from './progress.js';
 import { prepareChartWorker, stopChartWorker } from './report/draw.js';
 
@@ -73,7 +71,7 @@ export function buildProgram(io: { exit: (code: number) => void }): Command {
     .option('--history <file>', 'QC history database (SQLite): control charts in the report, and this run recorded in it')
     .option('-q, --quiet', 'print nothing but errors')
     .action(async (worklist: string, opts: RecalcCliOptions) => {
-      io.exit(await runRecalc(worklist, opts));
+      io.exit(await recalcCommand(worklist, opts));
     });
   registerTrendsCommand(program, io);
   registerMethodCommand(program, io);
@@ -96,7 +94,7 @@ interface RecalcCliOptions {
   quiet?: boolean;
 }
 
-async function runRecalc(worklist: string, opts: RecalcCliOptions): Promise<number> {
+async function recalcCommand(worklist: string, opts: RecalcCliOptions): Promise<number> {
   // On a terminal, work over a second shows a progress line on stderr (progress.ts).
   const progress = createProgress({ quiet: opts.quiet });
   // The report's charts are drawn on a second thread, which loads vega meanwhile (report/draw.ts).
@@ -111,43 +109,38 @@ async function runRecalc(worklist: string, opts: RecalcCliOptions): Promise<numb
 
 async function recalcWithProgress(worklist: string, opts: RecalcCliOptions, progress: ProgressLine | undefined): Promise<number> {
   installInterruptCleanup();
-  const method = loadMethod(opts.method);
-  // A method that judges controls by in-house limits reads them from the history as it was before this run.
-  const inHouse =
-    opts.history && method.qc.limitsSource === 'in_house' ? await inHouseLimitsFrom(opts.history) : undefined;
-  const result = await recalculate(worklist, {
-    method,
-    inHouse,
+  const outcome = await runRecalc(worklist, {
+    method: opts.method,
+    out: opts.out,
+    outputs: opts.outputs,
+    force: opts.force,
+    history: opts.history,
     sheet: opts.sheet,
     maxBytes: opts.maxBytes,
     maxUnpackedBytes: opts.maxUnpacked,
-    onProgress: progress?.update,
-  });
-  const run = {
     timestamp: opts.timestamp ?? new Date().toISOString(),
     command: ['phasebook', ...process.argv.slice(2)].join(' '),
     version: VERSION,
-  };
-  // Read the history first: a foreign file or a missing SQLite package stops the run before anything is written.
-  const history = opts.history ? await trendsIncludingRun(opts.history, result, { run }) : undefined;
-  const onNotice = opts.quiet ? undefined : (text: string) => process.stderr.write(`phasebook: ${text}\n`);
-  const written = await writeOutputs(result, { outDir: opts.out, outputs: opts.outputs, force: opts.force, run, history, historyFile: opts.history, onProgress: progress?.update, onNotice });
+    onProgress: progress?.update,
+    onNotice: opts.quiet ? undefined : (text) => process.stderr.write(`phasebook: ${text}\n`),
+  });
   progress?.finish();
-  const declined = (opts.outputs ?? OUTPUT_KINDS).includes('xlsx') ? workbookDeclined(result.rowsOut) : undefined;
-  if (declined) process.stderr.write(`phasebook: ${declined}\n`);
-  let recorded = '';
-  if (opts.history) {
-    try {
-      const r = await recordRun(opts.history, result, { timestamp: run.timestamp });
-      recorded = r.alreadyRecorded
-        ? `This worklist and method were already in ${opts.history}; nothing added.`
-        : `Recorded ${r.added} control row${r.added === 1 ? '' : 's'} in ${opts.history}.`;
-    } catch (err) {
-      const why = err instanceof StopError ? err.describe() : (err as Error).message;
-      process.stderr.write(`phasebook: the outputs were written, but the run could not be recorded in the history: ${why}\n`);
-      return EXIT.stop;
-    }
+  const { result, written, history } = outcome;
+  if (outcome.workbookDeclined) process.stderr.write(`phasebook: ${outcome.workbookDeclined}\n`);
+  if (history?.notRecorded !== undefined) {
+    // The outputs are complete; only the history lacks this run. Exit 1: written, with a finding.
+    process.stderr.write(
+      `phasebook: the outputs were written in full, but the run is not in the QC history: ${history.notRecorded}; ` +
+        'run the same command again with --force to record it\n',
+    );
+    if (!opts.quiet) process.stderr.write(describeRun(result, written));
+    return EXIT.findings;
   }
+  const recorded = history?.recorded
+    ? history.recorded.alreadyRecorded
+      ? `This worklist and method were already in ${history.file}; nothing added.`
+      : `Recorded ${history.recorded.added} control row${history.recorded.added === 1 ? '' : 's'} in ${history.file}.`
+    : '';
   const code = exitCodeOf(result);
   if (!opts.quiet) process.stderr.write(describeRun(result, written) + (recorded ? `${recorded}\n` : ''));
   return code;

@@ -11,7 +11,7 @@
  *   written to it; a file from a newer phasebook is refused too.
  * - An empty file (0 bytes, or an SQLite file with no tables) becomes a new history.
  */
-import { existsSync } from 'node:fs';
+import { existsSync, rmSync } from 'node:fs';
 import { createRequire } from 'node:module';
 import { dirname } from 'node:path';
 import type { Database, Options } from 'better-sqlite3';
@@ -58,58 +58,138 @@ export async function loadSqlite(options: LoadOptions = {}): Promise<SqliteConst
 }
 
 /**
- * Record the control rows of a run. Creates the file when missing and migrates
- * an older history to the latest schema first.
+ * A history opened for one run: its write lock taken (an IMMEDIATE transaction) before
+ * anything of the run is written, so that a history another process holds, a foreign
+ * file or a missing SQLite package stops the run first; the run's controls are staged
+ * in the transaction and committed in the same step as the outputs, or rolled back.
  */
-export async function recordRun(dbPath: string, result: RecalcResult, run: { timestamp: string }): Promise<RecordSummary> {
+export interface HistorySession {
+  readonly file: string;
+  /** Every control row as it stands, in run order (as readHistory gives them), read under the lock. */
+  readonly rows: HistoryRow[];
+  /** Add the run's control rows to the open transaction (nothing is in the file until commit). */
+  stage(result: RecalcResult, run: { timestamp: string }): RecordSummary;
+  /** Make the staged run durable; a located StopError when SQLite cannot. */
+  commit(): void;
+  /** Roll back and close; a file this session created is removed again. */
+  abandon(): void;
+}
+
+/**
+ * Open (or create) a history for a run and take its write lock. Waits up to five
+ * seconds for another process that holds it, then stops with a located message.
+ */
+export async function openHistory(dbPath: string): Promise<HistorySession> {
   const Sqlite = await loadSqlite();
-  return withDatabase(Sqlite, dbPath, { readonly: false }, (db) => {
+  if (!existsSync(dirname(dbPath) || '.')) {
+    throw new StopError('output', `the QC history cannot be created: the folder ${dirname(dbPath)} does not exist`, { file: dbPath });
+  }
+  const created = !existsSync(dbPath);
+  let db: Database | undefined;
+  let open = false;
+  const closeAndForget = () => {
+    if (db?.inTransaction) db.exec('ROLLBACK');
+    db?.close();
+    db = undefined;
+    if (created) for (const part of ['', '-wal', '-shm', '-journal']) rmSync(dbPath + part, { force: true });
+  };
+  try {
+    db = new Sqlite(dbPath, { timeout: 5000 });
     // Verify before the first write: even switching a foreign file to WAL would change it.
     const versionBefore = verifyHistory(db, dbPath);
     db.pragma('journal_mode = WAL');
     db.pragma('synchronous = FULL');
     db.pragma('foreign_keys = ON');
+    db.exec('BEGIN IMMEDIATE');
+    open = true;
     migrate(db);
-    const r = runRecord(result, run);
-    const controls = controlRecords(result);
-    const insertRun = db.prepare(
-      `INSERT INTO runs (run_time, worklist_name, worklist_sha256, method_name, method_sha256)
-       VALUES (?, ?, ?, ?, ?) ON CONFLICT (worklist_sha256, method_sha256) DO NOTHING`,
+    const rows = selectRows(db, LATEST_VERSION);
+    const session: HistorySession = {
+      file: dbPath,
+      rows,
+      stage: (result, run) => stageRun(db!, result, run, versionBefore),
+      commit: () => {
+        try {
+          db!.exec('COMMIT');
+          db!.close();
+        } catch (err) {
+          throw sqliteStop(dbPath, err);
+        }
+      },
+      abandon: () => {
+        try {
+          closeAndForget();
+        } catch {
+          // Best effort: the error the caller reports is what the user needs to see.
+        }
+      },
+    };
+    return session;
+  } catch (err) {
+    try {
+      if (open || db) closeAndForget();
+    } catch {
+      // the error below is the one to report
+    }
+    throw sqliteStop(dbPath, err);
+  }
+}
+
+function stageRun(db: Database, result: RecalcResult, run: { timestamp: string }, versionBefore: number): RecordSummary {
+  const r = runRecord(result, run);
+  const controls = controlRecords(result);
+  const insertRun = db.prepare(
+    `INSERT INTO runs (run_time, worklist_name, worklist_sha256, method_name, method_sha256)
+     VALUES (?, ?, ?, ?, ?) ON CONFLICT (worklist_sha256, method_sha256) DO NOTHING`,
+  );
+  const findRun = db.prepare('SELECT id FROM runs WHERE worklist_sha256 = ? AND method_sha256 = ?').pluck();
+  const insertControl = db.prepare(
+    `INSERT INTO controls (run_id, row_number, sample_id, batch_id, analyte, sample_type, qc_level,
+                           recovery_pct, rpd_pct, status, recovery_low, recovery_high, flags)
+     VALUES (?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?)`,
+  );
+  const info = insertRun.run(r.runTime, r.worklistName, r.worklistSha256, r.methodName, r.methodSha256);
+  if (info.changes === 0) {
+    const runId = findRun.get(r.worklistSha256, r.methodSha256) as number;
+    return { runId, added: 0, alreadyRecorded: true, versionBefore };
+  }
+  const runId = Number(info.lastInsertRowid);
+  for (const c of controls) {
+    insertControl.run(
+      runId,
+      c.rowNumber,
+      c.sampleId,
+      c.batchId,
+      c.analyte,
+      c.sampleType,
+      c.qcLevel,
+      sqlNumber(c.recoveryPct),
+      sqlNumber(c.rpdPct),
+      c.status,
+      sqlNumber(c.recoveryLow),
+      sqlNumber(c.recoveryHigh),
+      c.flags,
     );
-    const findRun = db.prepare('SELECT id FROM runs WHERE worklist_sha256 = ? AND method_sha256 = ?').pluck();
-    const insertControl = db.prepare(
-      `INSERT INTO controls (run_id, row_number, sample_id, batch_id, analyte, sample_type, qc_level,
-                             recovery_pct, rpd_pct, status, recovery_low, recovery_high, flags)
-       VALUES (?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?)`,
-    );
-    const write = db.transaction((): RecordSummary => {
-      const info = insertRun.run(r.runTime, r.worklistName, r.worklistSha256, r.methodName, r.methodSha256);
-      if (info.changes === 0) {
-        const runId = findRun.get(r.worklistSha256, r.methodSha256) as number;
-        return { runId, added: 0, alreadyRecorded: true, versionBefore };
-      }
-      const runId = Number(info.lastInsertRowid);
-      for (const c of controls) {
-        insertControl.run(
-          runId,
-          c.rowNumber,
-          c.sampleId,
-          c.batchId,
-          c.analyte,
-          c.sampleType,
-          c.qcLevel,
-          sqlNumber(c.recoveryPct),
-          sqlNumber(c.rpdPct),
-          c.status,
-          sqlNumber(c.recoveryLow),
-          sqlNumber(c.recoveryHigh),
-          c.flags,
-        );
-      }
-      return { runId, added: controls.length, alreadyRecorded: false, versionBefore };
-    });
-    return write.immediate();
-  });
+  }
+  return { runId, added: controls.length, alreadyRecorded: false, versionBefore };
+}
+
+/**
+ * Record the control rows of a run, on its own (the command line records in the
+ * same step as it writes the outputs, through openHistory). Creates the file when
+ * missing and migrates an older history to the latest schema first.
+ */
+export async function recordRun(dbPath: string, result: RecalcResult, run: { timestamp: string }): Promise<RecordSummary> {
+  const session = await openHistory(dbPath);
+  let summary: RecordSummary;
+  try {
+    summary = session.stage(result, run);
+  } catch (err) {
+    session.abandon();
+    throw sqliteStop(dbPath, err);
+  }
+  session.commit();
+  return summary;
 }
 
 /**
@@ -124,28 +204,31 @@ export async function readHistory(dbPath: string): Promise<HistoryRow[]> {
   const Sqlite = await loadSqlite();
   return withDatabase(Sqlite, dbPath, { readonly: true }, (db) => {
     const version = verifyHistory(db, dbPath);
-    if (version === 0) return [];
-    const since2 = version >= 2;
-    const rows = db
-      .prepare(
-        `SELECT r.id AS runId, r.run_time AS runTime, r.worklist_name AS worklistName, r.worklist_sha256 AS worklistSha256,
-                r.method_name AS methodName, r.method_sha256 AS methodSha256,
-                c.row_number AS rowNumber, c.sample_id AS sampleId, c.batch_id AS batchId, c.analyte, c.sample_type AS sampleType,
-                c.qc_level AS qcLevel, c.recovery_pct AS recoveryPct, c.rpd_pct AS rpdPct, c.status,
-                ${since2 ? 'c.recovery_low' : 'NULL'} AS recoveryLow, ${since2 ? 'c.recovery_high' : 'NULL'} AS recoveryHigh,
-                ${since2 ? 'c.flags' : "''"} AS flags
-         FROM controls c JOIN runs r ON r.id = c.run_id
-         ORDER BY r.run_time, r.id, c.row_number, c.id`,
-      )
-      .all() as Array<Record<string, unknown>>;
-    return rows.map((row) => ({
-      ...(row as unknown as HistoryRow),
-      recoveryPct: fromSql(row.recoveryPct),
-      rpdPct: fromSql(row.rpdPct),
-      recoveryLow: fromSql(row.recoveryLow),
-      recoveryHigh: fromSql(row.recoveryHigh),
-    }));
+    return version === 0 ? [] : selectRows(db, version);
   });
+}
+
+function selectRows(db: Database, version: number): HistoryRow[] {
+  const since2 = version >= 2;
+  const rows = db
+    .prepare(
+      `SELECT r.id AS runId, r.run_time AS runTime, r.worklist_name AS worklistName, r.worklist_sha256 AS worklistSha256,
+              r.method_name AS methodName, r.method_sha256 AS methodSha256,
+              c.row_number AS rowNumber, c.sample_id AS sampleId, c.batch_id AS batchId, c.analyte, c.sample_type AS sampleType,
+              c.qc_level AS qcLevel, c.recovery_pct AS recoveryPct, c.rpd_pct AS rpdPct, c.status,
+              ${since2 ? 'c.recovery_low' : 'NULL'} AS recoveryLow, ${since2 ? 'c.recovery_high' : 'NULL'} AS recoveryHigh,
+              ${since2 ? 'c.flags' : "''"} AS flags
+       FROM controls c JOIN runs r ON r.id = c.run_id
+       ORDER BY r.run_time, r.id, c.row_number, c.id`,
+    )
+    .all() as Array<Record<string, unknown>>;
+  return rows.map((row) => ({
+    ...(row as unknown as HistoryRow),
+    recoveryPct: fromSql(row.recoveryPct),
+    rpdPct: fromSql(row.rpdPct),
+    recoveryLow: fromSql(row.recoveryLow),
+    recoveryHigh: fromSql(row.recoveryHigh),
+  }));
 }
 
 /**

@@ -132,7 +132,16 @@ export async function trendsIncludingRun(
   result: RecalcResult,
   options: TrendOptions & { run: { timestamp: string } },
 ): Promise<TrendSeries[]> {
-  const rows = existsSync(historyPath) ? await readHistory(historyPath) : [];
+  return trendsWithRun(existsSync(historyPath) ? await readHistory(historyPath) : [], result, options);
+}
+
+/** trendsIncludingRun over rows already read (an open history session's). */
+export function trendsWithRun(
+  history: readonly HistoryRow[],
+  result: RecalcResult,
+  options: TrendOptions & { run: { timestamp: string } },
+): TrendSeries[] {
+  const rows = [...history];
   const run = runRecord(result, options.run);
   const recorded = rows.some((r) => r.worklistSha256 === run.worklistSha256 && r.methodSha256 === run.methodSha256);
   if (!recorded) {
@@ -174,9 +183,13 @@ function finiteOrNull(x: number): number | null {
  * A missing history file gives none (fixed limits then judge every control).
  */
 export async function inHouseLimitsFrom(historyPath: string, options: TrendOptions = {}): Promise<InHouseLimits> {
+  return inHouseLimitsOf(existsSync(historyPath) ? await readHistory(historyPath) : [], options);
+}
+
+/** inHouseLimitsFrom over rows already read (an open history session's). */
+export function inHouseLimitsOf(rows: readonly HistoryRow[], options: TrendOptions = {}): InHouseLimits {
   const out = new Map<string, { low: number; high: number; n: number }>();
-  if (!existsSync(historyPath)) return out;
-  for (const series of await readTrends(historyPath, options)) {
+  for (const series of buildTrends(rows, options)) {
     const l = series.limits;
     if (l.sufficient) out.set(inHouseKey(series.analyte, series.sampleType), { low: l.controlLow, high: l.controlHigh, n: l.n });
   }

@@ -160,6 +160,7 @@ async function clearLeftovers(folder: string, onNotice: AtomicWriteOptions['onNo
 }
 
 async function commitLocked(jobs: readonly WriteJob[], options: AtomicWriteOptions): Promise<void> {
+  outputsInPlace = false; // a new set is not in place until its renames are done
   const force = options.force ?? false;
   const targets = jobs.map((j) => j.target);
   const twice = targets.find((t, i) => targets.indexOf(t) !== i);
@@ -290,6 +291,8 @@ async function commitLocked(jobs: readonly WriteJob[], options: AtomicWriteOptio
       setAside.push({ path, aside });
     }
     if (deferredExit !== null) throw new Error('interrupted');
+    // Every output is in place: from here an interrupt no longer undoes the run (see onSignal).
+    outputsInPlace = true;
   } catch (err) {
     for (const { path, aside } of setAside.reverse()) {
       try {
@@ -341,16 +344,28 @@ async function earlierOutputs(targets: readonly string[], set: AtomicWriteOption
 /** commitAll calls in their rename phase, and the exit code of a signal that came meanwhile. */
 let renaming = 0;
 let deferredExit: number | null = null;
+/** Set once a commit has put every output in place, and once an interrupt came after that. */
+let outputsInPlace = false;
+let interruptedAfterCommit = false;
 
 /**
  * A signal while outputs are being renamed into place would leave a mix of new
  * and old outputs (and delete the backups of the replaced ones), so it waits:
  * commitAll puts every output back as it was, then exits with the signal's code.
- * At any other time the temp files are removed and the process exits at once.
+ * After a commit has put every output in place, an interrupt lets the run finish (it
+ * has nothing slow left) and says so. At any other time the temp files are removed and
+ * the process exits at once.
  */
 const onSignal = (code: number) => () => {
   if (renaming > 0) {
     deferredExit = code;
+    return;
+  }
+  if (outputsInPlace && !interruptedAfterCommit) {
+    // The outputs are complete and what is left (recording the history, the summary) takes no
+    // time: the run finishes and exits as a completed run; a second interrupt stops it at once.
+    interruptedAfterCommit = true;
+    process.stderr.write('phasebook: interrupted after the outputs were complete; finishing the run\n');
     return;
   }
   removeLiveTempFiles();

@@ -38,12 +38,13 @@ describe('two runs into one folder at once', () => {
     const runs = await Promise.all([cliAsync(args), cliAsync(args)]);
     const wrote = runs.filter((r) => r.code === 0 || r.code === 1);
     const stopped = runs.filter((r) => r.code === 2);
+    const seen = JSON.stringify(runs);
     if (force && stopped.length === 0) {
       // The second began after the first had finished: with --force it replaced the first's outputs, as asked.
-      expect(wrote).toHaveLength(2);
+      expect(wrote, seen).toHaveLength(2);
     } else {
-      expect(wrote).toHaveLength(1);
-      expect(stopped).toHaveLength(1);
+      expect(wrote, seen).toHaveLength(1);
+      expect(stopped, seen).toHaveLength(1);
       // Stopped by the lock while the other wrote, or, if it began after, by the outputs the other left.
       expect(stopped[0]!.stderr).toMatch(/another phasebook run is writing to this folder \(process \d+ on .+, since .+\)|already exist/);
       expect(stopped[0]!.stderr).toContain('Nothing was written.');
