@@ -1,6 +1,7 @@
 import { createHash } from 'node:crypto';
-import { readFileSync } from 'node:fs';
-import { LineCounter, parseDocument, isNode, type Document } from 'yaml';
+import { readFileSync, statSync } from 'node:fs';
+import { formatBytes } from '../format.js';
+import { LineCounter, parseDocument, isNode, isScalar, visit, type Document } from 'yaml';
 import { StopError, fsReason } from '../errors.js';
 import { parseAcidBase } from '../chemistry/partition.js';
 import { isCanonicalField, type CanonicalField, type SampleType } from '../columns/fields.js';
@@ -11,12 +12,47 @@ import type { AnalyteInfo, FieldConfig, FormulaDef, LimitTable, Method } from '.
 /** Significance levels of the Dixon's Q table phasebook carries (Rorabacher, Anal. Chem. 1991). */
 const DIXON_ALPHAS = [0.1, 0.05, 0.04, 0.02, 0.01];
 
+/** The longest method text read, in characters (a method is a few kilobytes; 1 MiB is far beyond any real one). */
+export const MAX_METHOD_CHARS = 1024 * 1024;
+
+/**
+ * A key given twice in one mapping is a located error (the later one's line), found
+ * in one pass over each mapping. Keys compare as YAML scalars (1 and "1" differ);
+ * merge keys (<<) may repeat.
+ */
+function refuseDuplicateKeys(doc: Document, where: { file: string; lineCounter: LineCounter }): void {
+  visit(doc, {
+    Map(_key, map) {
+      const seen = new Map<string, number>();
+      for (const pair of map.items) {
+        if (!isScalar(pair.key) || pair.key.value === '<<') continue;
+        const id = `${typeof pair.key.value}:${String(pair.key.value)}`;
+        const line = where.lineCounter.linePos(pair.key.range?.[0] ?? 0).line;
+        const first = seen.get(id);
+        if (first !== undefined) {
+          throw new StopError('method', `cannot read the method as YAML: the key "${String(pair.key.value)}" is given twice (first at line ${first})`, {
+            file: where.file,
+            line,
+          });
+        }
+        seen.set(id, line);
+      }
+    },
+  });
+}
+
 /** Read a method file; throws a StopError('method') naming file, line and key. */
 export function loadMethod(path: string): Method {
   let text: string;
   try {
+    // A UTF-8 character is at most 4 bytes: a larger file cannot be a method, and is not read.
+    const bytes = statSync(path).size;
+    if (bytes > 4 * MAX_METHOD_CHARS) {
+      throw new StopError('method', `is ${formatBytes(bytes)}, larger than a method file may be (${MAX_METHOD_CHARS.toLocaleString('en-US')} characters)`, { file: path });
+    }
     text = readFileSync(path, 'utf8');
   } catch (err) {
+    if (err instanceof StopError) throw err;
     throw new StopError('method', `cannot read the method file: ${fsReason(err)}`, { file: path });
   }
   return parseMethod(text, { file: path });
@@ -26,11 +62,22 @@ export function loadMethod(path: string): Method {
 export function parseMethod(text: string, options: { file: string }): Method {
   const file = options.file;
   const lineCounter = new LineCounter();
-  const doc = parseDocument(text, { lineCounter, prettyErrors: false, uniqueKeys: true });
+  if (text.length > MAX_METHOD_CHARS) {
+    throw new StopError('method', `is ${text.length.toLocaleString('en-US')} characters long, more than the ${MAX_METHOD_CHARS.toLocaleString('en-US')} a method file may hold`, { file });
+  }
+  // Keys are checked for uniqueness below, in one pass: the YAML library's own check compares
+  // every key with every other (40,000 sample-type codes took over 20 s).
+  const doc = parseDocument(text, { lineCounter, prettyErrors: false, uniqueKeys: false });
   if (doc.errors.length > 0) {
     const e = doc.errors[0]!;
     const line = e.linePos?.[0]?.line ?? lineCounter.linePos(e.pos[0]).line;
     throw new StopError('method', `cannot read the method as YAML: ${firstLine(e.message)}`, { file, line });
+  }
+  try {
+    refuseDuplicateKeys(doc, { file, lineCounter });
+  } catch (err) {
+    if (err instanceof RangeError) throw new StopError('method', `cannot read the method as YAML: ${firstLine(err.message)}`, { file, line: 1 });
+    throw err;
   }
   let data: unknown;
   try {
@@ -228,6 +275,8 @@ function lineOf(doc: Document, counter: LineCounter, path: (string | number)[]):
 }
 
 function firstLine(text: string): string {
+  // The YAML library recurses per level of nesting: a document nested thousands deep overflows its stack.
+  if (/Maximum call stack size exceeded/.test(text)) return 'it is nested too deeply to read (a method needs a few levels)';
   return text.split('\n')[0]!.replace(/\.$/, '');
 }
 

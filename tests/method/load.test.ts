@@ -61,3 +61,39 @@ describe('method files', () => {
     expect(m.limits.lcs).toMatchObject({ recovery: [70, 130] });
   });
 });
+
+describe('method files that are too big, too deep or say a key twice (issue 19)', () => {
+  it.each([
+    ['a key twice at the top', 'name: a\ntitle: b\nname: c\n', 'm.yaml, line 3: cannot read the method as YAML: the key "name" is given twice (first at line 1)'],
+    [
+      'a lab code twice',
+      `name: x\nsample_types:\n  MB: blank\n  BS: lcs\n  MB: lcs\n${OK_FORMULAS}`,
+      'm.yaml, line 5: cannot read the method as YAML: the key "MB" is given twice (first at line 3)',
+    ],
+    ['a flow mapping', `name: x\nunits: { volume: mL, volume: L }\n${OK_FORMULAS}`, 'm.yaml, line 2: cannot read the method as YAML: the key "volume" is given twice (first at line 2)'],
+    [
+      'nesting thousands deep',
+      `name: x\ndeep: ${'['.repeat(3000)}${']'.repeat(3000)}\n`,
+      'm.yaml, line 2: cannot read the method as YAML: it is nested too deeply to read (a method needs a few levels)',
+    ],
+  ])('%s is a located error', (_name, text, message) => {
+    expect(stop(text)).toBe(message);
+  });
+
+  it('1 and "1" are different keys, as YAML scalars', () => {
+    expect(stop(`name: x\nextra:\n  1: a\n  "1": b\n${OK_FORMULAS}`)).toContain('unknown key "extra"');
+  });
+
+  it('a text longer than a method may be is refused before it is parsed', () => {
+    const text = `name: x\n# ${'x'.repeat(1024 * 1024)}\n${OK_FORMULAS}`;
+    expect(stop(text)).toBe('m.yaml: is 1,048,636 characters long, more than the 1,048,576 a method file may hold');
+  });
+
+  it('finds a repeated key among 40,000 lab codes in one pass (the YAML library\'s own check took over 20 s)', () => {
+    // No timing here (speed lives in npm run bench): this checks the answer on the large case.
+    const codes = Array.from({ length: 40_000 }, (_, i) => `  C${i}: sample\n`).join('');
+    expect(stop(`name: x\nsample_types:\n${codes}  C17: blank\n${OK_FORMULAS}`)).toBe(
+      'm.yaml, line 40003: cannot read the method as YAML: the key "C17" is given twice (first at line 20)',
+    );
+  });
+});

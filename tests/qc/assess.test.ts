@@ -193,6 +193,15 @@ describe('blanks and reporting limits', () => {
     expect(r.qc.status).toEqual(['fail', '', '', '', '', 'pass']);
   });
 
+  it('names the first ten failing controls in a sample\'s flag and counts the rest (bounded words, whatever the batch)', () => {
+    const blanks = Array.from({ length: 13 }, (_, i) => ({ ...blank(0.7, { reporting_limit: 0.5 }), sample_id: `MB${i + 1}` }));
+    const r = run([...blanks, sample('S1', 3, { reporting_limit: 0.5 }), sample('S2', 3, { reporting_limit: 0.5 })]);
+    const named = Array.from({ length: 10 }, (_, i) => `blank "MB${i + 1}"`).join(', ');
+    expect(flagsOf(r, 13, 'BLANK_ASSOC')[0]!.message).toBe(`row 15: qualified by ${named}, and 3 more: at or above the reporting limit`);
+    expect(flagsOf(r, 14, 'BLANK_ASSOC')[0]!.message).toBe(`row 16: qualified by ${named}, and 3 more: at or above the reporting limit`);
+    expect(r.rowFlags.filter((f) => f === 'BLANK_ASSOC')).toHaveLength(2);
+  });
+
   it.each([
     ['below the RL', 0.49, 'BELOW_RL'],
     ['exactly at the RL', 0.5, ''],
