@@ -23,7 +23,10 @@
  * writes the table to bench/results/<date>.md.
  *
  *   npm run bench -- [--sizes 10000,50000,200000,1000000] [--runs N] [--warmup N]
- *                    [--variants csv,xlsx,html] [--out FILE | --no-write] [--json FILE] [--keep DIR] [--no-small]
+ *                    [--variants csv,xlsx,html] [--out FILE | --no-write] [--json FILE] [--keep DIR] [--no-small] [--no-hostile]
+ *
+ * It also runs the hostile inputs of bench/hostile.mjs once each (a huge batch of failing
+ * blanks, a method of 40,000 codes, ...) and judges them against their time and memory ceilings.
  */
 import { spawn } from 'node:child_process';
 import { existsSync, mkdirSync, readFileSync, readdirSync, rmSync, statSync, createReadStream, writeFileSync } from 'node:fs';
@@ -34,6 +37,7 @@ import { performance } from 'node:perf_hooks';
 import Papa from 'papaparse';
 import { writeWorklist } from './generate.mjs';
 import { FLOOR_COLUMNS } from './floor-columns.mjs';
+import { HOSTILE_CASES } from './hostile.mjs';
 
 const ROOT = resolve(dirname(fileURLToPath(import.meta.url)), '..');
 const CLI = join(ROOT, 'dist', 'cli.js');
@@ -44,7 +48,7 @@ const TIME = process.env.PHASEBOOK_BENCH_TIME ?? '/usr/bin/time';
 const DEFAULT_SIZES = [10_000, 50_000, 200_000, 1_000_000];
 
 export function parseArgs(argv) {
-  const opts = { sizes: DEFAULT_SIZES, runs: undefined, warmup: 1, variants: ['csv', 'xlsx', 'html'], out: undefined, write: true, json: undefined, keep: undefined, small: true };
+  const opts = { sizes: DEFAULT_SIZES, runs: undefined, warmup: 1, variants: ['csv', 'xlsx', 'html'], out: undefined, write: true, json: undefined, keep: undefined, small: true, hostile: true };
   for (let i = 0; i < argv.length; i++) {
     const a = argv[i];
     const next = () => {
@@ -61,6 +65,7 @@ export function parseArgs(argv) {
     else if (a === '--json') opts.json = next();
     else if (a === '--keep') opts.keep = next();
     else if (a === '--no-small') opts.small = false;
+    else if (a === '--no-hostile') opts.hostile = false;
     else throw new Error(`unknown option "${a}"`);
   }
   for (const v of opts.variants) if (!['csv', 'xlsx', 'html'].includes(v)) throw new Error(`expected variants csv, xlsx and/or html, got "${v}"`);
@@ -310,10 +315,19 @@ async function main() {
     log(`     40 every output     ${fmt(small.wallS)} s wall, ${fmt(small.cpuS)} s cpu`);
     log(`     40 csv only         ${fmt(small.csv.wallS)} s wall, ${fmt(small.csv.cpuS)} s cpu`);
   }
+  const hostile = [];
+  if (opts.hostile) {
+    for (const c of HOSTILE_CASES) {
+      const run = c.make(work, CLI, METHOD);
+      const m = await measure(process.execPath, run.args, { okCodes: run.okCodes, scratch: work });
+      hostile.push({ name: c.name, wallS: m.wallS, peakMb: m.peakMb, maxWallS: run.maxWallS, maxPeakMb: run.maxPeakMb });
+      log(`  hostile: ${c.name}: ${fmt(m.wallS)} s wall, ${fmt(m.peakMb, 0)} MB (ceilings ${run.maxWallS} s, ${run.maxPeakMb} MB)`);
+    }
+  }
   const loadAfter = loadavg();
   if (!opts.keep) rmSync(work, { recursive: true, force: true });
 
-  const report = { started: started.toISOString(), machine: machine(), commit: gitDescribe(), loadBefore, loadAfter, results, checks, small };
+  const report = { started: started.toISOString(), machine: machine(), commit: gitDescribe(), loadBefore, loadAfter, results, checks, small, hostile };
   const md = renderMarkdown(report);
   process.stdout.write(md);
   if (opts.json) writeFileSync(opts.json, JSON.stringify(report, null, 2));
@@ -324,6 +338,7 @@ async function main() {
     log(`bench: wrote ${file}`);
   }
   if (checks.some((c) => !c.identical)) process.exitCode = 1;
+  if (hostile.some((h) => h.wallS > h.maxWallS || h.peakMb > h.maxPeakMb)) process.exitCode = 1;
 }
 
 function nextResultsFile(date) {
@@ -404,6 +419,17 @@ export function renderMarkdown(report) {
     L.push('');
     for (const c of report.checks) {
       L.push(`- ${fmtRows(c.size)}: ${c.identical ? `identical (${c.rows} rows)` : `DIFFERENT: ${JSON.stringify(c.diffs)}`}`);
+    }
+  }
+  if (report.hostile?.length) {
+    L.push('');
+    L.push('Hostile inputs (issue 19), one run each, against their ceilings:');
+    L.push('');
+    L.push('| case | wall s | peak MB | ceiling | within |');
+    L.push('|---|---:|---:|---|---|');
+    for (const h of report.hostile) {
+      const ok = h.wallS <= h.maxWallS && h.peakMb <= h.maxPeakMb;
+      L.push(`| ${h.name} | ${fmt(h.wallS)} | ${fmt(h.peakMb, 0)} | ${h.maxWallS} s, ${h.maxPeakMb} MB | ${ok ? 'yes' : 'NO'} |`);
     }
   }
   const targets = judgeTargets(report);

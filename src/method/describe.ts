@@ -106,7 +106,8 @@ function codeTexts(method: Method): Map<string, string> {
   const out = new Map<string, string>();
   let written: unknown;
   try {
-    written = (parse(method.text) as { sample_types?: unknown } | null)?.sample_types;
+    // Keys were checked for uniqueness when the method was loaded (the library's own check is quadratic).
+    written = (parse(method.text, { uniqueKeys: false }) as { sample_types?: unknown } | null)?.sample_types;
   } catch {
     return out; // a method built in code, not from this text: show the lower-case codes
   }

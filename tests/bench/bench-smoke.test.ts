@@ -28,7 +28,7 @@ beforeAll(() => {
   const json = join(work, 'report.json');
   const r = spawnSync(
     process.execPath,
-    [join(ROOT, 'bench/run.mjs'), '--sizes', String(SIZE), '--runs', '1', '--warmup', '0', '--no-small', '--no-write', '--json', json, '--keep', work],
+    [join(ROOT, 'bench/run.mjs'), '--sizes', String(SIZE), '--runs', '1', '--warmup', '0', '--no-small', '--no-hostile', '--no-write', '--json', json, '--keep', work],
     { cwd: ROOT, encoding: 'utf8', timeout: 600_000 },
   );
   run = { code: r.status, stdout: r.stdout, stderr: r.stderr };
