@@ -240,7 +240,9 @@ export function compileFormula(
           const op = BINARY[fn];
           if (op) return (ctx) => { const af = a(ctx); const bf = b(ctx); return (r) => op(af(r), bf(r)); };
         }
-        throw new FormulaError(`the operator "${String(any.op)}" is not allowed (use mod() or /100 instead of %)`);
+        // % is mathjs's percent or remainder: neither is a method's arithmetic, and there is no mod() to offer instead.
+        const hint = any.op === '%' ? ' (write a percentage as /100)' : '';
+        throw new FormulaError(`the operator "${String(any.op)}" is not allowed${hint}`);
       }
       case 'FunctionNode': {
         const fnNode = any.fn as MathNode;

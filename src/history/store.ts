@@ -247,8 +247,11 @@ export function verifyHistory(db: Database, file: string): number {
     if (objects.some((o) => o.type === 'table' && o.name === 'meta')) {
       marker = db.prepare("SELECT value FROM meta WHERE key = 'application'").pluck().get();
     }
-  } catch {
-    marker = undefined; // a foreign "meta" table with other columns
+  } catch (err) {
+    // A foreign "meta" table with other columns has no marker; a damaged page is damage, not a foreign file.
+    const code = (err as { code?: unknown } | null)?.code;
+    if (typeof code === 'string' && (code.startsWith('SQLITE_CORRUPT') || code === 'SQLITE_NOTADB' || code.startsWith('SQLITE_IOERR'))) throw err;
+    marker = undefined;
   }
   if (marker !== APPLICATION_MARKER) {
     const tables = objects.filter((o) => o.type === 'table').map((o) => `"${o.name}"`);

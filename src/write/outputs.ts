@@ -1,5 +1,5 @@
-import { mkdir } from 'node:fs/promises';
-import { basename, extname, join } from 'node:path';
+import { mkdir, rmdir, stat } from 'node:fs/promises';
+import { basename, dirname, extname, join, resolve } from 'node:path';
 import { StopError, fsReason } from '../errors.js';
 import type { RecalcResult } from '../pipeline.js';
 import { commitAll, type WriteJob } from './atomic.js';
@@ -60,13 +60,38 @@ function outputStem(worklistPath: string): string {
   return basename(worklistPath, extname(worklistPath));
 }
 
+/**
+ * The real reason a recursive mkdir failed: Node's recursive mkdir reports ENOENT on a
+ * read-only file system (and in other cases where a parent exists), which would read as
+ * "no such file". Find the nearest folder that exists and create its child plainly.
+ */
+async function whyMkdirFailed(path: string, err: unknown): Promise<unknown> {
+  if ((err as { code?: string }).code !== 'ENOENT') return err;
+  let child = resolve(path);
+  for (let parent = dirname(child); parent !== child; child = parent, parent = dirname(parent)) {
+    try {
+      if (!(await stat(parent)).isDirectory()) return err;
+    } catch {
+      continue; // not there either: go up
+    }
+    try {
+      await mkdir(child);
+      await rmdir(child); // it could be made after all: the first error stands
+      return err;
+    } catch (plain) {
+      return plain;
+    }
+  }
+  return err;
+}
+
 /** Write the chosen outputs atomically: all of them, or none (DESIGN.md §7). */
 export async function writeOutputs(result: RecalcResult, options: WriteOptions): Promise<Record<string, string[]>> {
   const kinds = options.outputs ?? OUTPUT_KINDS;
   try {
     await mkdir(options.outDir, { recursive: true });
   } catch (err) {
-    throw new StopError('output', `cannot create the output folder: ${fsReason(err)}`, {
+    throw new StopError('output', `cannot create the output folder: ${fsReason(await whyMkdirFailed(options.outDir, err))}`, {
       file: options.outDir,
     });
   }

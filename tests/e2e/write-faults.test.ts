@@ -7,8 +7,9 @@
  * and leave the worklist as it was. Found before: a full disk while the workbook was
  * written ended the process with exit 0, no message and no file.
  */
+import { spawnSync } from 'node:child_process';
 import { createHash } from 'node:crypto';
-import { existsSync, readdirSync, readFileSync, rmSync } from 'node:fs';
+import { existsSync, mkdirSync, readdirSync, readFileSync, rmSync } from 'node:fs';
 import { join } from 'node:path';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 // @ts-expect-error: the bench generator is plain JavaScript (bench/generate.mjs)
@@ -109,5 +110,27 @@ describe('the same runs without a fault', () => {
       'kestrel-brook-2026-11.results.csv',
       'kestrel-brook-2026-11.xlsx',
     ]);
+  });
+});
+
+describe('a read-only file system', () => {
+  // A real read-only mount (a small tmpfs) where the test runs as root and may mount; elsewhere there is none to try.
+  let mnt = '';
+  beforeAll(() => {
+    const dir = join(root, 'ro');
+    mkdirSync(dir);
+    if (process.getuid?.() === 0 && spawnSync('mount', ['-t', 'tmpfs', '-o', 'size=64k,ro', 'tmpfs', dir]).status === 0) mnt = dir;
+  });
+  afterAll(() => {
+    if (mnt) spawnSync('umount', [mnt]);
+  });
+
+  it('is named as read-only, not "no such file", for a folder to be made and for the folder itself', (ctx) => {
+    if (!mnt) ctx.skip();
+    for (const out of [join(mnt, 'results', 'today'), mnt]) {
+      const r = runCli(['recalc', WORKLIST, '-m', METHOD, '-o', out]);
+      expect(r.code).toBe(2);
+      expect(r.stderr).toMatch(/the file system is read-only\nNothing was written\.\n$/);
+    }
   });
 });

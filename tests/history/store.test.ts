@@ -194,6 +194,22 @@ describe('refusing files that are not a phasebook history', () => {
     await expect(readHistory(file)).rejects.toThrow('does not exist; record runs into it first with "phasebook recalc --history"');
   });
 
+  it('calls a history with a damaged page damaged, not "without the phasebook marker"', async () => {
+    const file = fresh('damaged');
+    await recordRun(file, runA, { timestamp: runTime(1) });
+    const db = new Database(file, { readonly: true });
+    const page = db.prepare("SELECT rootpage FROM sqlite_schema WHERE name = 'meta'").pluck().get() as number;
+    const pageSize = db.pragma('page_size', { simple: true }) as number;
+    db.close();
+    // Overwrite the start of the meta table's page (its b-tree header) with garbage, as a bad disk block would.
+    const bytes = readFileSync(file);
+    bytes.fill(0xde, (page - 1) * pageSize, (page - 1) * pageSize + 256);
+    writeFileSync(file, bytes);
+    for (const read of [() => readHistory(file), () => recordRun(file, runB, { timestamp: runTime(2) })]) {
+      await expect(read()).rejects.toThrow('the QC history is damaged: database disk image is malformed');
+    }
+  });
+
   it.each<[string, () => string, (file: string) => string]>([
     ['its folder is missing', () => join(dir, 'no-such-folder', 'h.db'), (file) => `the QC history cannot be created: the folder ${join(file, '..')} does not exist`],
     ['it is a folder', () => dir, () => 'the QC history cannot be opened: check that it is a file and that you may read and write it'],
