@@ -15,6 +15,7 @@ import { registerPlanCommand } from './commands/plan.js';
 import { registerVerifyCommand } from './commands/verify.js';
 import type { RecalcResult } from './pipeline.js';
 import { runRecalc } from './run.js';
+import { describeFailedControl } from './summary/failures.js';
 import { VERSION } from './version.js';
 import { installInterruptCleanup } from './write/atomic.js';
 import { OUTPUT_KINDS, type OutputKind } from './write/outputs.js';
@@ -153,6 +154,9 @@ export function exitCodeOf(result: RecalcResult): number {
   return inputErrors || failedControl || result.verdict.verdict === 'fail' ? EXIT.findings : EXIT.ok;
 }
 
+/** Failed controls named on the terminal before the rest are counted. */
+const TERMINAL_FAILED_CONTROLS = 20;
+
 function describeRun(result: RecalcResult, written: Record<string, string[]>): string {
   const errors = result.table.rowError.reduce((a, b) => a + b, 0);
   const controls = result.qc.status.filter((s) => s !== '').length;
@@ -166,7 +170,16 @@ function describeRun(result: RecalcResult, written: Record<string, string[]>): s
   for (const g of result.groups) {
     if (g.verdict === 'fail') lines.push(`  FAIL ${g.batch ? `batch ${g.batch}, ` : ''}${g.analyte}: ${g.reasons.join('; ')}`);
   }
-  lines.push(`Batch verdict: ${result.verdict.verdict.toUpperCase()}`);
+  // Every failed control by name, value and limit (tolerated ones too): the verdict alone may say PASS.
+  const failedControls = result.verdict.failedControls;
+  if (failedControls.length > 0) {
+    lines.push(`Failed controls (${failedControls.length}):`);
+    for (const c of failedControls.slice(0, TERMINAL_FAILED_CONTROLS)) lines.push(`  ${describeFailedControl(c)}`);
+    const more = failedControls.length - TERMINAL_FAILED_CONTROLS;
+    if (more > 0) lines.push(`  and ${more.toLocaleString('en-US')} more: the workbook's Summary sheet and the results CSV list every one`);
+  }
+  const h = result.verdict.headline;
+  lines.push(`Batch verdict: ${h.label}: ${h.sentence}`);
   return lines.join('\n') + '\n';
 }
 

@@ -103,6 +103,8 @@ export async function renderReport(result: RecalcResult, options: ReportOptions)
   const groups = index.groups.get(batch) ?? [];
   const failed = groups.filter((g) => g.verdict === 'fail');
   const verdict = failed.length ? 'fail' : 'pass';
+  const headline = result.verdict.batches.find((b) => b.batch === batch)?.headline ?? result.verdict.headline;
+  const failedControls = result.verdict.failedControls.filter((c) => c.batch === batch);
   const analytes = [...new Set(rows.map((r) => text(result, 'analyte', r)))];
   const flags = index.flags.get(batch) ?? [];
   const title = batch ? `Batch ${batch}` : `Worklist ${result.worklist.name}`;
@@ -131,8 +133,15 @@ export async function renderReport(result: RecalcResult, options: ReportOptions)
 <header>
 <h1>${title}</h1>
 <p class="lead">QC report of ${result.worklist.name}, recalculated with method ${m.title || m.name}</p>
-<p><span class="verdict ${verdict}" id="verdict">${verdict.toUpperCase()}</span></p>
+<p><span class="verdict ${verdict}" id="verdict">${headline.label}</span> <span id="headline">${headline.sentence}</span></p>
 ${failed.length ? html`<ul class="reasons">${failed.map((g) => html`<li><strong>${g.analyte}</strong>: ${g.reasons.join('; ')}</li>`)}</ul>` : ''}
+${
+  failedControls.length
+    ? html`<section id="failed-controls"><h2>Failed controls</h2><ul class="failed">${failedControls.map(
+        (c) => html`<li><strong>${c.sampleId}</strong> (${c.type === 'qc' && c.level ? `qc ${c.level}` : c.type || 'unknown type'}), ${c.analyte}${c.tolerated ? ', tolerated by the run rule' : ''}: ${c.findings.map((f) => `${f.code}: ${f.message}`).join('; ') || 'failed'}</li>`,
+      )}</ul></section>`
+    : ''
+}
 <dl class="facts">
 <dt>Worklist</dt><dd>${result.worklist.name} (${result.worklist.bytes} bytes)</dd>
 <dt>Worklist SHA-256</dt><dd class="mono">${result.worklist.sha256}</dd>

@@ -3,6 +3,7 @@ import { SAMPLE_TYPES, type SampleType } from '../columns/fields.js';
 import { FAILING_CODES, type Flag, type FlagCode } from '../issues.js';
 import type { QcResult, QcStatus, RunRuleOutcome } from '../qc/assess.js';
 import { mean, minMax, rsdPct, sampleSd } from '../qc/stats.js';
+import { failedControls, headline, type FailedControl, type Headline } from './failures.js';
 
 /** Recoveries of one row type (and, for qc rows, one level) within a batch and analyte. */
 export interface RecoveryStats {
@@ -56,6 +57,8 @@ export interface BatchVerdict {
   batch: string;
   verdict: 'pass' | 'fail';
   reasons: string[];
+  /** The sentence the batch's report leads with. */
+  headline: Headline;
 }
 
 export interface Verdict {
@@ -63,6 +66,10 @@ export interface Verdict {
   reasons: string[];
   /** One verdict per batch (fail when any analyte of the batch fails). */
   batches: BatchVerdict[];
+  /** Every control that failed, tolerated by the run rule or not, in worklist order. */
+  failedControls: FailedControl[];
+  /** The sentence every output leads with: all passed, accepted with failed QCs, no controls, or failed. */
+  headline: Headline;
 }
 
 export interface SummaryInput {
@@ -110,6 +117,7 @@ export function summarize(input: SummaryInput): { groups: GroupSummary[]; overal
   const failingCodes = (r: number) => [...(codesByRow.get(r) ?? [])].filter((c) => FAILING_CODES.has(c));
 
   const groups: GroupSummary[] = [];
+  const toleratedRows = new Set<number>();
   for (const rows of rowsByGroup.values()) {
     const b = batch[rows[0]!]!;
     const a = analyte[rows[0]!]!;
@@ -181,6 +189,7 @@ export function summarize(input: SummaryInput): { groups: GroupSummary[]; overal
     const outside = tolerated.map((r) => `${describe(r)} (${failingCodes(r).join(', ')})`).join(', ');
     if (rule && !rule.accepted) reasons.push(`run rule rejects the run: ${rule.reason}${outside ? `; failed: ${outside}` : ''}`);
     else if (rule && outside) notes.push(`run rule accepts the run with ${rule.passed} of ${rule.total} qc rows passing; failed: ${outside}`);
+    if (rule?.accepted) for (const r of tolerated) toleratedRows.add(r);
 
     groups.push({
       batch: b,
@@ -201,6 +210,35 @@ export function summarize(input: SummaryInput): { groups: GroupSummary[]; overal
     });
   }
 
+  const failed = failedControls({
+    rowCount: n,
+    sampleType: input.sampleType,
+    texts: input.texts,
+    rowError: input.rowError,
+    flags: input.flags,
+    status: input.qc.status,
+    tolerated: (r) => toleratedRows.has(r),
+  });
+  // Counts per batch ('' for a worklist without batch ids) and over the whole worklist.
+  const countsOf = new Map<string, { controls: number; failed: number; tolerated: number; inputErrors: number }>();
+  const countFor = (b: string) => {
+    let c = countsOf.get(b);
+    if (!c) countsOf.set(b, (c = { controls: 0, failed: 0, tolerated: 0, inputErrors: 0 }));
+    return c;
+  };
+  for (let r = 0; r < n; r++) {
+    const c = countFor(batch[r]!);
+    if (input.qc.status[r] !== '') c.controls++;
+    if (input.rowError[r]) c.inputErrors++;
+  }
+  for (const f of failed) {
+    const c = countFor(f.batch);
+    c.failed++;
+    if (f.tolerated) c.tolerated++;
+  }
+  const total = { controls: 0, failed: 0, tolerated: 0, inputErrors: 0 };
+  for (const c of countsOf.values()) for (const k of Object.keys(total) as (keyof typeof total)[]) total[k] += c[k];
+
   const batches: BatchVerdict[] = [];
   const byBatch = new Map<string, GroupSummary[]>();
   for (const g of groups) {
@@ -209,14 +247,18 @@ export function summarize(input: SummaryInput): { groups: GroupSummary[]; overal
     byBatch.set(g.batch, list);
   }
   for (const [b, gs] of byBatch) {
-    const failed = gs.filter((g) => g.verdict === 'fail');
-    batches.push({ batch: b, verdict: failed.length ? 'fail' : 'pass', reasons: failed.map((g) => `${analyteLabel(g.analyte)}: ${g.reasons.join('; ')}`) });
+    const failedGroups = gs.filter((g) => g.verdict === 'fail');
+    const verdict = failedGroups.length ? 'fail' : 'pass';
+    batches.push({ batch: b, verdict, reasons: failedGroups.map((g) => `${analyteLabel(g.analyte)}: ${g.reasons.join('; ')}`), headline: headline(verdict, countFor(b)) });
   }
   const failedGroups = groups.filter((g) => g.verdict === 'fail');
+  const verdict = failedGroups.length ? 'fail' : 'pass';
   const overall: Verdict = {
-    verdict: failedGroups.length ? 'fail' : 'pass',
+    verdict,
     reasons: failedGroups.map((g) => `${g.batch ? `batch ${g.batch}, ` : ''}${analyteLabel(g.analyte)}: ${g.reasons.join('; ')}`),
     batches,
+    failedControls: failed,
+    headline: headline(verdict, total),
   };
   return { groups, overall };
 }

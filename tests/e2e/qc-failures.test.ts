@@ -8,6 +8,7 @@ import { existsSync, mkdtempSync, readFileSync, rmSync, writeFileSync } from 'no
 import { tmpdir } from 'node:os';
 import { join } from 'node:path';
 import { fileURLToPath } from 'node:url';
+import ExcelJS from 'exceljs';
 import Papa from 'papaparse';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 
@@ -125,7 +126,16 @@ describe('phasebook recalc over a worklist with every kind of QC failure', () =>
     expect(lines.slice(1)).toEqual([
       '  FAIL batch P1, carbamazepine: BLANK_HIT: blank "P1-MB"; REC_HIGH: lcs "P1-LCS"; REC_LOW: ms "S-101-MS"; RPD_HIGH: msd "S-101-MSD"; NO_PARENT: dup "S-105-DUP"; INPUT_ERROR: sample "S-104"',
       '  FAIL batch P2, carbamazepine: INPUT_ERROR: qc "P2-QCX"; run rule rejects the run: 1 of 3 qc rows at level low pass, fewer than 50 %; failed: qc "P2-QCL-2" (REC_LOW), qc "P2-QCL-3" (REC_LOW)',
-      'Batch verdict: FAIL',
+      'Failed controls (8):',
+      '  blank "P1-MB", carbamazepine, batch P1: BLANK_HIT: row 2, column "pre_extraction_conc": blank at or above the reporting limit: expected below 0.5 ng/mL, got "0.800113 ng/mL"',
+      '  lcs "P1-LCS", carbamazepine, batch P1: REC_HIGH: row 3, column "spike_recovery_pct": recovery above its limit: expected 70–130 %, got "135.016 %"',
+      '  ms "S-101-MS", carbamazepine, batch P1: REC_LOW: row 9, column "spike_recovery_pct": recovery below its limit: expected 70–130 %, got "49.973 %"',
+      '  msd "S-101-MSD", carbamazepine, batch P1: RPD_HIGH: row 10, column "rpd_pct": RPD above its limit: expected at most 20 %, got "29.5537 %"',
+      '  dup "S-105-DUP", carbamazepine, batch P1: NO_PARENT: row 11, column "parent_id": expected parent_id to name a sample row of carbamazepine, got "S-105"',
+      '  qc low "P2-QCL-2", carbamazepine, batch P2: REC_LOW: row 23, column "spike_recovery_pct": recovery below its limit: expected 85–115 %, got "79.9944 %"',
+      '  qc low "P2-QCL-3", carbamazepine, batch P2: REC_LOW: row 24, column "spike_recovery_pct": recovery below its limit: expected 85–115 %, got "81.9943 %"',
+      '  qc mid "P2-QCX", carbamazepine, batch P2: INPUT_ERROR: row 35, column "extract_conc": expected a number, got "n/a"',
+      'Batch verdict: FAIL: 8 controls failed and 2 rows have an input error',
     ]);
   });
 });
@@ -133,7 +143,7 @@ describe('phasebook recalc over a worklist with every kind of QC failure', () =>
 describe('exit code when only qc rows the run rule accepts have failed', () => {
   // ICH M10: 5 of 6 qc rows pass and each level has at least 50 % → the run is accepted, so the verdict
   // passes; the failed qc row still fails its own status, and any failed control means exit 1 (issue 3 §10).
-  it('prints a PASS verdict and exits 1', () => {
+  it('prints a PASS verdict, names the failed qc row everywhere, and exits 1', async () => {
     const dir = mkdtempSync(join(tmpdir(), 'phasebook-qc-e2e-'));
     try {
       const head = 'sample_id,sample_type,batch_id,analyte,extract_conc,sample_volume,solvent_volume,spike_conc,qc_level';
@@ -142,8 +152,31 @@ describe('exit code when only qc rows the run rule accepts have failed', () => {
       const worklist = join(dir, 'accepted-run.csv');
       writeFileSync(worklist, csv + '\n');
       if (!existsSync(CLI)) throw new Error('dist/cli.js is missing: build first');
-      const res = spawnSync(process.execPath, [CLI, 'recalc', worklist, '-m', 'templates/generic-lle.yaml', '-o', join(dir, 'out'), '--outputs', 'csv'], { cwd: ROOT, encoding: 'utf8' });
-      expect(res.stderr.trimEnd().split('\n').slice(1)).toEqual(['Batch verdict: PASS']);
+      const res = spawnSync(process.execPath, [CLI, 'recalc', worklist, '-m', 'templates/generic-lle.yaml', '-o', join(dir, 'out'), '--outputs', 'csv,xlsx,html'], { cwd: ROOT, encoding: 'utf8' });
+      // The run rule accepts the run, so the verdict is PASS; but the failed qc row is named with its value and
+      // limit, and the words say "accepted with failed QCs", never "every control passed" (issue 14).
+      expect(res.stderr.trimEnd().split('\n').slice(1)).toEqual([
+        'Failed controls (1):',
+        '  qc low "QL2", metoprolol, batch R1 (tolerated by the run rule): REC_LOW: row 4, column "spike_recovery_pct": recovery below its limit: expected 85–115 %, got "80 %"',
+        'Batch verdict: PASS: run accepted with failed QCs: the run rule accepts the run, but 1 qc row failed',
+      ]);
+      // The workbook's first sheet and the report say the same.
+      const wb = new ExcelJS.Workbook();
+      await wb.xlsx.readFile(join(dir, 'out', 'accepted-run.xlsx'));
+      const summary = wb.getWorksheet('Summary')!;
+      const cellsOf = (ws: ExcelJS.Worksheet) => {
+        const texts: string[] = [];
+        ws.eachRow((row) => row.eachCell((c) => texts.push(String(c.text))));
+        return texts;
+      };
+      const texts = cellsOf(summary);
+      expect(texts).toContain('run accepted with failed QCs: the run rule accepts the run, but 1 qc row failed');
+      expect(texts).not.toContain('every control passed and no row has an input error');
+      expect(texts).toContain('failed; the run rule accepts the run');
+      expect(texts.some((t) => t.includes('REC_LOW: row 4, column "spike_recovery_pct": recovery below its limit: expected 85–115 %, got "80 %"'))).toBe(true);
+      const report = readFileSync(join(dir, 'out', 'accepted-run.R1.report.html'), 'utf8');
+      expect(report).toContain('<span id="headline">run accepted with failed QCs: the run rule accepts the run, but 1 qc row failed</span>');
+      expect(report).toContain('<strong>QL2</strong> (qc low), metoprolol, tolerated by the run rule: REC_LOW: row 4');
       expect(res.stderr).toContain('7 rows from');
       expect(res.stderr).toContain('6 control rows, 1 failed');
       expect(res.status).toBe(1);

@@ -471,6 +471,13 @@ describe('bioanalytical run rule (ICH M10: ≥ 2/3 of all qc rows and ≥ 50 % a
     const r = run(plan({ low: [true, false], mid: [true, true], high: [true, true] }));
     expect(r.groups[0]!.reasons).toEqual([]);
     expect(r.groups[0]!.notes).toEqual(['run rule accepts the run with 5 of 6 qc rows passing; failed: qc "QC-low-1" (REC_LOW)']);
+    // PASS, but never "every control passed": the failed qc row is named with its value and limit.
+    expect(r.verdict.headline).toEqual({
+      kind: 'accepted-with-failures',
+      label: 'PASS',
+      sentence: 'run accepted with failed QCs: the run rule accepts the run, but 1 qc row failed',
+    });
+    expect(r.verdict.failedControls.map((c) => [c.sampleId, c.level, c.tolerated, c.findings.map((f) => f.code)])).toEqual([['QC-low-1', 'low', true, ['REC_LOW']]]);
   });
 
   it('is judged per batch and analyte', () => {
@@ -480,9 +487,13 @@ describe('bioanalytical run rule (ICH M10: ≥ 2/3 of all qc rows and ≥ 50 % a
       ['B1', true],
       ['B2', false],
     ]);
-    expect(r.verdict.batches).toEqual([
+    expect(r.verdict.batches.map(({ headline, ...rest }) => rest)).toEqual([
       { batch: 'B1', verdict: 'pass', reasons: [] },
       { batch: 'B2', verdict: 'fail', reasons: ['atrazine: run rule rejects the run: 1 of 3 qc rows pass, fewer than 2/3; 1 of 3 qc rows at level low pass, fewer than 50 %; failed: qc "QC-low-0" (REC_LOW), qc "QC-low-1" (REC_LOW)'] },
+    ]);
+    expect(r.verdict.batches.map((b) => [b.headline.label, b.headline.kind])).toEqual([
+      ['PASS', 'all-passed'],
+      ['FAIL', 'failed'],
     ]);
   });
 
@@ -540,6 +551,12 @@ describe('verdict per analyte and batch', () => {
     const method = genericMethod({ append: 'analytes:\n  atrazine:\n    calibration_range: [1, 100]\n    reporting_limit: 0.5' });
     const r = run([{ sample_id: 'S1', extract_conc: 0.1 }, { sample_id: 'S2', extract_conc: 150 }], method);
     expect(r.rowFlags).toEqual(['BELOW_RL', 'OVER_RANGE']);
-    expect(r.verdict).toEqual({ verdict: 'pass', reasons: [], batches: [{ batch: 'B1', verdict: 'pass', reasons: [] }] });
+    expect(r.verdict).toMatchObject({ verdict: 'pass', reasons: [], batches: [{ batch: 'B1', verdict: 'pass', reasons: [] }], failedControls: [] });
+    // No control row at all: a pass that must not claim that every control passed.
+    expect(r.verdict.headline).toEqual({
+      kind: 'no-controls',
+      label: 'PASS',
+      sentence: 'no control row was judged: the worklist has none, so nothing here checks the extraction',
+    });
   });
 });

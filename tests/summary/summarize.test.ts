@@ -102,9 +102,13 @@ describe('groups and batches', () => {
       { sample_id: 'S', extract_conc: 1 },
     ]);
     expect(r.groups.map((g) => `${g.batch}/${g.analyte}/${g.verdict}`)).toEqual(['B2/atrazine/pass', 'B1/simazine/fail', 'B1/atrazine/pass']);
-    expect(r.verdict.batches).toEqual([
+    expect(r.verdict.batches.map(({ headline, ...rest }) => rest)).toEqual([
       { batch: 'B2', verdict: 'pass', reasons: [] },
       { batch: 'B1', verdict: 'fail', reasons: ['simazine: REC_LOW: lcs "L"'] },
+    ]);
+    expect(r.verdict.batches.map((b) => `${b.headline.label}: ${b.headline.sentence}`)).toEqual([
+      'PASS: no control row was judged: the worklist has none, so nothing here checks the extraction',
+      'FAIL: 1 control failed',
     ]);
     expect(r.verdict.reasons).toEqual(['batch B1, simazine: REC_LOW: lcs "L"']);
   });

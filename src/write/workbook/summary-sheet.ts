@@ -42,9 +42,16 @@ export function planSummarySheet(
   const v = result.verdict;
   const fail = v.verdict === 'fail';
   b.title(`Review workbook: ${result.worklist.name}`);
-  b.keyValue('Batch verdict', cell(v.verdict.toUpperCase(), { mark: fail ? 'fail' : undefined, style: 'label' }));
-  if (v.reasons.length === 0) b.keyValue('Why', fail ? null : 'every control passed and no row has an input error');
+  const h = v.headline;
+  const accepted = h.kind === 'accepted-with-failures';
+  b.keyValue('Batch verdict', cell(h.label, { mark: fail ? 'fail' : accepted ? 'inform' : undefined, style: 'label' }));
+  // Not wrapped: one line that runs on into the empty cells beside it, so it never overlaps the row below.
+  b.keyValue('In a sentence', cell(h.sentence, { mark: fail ? 'fail' : accepted ? 'inform' : undefined }));
   v.reasons.forEach((reason, i) => b.add([i === 0 ? cell('Why', { style: 'label' }) : undefined, cell(reason, { style: 'wrap' })], { labels: ['Why', 'Why'] }));
+  b.keyValue(
+    'Failed controls',
+    v.failedControls.length === 0 ? 'none' : `${v.failedControls.length}, listed under "Failed controls" below with their values and limits`,
+  );
   b.keyValue('Worklist', result.worklist.name);
   b.keyValue('Method', `${result.method.name}: ${result.method.title}${result.method.version ? ` (version ${result.method.version})` : ''}`);
   b.keyValue('Run time (UTC)', options.run.timestamp);
@@ -63,6 +70,24 @@ export function planSummarySheet(
     v.batches.map((bv) => [bv.batch || '(one batch)', cell(bv.verdict, { mark: bv.verdict === 'fail' ? 'fail' : undefined }), cell(bv.reasons.join('\n') || null, { style: 'wrap' })]),
   );
   b.blank();
+
+  if (v.failedControls.length > 0) {
+    b.title('Failed controls', 'section');
+    b.table(
+      ['sample id', 'row type', 'qc level', 'analyte', 'batch', 'row', 'judged', 'what failed'],
+      v.failedControls.map((c) => [
+        c.sampleId,
+        c.type || '(unknown)',
+        c.level || null,
+        c.analyte || '(no analyte)',
+        c.batch || '(one batch)',
+        result.raw.rowNumbers[c.row] ?? c.row + 2,
+        cell(c.tolerated ? 'failed; the run rule accepts the run' : 'failed', { mark: c.tolerated ? 'inform' : 'fail' }),
+        cell(c.findings.map((f) => `${f.code}: ${f.message}`).join('\n') || 'failed', { style: 'wrap' }),
+      ]),
+    );
+    b.blank();
+  }
 
   b.title('By batch and analyte', 'section');
   b.table(
