@@ -6,6 +6,7 @@ import { commitAll, type WriteJob } from './atomic.js';
 import { writeResultsCsv } from './csv.js';
 import { outputColumns } from './output-columns.js';
 import type { RunInfo } from './workbook.js';
+import { VERSION } from '../version.js';
 import { htmlReportJobs } from '../report/html.js';
 import type { TrendSeries } from '../history/trends.js';
 import type { OnProgress } from '../progress.js';
@@ -20,8 +21,11 @@ export interface WriteOptions {
   outputs?: readonly OutputKind[];
   /** Replace existing outputs (default false: an existing output stops the run before anything is written). */
   force?: boolean;
-  /** Facts about the run for the Provenance sheet. */
-  run: RunInfo;
+  /**
+   * Facts about the run for the Provenance sheet and the report. Default: now, the
+   * command "phasebook library call" and this phasebook's version.
+   */
+  run?: Partial<RunInfo>;
   /** QC history series (history/trends.ts) for the report's control charts and the workbook's Trends sheet. */
   history?: readonly TrendSeries[];
   /** The history file the series came from, as given (the Trends sheet names it). */
@@ -88,6 +92,12 @@ async function whyMkdirFailed(path: string, err: unknown): Promise<unknown> {
 /** Write the chosen outputs atomically: all of them, or none (DESIGN.md §7). */
 export async function writeOutputs(result: RecalcResult, options: WriteOptions): Promise<Record<string, string[]>> {
   const kinds = options.outputs ?? OUTPUT_KINDS;
+  const run: RunInfo = {
+    timestamp: options.run?.timestamp ?? new Date().toISOString(),
+    command: options.run?.command ?? 'phasebook library call (writeOutputs)',
+    version: options.run?.version ?? VERSION,
+    ...(options.run?.node !== undefined ? { node: options.run.node } : {}),
+  };
   try {
     await mkdir(options.outDir, { recursive: true });
   } catch (err) {
@@ -121,13 +131,13 @@ export async function writeOutputs(result: RecalcResult, options: WriteOptions):
   if (workbook) {
     // Loaded only when a workbook is written: exceljs takes a noticeable part of start-up.
     const history = options.history && { file: options.historyFile ?? 'QC history', series: options.history };
-    jobs.push({ target: paths.xlsx, write: async (tmp) => (await import('./workbook.js')).writeWorkbook(tmp, result, { run: options.run, history }) });
+    jobs.push({ target: paths.xlsx, write: async (tmp) => (await import('./workbook.js')).writeWorkbook(tmp, result, { run, history }) });
   }
   const written: Record<string, string[]> = {};
   if (kinds.includes('csv')) written.csv = [paths.csv];
   if (workbook) written.xlsx = [paths.xlsx];
   if (kinds.includes('html')) {
-    const html = htmlReportJobs(result, { outDir: options.outDir, stem: outputStem(result.worklist.path), history: options.history, run: options.run });
+    const html = htmlReportJobs(result, { outDir: options.outDir, stem: outputStem(result.worklist.path), history: options.history, run });
     // In a lane of their own: written while the CSV and the workbook are (see WriteJob.lane).
     jobs.push(...html.map((job) => ({ ...job, lane: 'reports' })));
     written.html = html.map((j) => j.target);
