@@ -61,7 +61,7 @@ export function buildProgram(io: { exit: (code: number) => void }): Command {
     .command('recalc')
     .description('recalculate a worklist (CSV or XLSX) with a method and write the results CSV and workbook')
     .argument('<worklist>', 'worklist file (.csv or .xlsx)')
-    .requiredOption('-m, --method <file>', 'method file (YAML), e.g. templates/generic-lle.yaml')
+    .requiredOption('-m, --method <file>', 'method file (YAML), or the name of a method (phasebook method list), e.g. surface-water')
     .requiredOption('-o, --out <dir>', 'folder to write the outputs into')
     .option('--sheet <name>', 'XLSX worklist: the sheet to read (default: the first)')
     .addOption(new Option('--outputs <list>', `outputs to write, comma-separated (${OUTPUT_KINDS.join(', ')})`).argParser(parseOutputs))

@@ -19,6 +19,8 @@ import { draftMethod, type DraftResult } from '../method/draft.js';
 import { loadMethod, parseMethod } from '../method/load.js';
 import { readWorklist } from '../read/worklist.js';
 import { writeFileAtomic } from '../write/atomic.js';
+import { delimiter } from 'node:path';
+import { listMethods, methodFolders, SHIPPED_METHODS } from '../method/find.js';
 
 
 const SCHEMA_PATH = fileURLToPath(SCHEMA_URL);
@@ -39,9 +41,26 @@ export function registerMethodCommand(program: Command, io: CommandIo): Command 
     .description('check a method file, or draft a first one from a worklist');
 
   method
+    .command('list')
+    .description('list the methods that can be named with -m: those in PHASEBOOK_METHODS folders, then the shipped ones')
+    .action(() => {
+      const methods = listMethods();
+      const width = Math.max(4, ...methods.map((m) => m.name.length));
+      const lines = methods.map((m) => `${m.name.padEnd(width)}  ${m.title || '(no title)'}${m.source === 'shipped' ? '' : `  [${m.file}]`}`);
+      stdout(`${lines.join('\n')}\n`);
+      const lab = methodFolders().filter((f) => f.source === 'PHASEBOOK_METHODS');
+      stderr(
+        lab.length
+          ? `phasebook: ${methods.length} methods: from ${lab.map((f) => f.folder).join(', ')} (PHASEBOOK_METHODS), then the shipped ones in ${SHIPPED_METHODS}\n`
+          : `phasebook: ${methods.length} shipped methods, in ${SHIPPED_METHODS}; set PHASEBOOK_METHODS to a folder of your own (several separated by "${delimiter}") to add yours\n`,
+      );
+      io.exit(EXIT.ok);
+    });
+
+  method
     .command('check')
     .description('validate a method and print it in plain words: fields and units, lab names, limits, formula order')
-    .argument('<method>', 'method file (YAML)')
+    .argument('<method>', 'method file (YAML), or the name of a method (phasebook method list)')
     .action((file: string) => {
       try {
         const loaded = loadMethod(file);

@@ -1,6 +1,7 @@
 import { createHash } from 'node:crypto';
 import { readFileSync, statSync } from 'node:fs';
 import { formatBytes } from '../format.js';
+import { resolveMethod } from './find.js';
 import { LineCounter, parseDocument, isNode, isScalar, visit, type Document } from 'yaml';
 import { StopError, fsReason } from '../errors.js';
 import { parseAcidBase } from '../chemistry/partition.js';
@@ -41,8 +42,12 @@ function refuseDuplicateKeys(doc: Document, where: { file: string; lineCounter: 
   });
 }
 
-/** Read a method file; throws a StopError('method') naming file, line and key. */
-export function loadMethod(path: string): Method {
+/**
+ * Read a method file, or a method by name (method/find.ts: PHASEBOOK_METHODS, then the
+ * shipped ones); throws a StopError('method') naming file, line and key.
+ */
+export function loadMethod(pathOrName: string): Method {
+  const path = resolveMethod(pathOrName);
   let text: string;
   try {
     // A UTF-8 character is at most 4 bytes: a larger file cannot be a method, and is not read.
