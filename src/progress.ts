@@ -4,7 +4,7 @@
  *
  * - Only on a terminal (the stream's isTTY), never with --quiet, and only once
  *   the work has taken more than a second (a small worklist shows nothing).
- * - NO_COLOR (https://no-color.org: set and not empty) leaves the bar uncoloured;
+ * - NO_COLOR (https://no-color.org: set and not empty) or TERM=dumb leaves the bar uncoloured;
  *   the line is cleared with spaces and a carriage return, never an escape code.
  * - The pipeline reports through a callback (`onProgress`) and prints nothing
  *   itself (STYLE.md habit 5); this module turns the reports into the line.
@@ -68,7 +68,8 @@ export class ProgressLine {
   constructor(options: ProgressOptions & { stream: ProgressStream }) {
     this.stream = options.stream;
     const env = options.env ?? process.env;
-    this.color = !(env.NO_COLOR !== undefined && env.NO_COLOR !== '');
+    // No colour with NO_COLOR, or on a terminal that says it is dumb (TERM=dumb: no escape codes).
+    this.color = !(env.NO_COLOR !== undefined && env.NO_COLOR !== '') && env.TERM !== 'dumb';
     this.delayMs = options.delayMs ?? 1000;
     this.intervalMs = options.intervalMs ?? 100;
     this.now = options.now ?? (() => performance.now());
@@ -94,23 +95,36 @@ export class ProgressLine {
     this.shownWidth = 0;
   }
 
-  /** The line at time `t`, without colour: bar, percent, estimate, then the row counts. */
-  render(t: number = this.now()): string {
+  /**
+   * The line at time `t`, without colour, at most `width` characters: bar and percent,
+   * then as many whole parts as fit (the estimate, rows read, evaluated, written), so a
+   * narrow terminal gets a shorter line, never one cut in the middle of a word.
+   */
+  render(t: number = this.now(), width = Infinity): string {
     const n = (x: number) => x.toLocaleString('en-US');
     const elapsed = (t - this.started) / 1000;
     const left = this.fraction > 0.02 ? (elapsed * (1 - this.fraction)) / this.fraction : NaN;
-    const estimate = Number.isFinite(left) ? `, about ${formatSeconds(left)} left` : '';
     const total = this.totalRows === undefined ? '' : ` of ${n(this.totalRows)}`;
-    return (
-      `phasebook: [${bar(this.fraction)}] ${Math.floor(this.fraction * 100)}%${estimate}; ` +
-      `rows read ${n(this.rows.read)}${total}, evaluated ${n(this.rows.evaluate)}, written ${n(this.rows.write)}`
-    );
+    const percent = `${Math.floor(this.fraction * 100)}%`;
+    const heads = [`phasebook: [${bar(this.fraction)}] ${percent}`, `[${bar(this.fraction)}] ${percent}`, percent];
+    const parts = [
+      Number.isFinite(left) ? `, about ${formatSeconds(left)} left` : '',
+      `; rows read ${n(this.rows.read)}${total}`,
+      `, evaluated ${n(this.rows.evaluate)}`,
+      `, written ${n(this.rows.write)}`,
+    ].filter((p) => p !== '');
+    let line = heads.find((h) => h.length <= width) ?? percent.slice(0, Math.max(0, width));
+    for (const part of parts) {
+      if (line.length + part.length > width) break;
+      line += part;
+    }
+    return line;
   }
 
   private draw(line: string): void {
-    // Cut to the terminal's width so the line never wraps (then \r could not take it back).
-    const width = Math.max(20, (this.stream.columns || 80) - 1); // 0 when the terminal does not say
-    const shown = line.length > width ? line.slice(0, width) : line;
+    // Fit the terminal's width so the line never wraps (then \r could not take it back).
+    const width = Math.max(4, (this.stream.columns || 80) - 1); // 0 when the terminal does not say
+    const shown = line.length > width ? this.render(this.now(), width) : line;
     const pad = this.shownWidth > shown.length ? ' '.repeat(this.shownWidth - shown.length) : '';
     const b = `[${bar(this.fraction)}]`;
     const text = this.color && shown.includes(b) ? shown.replace(b, `[\u001b[36m${b.slice(1, -1)}\u001b[39m]`) : shown;

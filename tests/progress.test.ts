@@ -88,6 +88,33 @@ describe('progress line (issue 6: on a terminal, work over a second shows progre
     expect(stream.out).toHaveLength(2);
   });
 
+  it.each([
+    [200, 'phasebook: [########------------] 40%, about 2 s left; rows read 123,456 of 200,000, evaluated 0, written 0'],
+    [100, 'phasebook: [########------------] 40%, about 2 s left; rows read 123,456 of 200,000, evaluated 0'],
+    [80, 'phasebook: [########------------] 40%, about 2 s left'],
+    [40, 'phasebook: [########------------] 40%'],
+    [30, '[########------------] 40%'],
+    [12, '40%'],
+  ])('at %i columns, fits in whole parts, never cut in a word', (columns, line) => {
+    const stream = terminal({ columns });
+    const c = clock();
+    const p = createProgress({ stream, now: c.now, env: { NO_COLOR: '1' } })!;
+    c.advance(1500);
+    // Reading done (40 % of the whole by the stage weights): 1.5 s so far, so about 2.25 s left.
+    p.update({ stage: 'read', rows: 123_456, totalRows: 200_000, fraction: 1 });
+    expect(stream.out[0]).toBe('\r' + line);
+    expect(line.length).toBeLessThan(columns);
+  });
+
+  it('TERM=dumb gets no colour', () => {
+    const stream = terminal();
+    const c = clock();
+    const p = createProgress({ stream, now: c.now, env: { TERM: 'dumb' } })!;
+    c.advance(1500);
+    p.update({ stage: 'write', rows: 10, totalRows: 20 });
+    expect(stream.out[0]!.includes('\u001b[')).toBe(false);
+  });
+
   it('a shorter line overwrites a longer one completely', () => {
     const stream = terminal();
     const c = clock();
