@@ -1,7 +1,8 @@
 /**
  * The report in a real browser: headless Chromium from Debian (`chromium`, at
  * /usr/bin/chromium) driven by playwright-core. Skipped only when that browser is
- * absent; CI installs it (.ci/run).
+ * absent on a developer's machine; CI installs it (.ci/run), and there a missing
+ * browser fails the tests (helpers/tools.ts).
  */
 import { existsSync, mkdirSync, mkdtempSync, rmSync } from 'node:fs';
 import { tmpdir } from 'node:os';
@@ -12,6 +13,7 @@ import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { htmlReportJobs } from '../../src/report/html.js';
 import { commitAll } from '../../src/write/atomic.js';
 import { EVIL_ANALYTE, EVIL_BATCH, EVIL_SAMPLE, REPORT_RUN, reportScenario } from './fixtures.js';
+import { skipWithout } from '../helpers/tools.js';
 
 const CHROMIUM = '/usr/bin/chromium';
 const ARTIFACTS = resolve('tests/artifacts');
@@ -30,7 +32,7 @@ interface ChartSeen {
   height: number;
 }
 
-describe.skipIf(!existsSync(CHROMIUM))('the HTML report in headless Chromium', () => {
+describe.skipIf(skipWithout('Chromium (/usr/bin/chromium)', existsSync(CHROMIUM)))('the HTML report in headless Chromium', () => {
   let dir: string;
   let browser: Browser;
   let files: string[];

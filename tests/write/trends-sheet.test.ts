@@ -23,6 +23,7 @@ import {
 import { disposeLibreOfficeProfile, isLibreOfficeAvailable, recalcWithLibreOffice } from '../helpers/libreoffice.js';
 import { REFERENCE_LCS, REPORT_RUN, reportScenario } from '../report/fixtures.js';
 import { close, editCopy, plain, readBook, rowWith, tempDir } from '../verify/workbook-fixtures.js';
+import { skipWithout } from '../helpers/tools.js';
 
 let dir: string;
 let current: RecalcResult;
@@ -213,7 +214,7 @@ describe('the written Trends sheet', () => {
     expect(d[0]).toMatchObject({ address: 'D10' });
   });
 
-  it.skipIf(!isLibreOfficeAvailable())(
+  it.skipIf(skipWithout('LibreOffice', isLibreOfficeAvailable()))(
     'LibreOffice recalculates the series table to the engine numbers from wrong cached values',
     async () => {
       const stale = join(dir, 'stale.xlsx');

@@ -24,6 +24,7 @@ import { verifyWorkbook } from '../../src/verify/verify.js';
 import { resultsLayout } from '../../src/write/workbook/results-sheet.js';
 import { findSoffice, isLibreOfficeAvailable } from '../helpers/libreoffice.js';
 import { ALL_CASES, FORM_CASES, close, editCopy, readBook, tempDir, writeCase, type WorkbookCase } from '../verify/workbook-fixtures.js';
+import { skipWithout } from '../helpers/tools.js';
 
 const STALE = -987654.321;
 
@@ -63,7 +64,7 @@ interface Prepared {
 
 const available = isLibreOfficeAvailable();
 
-describe.skipIf(!available)('the workbook recalculated by LibreOffice', () => {
+describe.skipIf(skipWithout('LibreOffice', available))('the workbook recalculated by LibreOffice', () => {
   const root = tempDir('phasebook-wb-lo-');
   const prepared: Prepared[] = [];
 
