@@ -19,7 +19,7 @@ import { outputColumns } from '../../src/write/output-columns.js';
 import { writeWorkbook } from '../../src/write/workbook.js';
 import { COLOURS } from '../../src/write/workbook/style.js';
 import { planWorkbook } from '../../src/write/workbook/plan.js';
-import { writePlannedWorkbook } from '../../src/write/workbook/write.js';
+import { directRowWriterAvailable, writePlannedWorkbook } from '../../src/write/workbook/write.js';
 import { CAUTIONS } from '../../src/write/workbook/provenance-sheet.js';
 import { resultsLayout } from '../../src/write/workbook/results-sheet.js';
 import { genericMethod, rawTable } from '../fixtures/qc/build.js';
@@ -369,6 +369,12 @@ describe('options', () => {
     );
     expect(notes).toBe(2);
     expect(fills).toBeGreaterThan(2);
+  });
+
+  it('the direct row writer is the one taken: this exceljs has the members it needs', () => {
+    // Without them writePlannedWorkbook falls back to exceljs's own row writer, and the comparison below would
+    // compare exceljs with itself; an upgrade that removes them must fail here.
+    expect(directRowWriterAvailable()).toBe(true);
   });
 
   it("the direct row writer and exceljs's own give the same cells, formulas, notes and fills", async () => {

@@ -15,6 +15,7 @@
  */
 import { once } from 'node:events';
 import { createWriteStream } from 'node:fs';
+import { PassThrough } from 'node:stream';
 import type ExcelJS from 'exceljs';
 // The streaming writer and the value types from their own files: the package's entry
 // also loads the workbook reader, the CSV parts and their dependencies, about half of
@@ -68,6 +69,18 @@ function internalsOf(ws: ExcelJS.Worksheet, wb: ExcelJS.stream.xlsx.WorkbookWrit
     typeof sheet.stream?.write === 'function' &&
     typeof styles?.addStyleModel === 'function';
   return ok ? { sheet: sheet as StreamingSheetInternals, styles: styles as StylesInternals } : undefined;
+}
+
+/**
+ * Whether this exceljs has the members the direct row writer needs (else every row goes
+ * through exceljs's own writer, correct but several times slower). For the test that
+ * guards the fast path: an exceljs upgrade that drops them must fail a test, not slow
+ * every workbook without a word.
+ */
+export function directRowWriterAvailable(): boolean {
+  const wb = new WorkbookWriter({ stream: new PassThrough(), useStyles: true, useSharedStrings: false });
+  const ws = wb.addWorksheet('probe');
+  return internalsOf(ws, wb) !== undefined;
 }
 
 const escapeText = (s: string): string =>
