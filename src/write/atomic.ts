@@ -160,7 +160,9 @@ async function clearLeftovers(folder: string, onNotice: AtomicWriteOptions['onNo
 }
 
 async function commitLocked(jobs: readonly WriteJob[], options: AtomicWriteOptions): Promise<void> {
-  outputsInPlace = false; // a new set is not in place until its renames are done
+  // A new set is not in place until its renames are done.
+  outputsInPlace = false;
+  interruptedAfterCommit = false;
   const force = options.force ?? false;
   const targets = jobs.map((j) => j.target);
   const twice = targets.find((t, i) => targets.indexOf(t) !== i);

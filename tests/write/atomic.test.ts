@@ -264,6 +264,29 @@ describe('installInterruptCleanup', () => {
   });
 });
 
+describe('an interrupt after the outputs are in place', () => {
+  it('lets the run finish and says so; a second interrupt stops it at once', async () => {
+    const events = ['SIGINT', 'SIGTERM', 'exit'] as const;
+    const before = Object.fromEntries(events.map((e) => [e, process.listeners(e)]));
+    installInterruptCleanup();
+    const handler = process.listeners('SIGINT').find((l) => !before.SIGINT!.includes(l)) as () => void;
+    const exit = vi.spyOn(process, 'exit').mockImplementation((() => undefined) as never);
+    const said = vi.spyOn(process.stderr, 'write').mockImplementation(() => true);
+    try {
+      await commitAll([{ target: join(dir, 'done.csv'), write: text('x') }]);
+      handler();
+      expect(exit).not.toHaveBeenCalled();
+      expect(said).toHaveBeenCalledWith('phasebook: interrupted after the outputs were complete; finishing the run\n');
+      expect(await readFile(join(dir, 'done.csv'), 'utf8')).toBe('x');
+      handler();
+      expect(exit).toHaveBeenCalledWith(130);
+    } finally {
+      for (const e of events) for (const l of process.listeners(e)) if (!before[e]!.includes(l)) process.removeListener(e, l as () => void);
+      vi.restoreAllMocks();
+    }
+  });
+});
+
 describe('commitAll lanes', () => {
   /**
    * A promise and its resolve, for a job to wait on a job of another lane. The wait
