@@ -16,6 +16,7 @@ import { registerVerifyCommand } from './commands/verify.js';
 import type { RecalcResult } from './pipeline.js';
 import { runRecalc } from './run.js';
 import { describeFailedControl } from './summary/failures.js';
+import { recalcJson, stopJson } from './commands/recalc-json.js';
 import { VERSION } from './version.js';
 import { installInterruptCleanup } from './write/atomic.js';
 import { OUTPUT_KINDS, type OutputKind } from './write/outputs.js';
@@ -71,6 +72,7 @@ export function buildProgram(io: { exit: (code: number) => void }): Command {
     .addOption(new Option('--max-unpacked <size>', 'refuse XLSX worklists that unpack past this').default(512 * 1024 ** 2, '512MB').argParser(parseBytes))
     .option('--history <file>', 'QC history database (SQLite): control charts in the report, and this run recorded in it')
     .option('-q, --quiet', 'print nothing but errors')
+    .option('--json', 'print the outcome as one JSON document on stdout (the summary on stderr is then left out)')
     .action(async (worklist: string, opts: RecalcCliOptions) => {
       io.exit(await recalcCommand(worklist, opts));
     });
@@ -93,9 +95,23 @@ interface RecalcCliOptions {
   maxUnpacked: number;
   history?: string;
   quiet?: boolean;
+  json?: boolean;
 }
 
 async function recalcCommand(worklist: string, opts: RecalcCliOptions): Promise<number> {
+  if (opts.json) {
+    // The document goes to stdout and nothing else does; the words for people stay off (errors still go to stderr).
+    try {
+      return await recalcCommandQuietly(worklist, { ...opts, quiet: true });
+    } catch (err) {
+      if (err instanceof StopError) process.stdout.write(JSON.stringify(stopJson(err)) + '\n');
+      throw err;
+    }
+  }
+  return recalcCommandQuietly(worklist, opts);
+}
+
+async function recalcCommandQuietly(worklist: string, opts: RecalcCliOptions): Promise<number> {
   // On a terminal, work over a second shows a progress line on stderr (progress.ts).
   const progress = createProgress({ quiet: opts.quiet });
   // The report's charts are drawn on a second thread, which loads vega meanwhile (report/draw.ts).
@@ -135,6 +151,7 @@ async function recalcWithProgress(worklist: string, opts: RecalcCliOptions, prog
         'run the same command again with --force to record it\n',
     );
     if (!opts.quiet) process.stderr.write(describeRun(result, written));
+    if (opts.json) process.stdout.write(JSON.stringify(recalcJson(outcome, EXIT.findings)) + '\n');
     return EXIT.findings;
   }
   const recorded = history?.recorded
@@ -144,6 +161,7 @@ async function recalcWithProgress(worklist: string, opts: RecalcCliOptions, prog
     : '';
   const code = exitCodeOf(result);
   if (!opts.quiet) process.stderr.write(describeRun(result, written) + (recorded ? `${recorded}\n` : ''));
+  if (opts.json) process.stdout.write(JSON.stringify(recalcJson(outcome, code)) + '\n');
   return code;
 }
 

@@ -21,6 +21,7 @@ import { readWorklist } from '../read/worklist.js';
 import { writeFileAtomic } from '../write/atomic.js';
 import { delimiter } from 'node:path';
 import { listMethods, methodFolders, SHIPPED_METHODS } from '../method/find.js';
+import { methodJson, stopJson } from './recalc-json.js';
 
 
 const SCHEMA_PATH = fileURLToPath(SCHEMA_URL);
@@ -61,13 +62,17 @@ export function registerMethodCommand(program: Command, io: CommandIo): Command 
     .command('check')
     .description('validate a method and print it in plain words: fields and units, lab names, limits, formula order')
     .argument('<method>', 'method file (YAML), or the name of a method (phasebook method list)')
-    .action((file: string) => {
+    .option('--json', 'print the method as loaded as one JSON document on stdout')
+    .action((file: string, opts: { json?: boolean }) => {
       try {
         const loaded = loadMethod(file);
-        stdout(describeMethod(loaded, compileMethod(loaded)));
+        const compiled = compileMethod(loaded);
+        if (opts.json) stdout(JSON.stringify(methodJson(loaded, compiled.order.map((i) => loaded.formulas[i]!.name))) + '\n');
+        else stdout(describeMethod(loaded, compiled));
         io.exit(EXIT.ok);
       } catch (err) {
         if (!(err instanceof StopError)) throw err;
+        if (opts.json) stdout(JSON.stringify(stopJson(err)) + '\n');
         stderr(`phasebook: ${err.describe()}\nThe method is not valid.\n`);
         io.exit(EXIT.stop);
       }
