@@ -11,9 +11,12 @@ import type { Command } from 'commander';
 import { StopError } from '../errors.js';
 import { EXIT, type CommandIo } from './io.js';
 import { formatDifference } from '../verify/difference.js';
+import { stopJson } from './recalc-json.js';
+import { VERSION } from '../version.js';
 
 interface VerifyCliOptions {
   quiet?: boolean;
+  json?: boolean;
 }
 
 /** Standard output that tolerates a reader going away (`phasebook verify x.xlsx | head`). */
@@ -34,6 +37,7 @@ export function registerVerifyCommand(program: Command, io: CommandIo): void {
     .description('check a phasebook workbook: recompute it from its own input cells and method, compare, and check its integrity digest')
     .argument('<workbook>', 'workbook (.xlsx) written by "phasebook recalc"')
     .option('-q, --quiet', 'print the differences only, not the summary line')
+    .option('--json', 'print the outcome as one JSON document on stdout (differences with sheet, cell, row, sample and message)')
     .action(async (workbook: string, opts: VerifyCliOptions) => {
       let report;
       try {
@@ -42,11 +46,36 @@ export function registerVerifyCommand(program: Command, io: CommandIo): void {
         report = await verifyWorkbook(workbook);
       } catch (err) {
         if (!(err instanceof StopError)) throw err;
+        if (opts.json) stdout(JSON.stringify(stopJson(err)) + '\n');
         stderr(`phasebook: ${err.describe()}\n`);
         io.exit(EXIT.stop);
         return;
       }
       const n = report.differences.length;
+      if (opts.json) {
+        const code = n === 0 ? EXIT.ok : EXIT.findings;
+        stdout(
+          JSON.stringify({
+            phasebook: VERSION,
+            exit_code: code,
+            workbook,
+            rows: report.rows,
+            untouched: n === 0,
+            digest_matches: report.digestMatches ?? null,
+            differences: report.differences.map((d) => ({
+              sheet: d.sheet,
+              cell: d.address ?? null,
+              worklist_row: d.context?.worklistRow ?? null,
+              sample_id: d.context?.sampleId ?? null,
+              label: d.label ?? null,
+              message: d.message,
+              line: formatDifference(d),
+            })),
+          }) + '\n',
+        );
+        io.exit(code);
+        return;
+      }
       if (n > 0) stdout(report.differences.map(formatDifference).join('\n') + '\n');
       if (!opts.quiet) {
         const digest =

@@ -45,6 +45,31 @@ describe('phasebook verify', () => {
     expect(quiet.stdout).toBe(r.stdout);
   });
 
+  it('--json: one document with every difference, the same lines, and the exit code unchanged', async () => {
+    const copy = join(dir, 'typed-over-json.xlsx');
+    await editCopy(workbook, copy, (wb) => {
+      wb.getWorksheet('Results')!.getCell('G7').value = 900;
+    });
+    const plain = runCli(['verify', copy, '--quiet']);
+    const r = runCli(['verify', copy, '--json']);
+    expect(r.code).toBe(1);
+    expect(r.stderr).toBe('');
+    const doc = JSON.parse(r.stdout);
+    expect(doc).toMatchObject({ exit_code: 1, workbook: copy, rows: 44, untouched: false, digest_matches: false });
+    expect(doc.differences.map((d: { line: string }) => d.line)).toEqual(plain.stdout.trimEnd().split('\n'));
+    expect(doc.differences).toContainEqual({
+      sheet: 'Results',
+      cell: 'Q7',
+      worklist_row: 7,
+      sample_id: 'KB-03 Footbridge',
+      label: 'sample_volume (as used) [mL] from column G',
+      message: 'stored 1000, expected 900',
+      line: 'Results!Q7, worklist row 7, sample "KB-03 Footbridge", sample_volume (as used) [mL] from column G: stored 1000, expected 900',
+    });
+    const untouched = JSON.parse(runCli(['verify', workbook, '--json']).stdout);
+    expect(untouched).toMatchObject({ exit_code: 0, untouched: true, digest_matches: true, differences: [] });
+  });
+
   it('exits 2 when the file is not a phasebook workbook', () => {
     const text = join(dir, 'notes.xlsx');
     writeFileSync(text, 'hello\n');
