@@ -71,7 +71,7 @@ export async function checkZip(path: string, options: ZipGuardOptions = {}): Pro
         entries.push(entry);
         total += entry.uncompressedSize;
         if (total > maxUnpacked) {
-          throw bomb(`its entries would unpack to more than ${formatBytes(maxUnpacked)}`);
+          throw bomb(`its entries would unpack to more than ${formatBytes(maxUnpacked)} (--max-unpacked); raise --max-unpacked if the workbook is genuine`);
         }
         const ratio = entry.uncompressedSize / Math.max(entry.compressedSize, 1);
         if (entry.uncompressedSize > ratioFloor && ratio > maxRatio) {

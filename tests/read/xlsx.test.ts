@@ -66,7 +66,7 @@ describe('readXlsx: values as the sheet holds them', () => {
   it('reads the first sheet with numbers, text, cached formula results, dates, booleans, errors, rich text, links', async () => {
     const t = await readXlsx(book);
     expect(t.source).toBe(book);
-    expect(t.format).toEqual({ kind: 'xlsx', decimalComma: false, sheet: 'Worklist' });
+    expect(t.format).toEqual({ kind: 'xlsx', decimalComma: false, sheet: 'Worklist', sheets: ['Worklist', 'Second sheet'] });
     expect(t.headers).toEqual(['sample_id', 'extract_conc', 'as_text', 'doubled', 'prepared', 'checked', 'ratio', 'note', 'link']);
     // Real sheet rows: the empty row 4 and the blank trailing rows 8, 9 are skipped.
     expect(Array.from(t.rowNumbers)).toEqual([2, 3, 5]);
@@ -194,7 +194,7 @@ describe('readXlsx: whole-file stops', () => {
         await writeFile(p, buildZip([{ name: 'hello.txt', data: Buffer.from('hi') }]));
         return p;
       },
-      message: /^is not a readable XLSX workbook: it has no worksheets$/,
+      message: /^is not a readable XLSX workbook: it has no workbook part \(xl\/workbook.xml\); expected a workbook as a spreadsheet program saves it$/,
     },
     {
       name: 'a zip bomb (a sheet part stated at ~4 GiB)',
@@ -209,7 +209,7 @@ describe('readXlsx: whole-file stops', () => {
       name: 'a workbook larger than maxUnpackedBytes',
       make: async () => book,
       options: { maxUnpackedBytes: 1000 },
-      message: /^was refused as a possible zip bomb: its entries would unpack to more than 1000 bytes$/,
+      message: /^was refused as a possible zip bomb: its entries would unpack to more than 1000 bytes \(--max-unpacked\); raise --max-unpacked if the workbook is genuine$/,
     },
   ])('$name', async ({ make, options, message, column }) => {
     const p = await make();
