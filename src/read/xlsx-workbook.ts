@@ -187,25 +187,24 @@ const MAX_SERIAL = 2_958_465;
 /**
  * A date serial as ISO 8601 text, the sheet's wall clock without a zone:
  * "2024-05-06", or "2024-05-06T13:30:00" when it has a time of day, or
- * "13:30:00" for a time alone (a serial below 1). In the 1900 system, serial
- * 1 is 1900-01-01 and serial 60 the 1900-02-29 that Lotus 1-2-3 counted and
- * Excel keeps for compatibility (ECMA-376 Part 1, §18.17.4.1), so serials 1–59
- * count from 1899-12-31, 61 and above from 1899-12-30, and 60 is refused. In
- * the 1904 system serial 0 is 1904-01-01. Returns undefined for a serial that
- * is no date.
+ * "13:30:00" for a time alone (a serial below 1, in either system, as
+ * openpyxl reads it). In the 1900 system, serial 1 is 1900-01-01 and serial
+ * 60 the 1900-02-29 that Lotus 1-2-3 counted and Excel keeps for
+ * compatibility (ECMA-376 Part 1, §18.17.4.1), so serials 1–59 count from
+ * 1899-12-31, 61 and above from 1899-12-30, and 60 is refused. In the 1904
+ * system serial 0 is 1904-01-01. Undefined for a serial that is no date.
  */
 export function serialToIso(serial: number, date1904: boolean): string | undefined {
   if (!Number.isFinite(serial) || serial < 0 || serial > MAX_SERIAL) return undefined;
   let epoch: number;
-  if (date1904) epoch = Date.UTC(1904, 0, 1);
-  else if (serial < 1) epoch = Date.UTC(1899, 11, 30); // a time alone: the date part is dropped below
+  if (serial < 1) epoch = Date.UTC(1899, 11, 30); // a time alone: the date part is dropped below
+  else if (date1904) epoch = Date.UTC(1904, 0, 1);
   else if (serial < 60) epoch = Date.UTC(1899, 11, 31);
   else if (serial < 61) return undefined;
   else epoch = Date.UTC(1899, 11, 30);
-  const ms = epoch + Math.round(serial * MS_PER_DAY);
-  const iso = new Date(ms).toISOString(); // YYYY-MM-DDTHH:MM:SS.sssZ
+  const iso = new Date(epoch + Math.round(serial * MS_PER_DAY)).toISOString(); // YYYY-MM-DDTHH:MM:SS.sssZ
   const time = iso.endsWith('.000Z') ? iso.slice(11, 19) : iso.slice(11, 23);
-  if (serial < 1 && !date1904) return time;
+  if (serial < 1) return time;
   return time === '00:00:00' ? iso.slice(0, 10) : `${iso.slice(0, 10)}T${time}`;
 }
 
