@@ -108,7 +108,7 @@ export async function readXlsx(path: string, options: XlsxReadOptions = {}): Pro
       dateStyles,
       date1904: info.date1904,
       maxCells,
-      tooMany: (row) => new StopError('input', `sheet "${sheet.name}", row ${row}: the sheet holds ${tooMany('cells (data rows × header columns)')}`, { file: path, line: row }),
+      tooMany: (row) => new StopError('input', `sheet "${sheet.name}": the sheet holds ${tooMany('cells (data rows × header columns)')}`, { file: path, line: row }),
     });
     await pkg.parse(sheet.part, reader);
     return reader.finish(names, hint);
@@ -252,9 +252,9 @@ class SheetReader {
     else if (this.capture === 3) this.formula += text;
   }
 
+  /** A stop at a place in the sheet: the row goes in the location (printed as "file, row N: …"). */
   private stop(row: number | undefined, text: string): StopError {
-    const place = row === undefined ? `sheet "${this.sheet}"` : `sheet "${this.sheet}", row ${row}`;
-    return new StopError('input', `${place}: ${text}`, row === undefined ? { file: this.path } : { file: this.path, line: row });
+    return new StopError('input', `sheet "${this.sheet}": ${text}`, row === undefined ? { file: this.path } : { file: this.path, line: row });
   }
 
   private startRow(r: string | undefined): void {

@@ -393,13 +393,13 @@ describe('readXlsx: rows and cells out of place stop the read with their place',
     {
       name: 'a row written twice',
       xml: twoColumns(dataRow(2, '<c r="B2"><v>1</v></c>') + dataRow(2, '<c r="B2"><v>2</v></c>')),
-      message: 'sheet "S", row 2: the sheet holds this row twice; expected each row once',
+      message: 'sheet "S": the sheet holds this row twice; expected each row once',
       line: 2,
     },
     {
       name: 'rows out of order',
       xml: twoColumns(dataRow(5, '') + dataRow(3, '')),
-      message: 'sheet "S", row 3: the row comes after row 5; expected rows in order',
+      message: 'sheet "S": the row comes after row 5; expected rows in order',
       line: 3,
     },
     {
@@ -415,19 +415,19 @@ describe('readXlsx: rows and cells out of place stop the read with their place',
     {
       name: 'a cell of another row',
       xml: twoColumns('<row r="2"><c r="A3"><v>1</v></c></row>'),
-      message: 'sheet "S", row 2: the cell reference "A3" is not a cell of this row; expected a reference such as "B2"',
+      message: 'sheet "S": the cell reference "A3" is not a cell of this row; expected a reference such as "B2"',
       line: 2,
     },
     {
       name: 'a cell written twice',
       xml: twoColumns('<row r="2"><c r="B2"><v>1</v></c><c r="B2"><v>2</v></c></row>'),
-      message: 'sheet "S", row 2: the cell B2 comes twice or out of order (after B2); expected each cell once, in column order',
+      message: 'sheet "S": the cell B2 comes twice or out of order (after B2); expected each cell once, in column order',
       line: 2,
     },
     {
       name: 'a cell past column XFD',
       xml: twoColumns('<row r="2"><c r="XFE2"><v>1</v></c></row>'),
-      message: 'sheet "S", row 2: the cell "XFE2" lies past column XFD, the last a sheet can have',
+      message: 'sheet "S": the cell "XFE2" lies past column XFD, the last a sheet can have',
       line: 2,
     },
   ])('$name', async ({ name, xml, message, line }) => {
@@ -445,7 +445,7 @@ describe('readXlsx: limits and sheets', () => {
     const p = await handWritten('cells.xlsx', { sheets: [{ name: 'S', xml: header + '<row><c><v>1</v></c></row>'.repeat(500) }] });
     const err = await stopOf(readXlsx(p, { maxUnpackedBytes: 32 * 1024 }));
     expect(err.message).toBe(
-      'sheet "S", row 12: the sheet holds more cells (data rows × header columns) than --max-unpacked (32 KiB) allows, one per 16 bytes (2048); raise --max-unpacked to read it',
+      'sheet "S": the sheet holds more cells (data rows × header columns) than --max-unpacked (32 KiB) allows, one per 16 bytes (2048); raise --max-unpacked to read it',
     );
     expect(err.location.line).toBe(12);
     expect((await readXlsx(p, { maxUnpackedBytes: 16 * 200 * 500 })).rowCount).toBe(500);
