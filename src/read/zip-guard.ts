@@ -1,6 +1,6 @@
 /**
- * A zip-bomb and "is this a zip at all" guard, run before exceljs unpacks a
- * workbook in memory.
+ * A zip-bomb and "is this a zip at all" guard, run before a workbook is read
+ * (the worklist reader, xlsx.ts, and `verify`'s exceljs reader).
  *
  * First the central directory alone is read (yauzl, lazy entries): the entry
  * count, the sum of the stated unpacked sizes and each entry's compression ratio
@@ -27,7 +27,11 @@ export interface ZipGuardOptions {
   maxRatio?: number;
   /** Entries smaller than this (unpacked) are not ratio-checked. Default 1 MiB. */
   ratioFloorBytes?: number;
-  /** Inflate every entry (output discarded) to prove the stated sizes. Default true. */
+  /**
+   * Inflate every entry (output discarded) to prove the stated sizes. Default true.
+   * The worklist reader turns it off: it reads only the parts it needs, each
+   * with yauzl's size validation, which stops a part at the size it states.
+   */
   verifyData?: boolean;
 }
 
