@@ -108,6 +108,7 @@ export async function readXlsx(path: string, options: XlsxReadOptions = {}): Pro
       dateStyles,
       date1904: info.date1904,
       maxCells,
+      sheetBytes: pkg.size(sheet.part),
       tooMany: (row) => new StopError('input', `sheet "${sheet.name}": the sheet holds ${tooMany('cells (data rows × header columns)')}`, { file: path, line: row }),
     });
     await pkg.parse(sheet.part, reader);
@@ -122,6 +123,8 @@ interface SheetContext {
   dateStyles: boolean[];
   date1904: boolean;
   maxCells: number;
+  /** Unpacked size of the sheet part (bounds the rows it can hold). */
+  sheetBytes: number;
   tooMany: (row: number) => StopError;
 }
 
@@ -154,6 +157,8 @@ class SheetReader {
   private inInline = false;
   /** The first cell of each shared formula, by its group index (for messages). */
   private readonly sharedFormulas = new Map<string, string>();
+  /** The last row the sheet's `<dimension>` states (0 when none): a hint for sizing the columns. */
+  private lastRowStated = 0;
   // The table.
   private headers: string[] | null = null;
   private headerRow = 0;
@@ -170,6 +175,7 @@ class SheetReader {
   open(name: string, a: Record<string, string>, selfClosing: boolean): void {
     if (!this.inSheetData) {
       if (name === 'sheetData') this.inSheetData = !selfClosing;
+      else if (name === 'dimension' && a.ref !== undefined) this.lastRowStated = parseCellRef(a.ref.slice(a.ref.indexOf(':') + 1))?.row ?? 0;
       return;
     }
     switch (name) {
@@ -387,7 +393,10 @@ class SheetReader {
       }
       this.headers = headers;
       this.headerRow = r;
-      this.columns = new ColumnBuilder(width);
+      // Columns sized up front from the stated dimension (a hint: the file may lie), within what the
+      // cell bound and the part's size allow (a row takes at least the 11 bytes of "<row></row>").
+      const expectedRows = Math.min(this.lastRowStated - r, Math.floor(this.ctx.maxCells / Math.max(width, 1)), Math.floor(this.ctx.sheetBytes / 11));
+      this.columns = new ColumnBuilder(width, { expectedRows: Math.max(0, expectedRows) });
       return;
     }
     if (!cells.some((c) => !isEmpty(c.value) || c.problem !== undefined)) return;
