@@ -326,6 +326,22 @@ describe('readXlsx: what other programs write (hand-written parts, ECMA-376 Part
     expect((await readXlsx(p1904)).columns[1]).toEqual(['2024-05-06']);
   });
 
+  it.each([
+    ['states far more rows than it holds', 'A1:B1048576'],
+    ['states fewer rows than it holds', 'A1:B2'],
+    ['states a single cell', 'A1'],
+    ['states nonsense', 'x'],
+  ])('a sheet whose <dimension> %s is read as it is (the dimension only sizes the columns)', async (_why, ref) => {
+    const main = 'http://schemas.openxmlformats.org/spreadsheetml/2006/main';
+    const rows = twoColumns([2, 3, 4].map((r) => dataRow(r, `<c r="B${r}"><v>${r}</v></c>`)).join(''));
+    const p = await handWritten(`dimension-${ref.replace(/\W/g, '')}.xlsx`, {
+      sheets: [{ name: 'S', part: `<?xml version="1.0"?><worksheet xmlns="${main}"><dimension ref="${ref}"/><sheetData>${rows}</sheetData></worksheet>` }],
+    });
+    const t = await readXlsx(p);
+    expect(t.columns).toEqual([['S2', 'S3', 'S4'], [2, 3, 4]]);
+    for (const col of t.columns) expect(Object.keys(col)).toEqual(['0', '1', '2']); // no holes, no spare length
+  });
+
   it('names every value beyond the header up to ten, and counts the rest', async () => {
     const extra = Array.from({ length: 12 }, (_, i) => `<c><v>${i + 1}</v></c>`).join('');
     const p = await handWritten('extra.xlsx', { sheets: [{ name: 'S', xml: twoColumns(`<row r="2"><c t="inlineStr"><is><t>A</t></is></c><c><v>1</v></c>${extra}</row>`) }] });
