@@ -17,7 +17,7 @@ import type { OnProgress } from './progress.js';
 import type { Method } from './method/types.js';
 import { assessQc, type QcResult } from './qc/assess.js';
 import type { InHouseLimits } from './qc/limits.js';
-import { readWorklist } from './read/worklist.js';
+import { readWorklist, withSheetHint } from './read/worklist.js';
 import type { RawTable } from './read/types.js';
 import { summarize, type GroupSummary, type Verdict } from './summary/summarize.js';
 
@@ -88,7 +88,12 @@ export function recalculateTable(
   // The stages after reading take about equal time; each one done moves "evaluated" on.
   const stageDone = (k: number) => ctx.onProgress?.({ stage: 'evaluate', rows: Math.round((raw.rowCount * k) / 5), totalRows: raw.rowCount });
   const compiled = ctx.compiled ?? compileMethod(method);
-  const columnMap = mapColumns(raw, method);
+  let columnMap: ColumnMap;
+  try {
+    columnMap = mapColumns(raw, method);
+  } catch (err) {
+    throw withSheetHint(err, raw);
+  }
   const table = buildTable(raw, columnMap, method);
   stageDone(1);
   const texts = table.texts;

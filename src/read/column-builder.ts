@@ -32,6 +32,12 @@ export class ColumnBuilder {
     this.columns[column]![row] = cell === null ? null : this.share(column, cell);
   }
 
+  /** Set a cell that may be a number (XLSX); a number is kept as it is. */
+  setCell(column: number, row: number, cell: RawCell): void {
+    if (typeof cell === 'number') this.columns[column]![row] = cell;
+    else this.set(column, row, cell);
+  }
+
   /** The columns, cut to `rowCount` rows. */
   finish(rowCount: number): RawCell[][] {
     for (const col of this.columns) col.length = rowCount;

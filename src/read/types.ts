@@ -31,6 +31,8 @@ export interface RawTable {
     decimalComma: boolean;
     /** XLSX only: the sheet read. */
     sheet?: string;
+    /** XLSX only: every sheet of the workbook, in order (for messages that suggest another). */
+    sheets?: string[];
   };
 }
 

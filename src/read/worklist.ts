@@ -40,6 +40,27 @@ export function sniffContent(head: Buffer): WorklistContent {
   return 'other';
 }
 
+/**
+ * Words to add to a message about a sheet read by default (the first) when the
+ * workbook has others: `; the workbook's sheets are "Notes", "Worklist" (choose
+ * one with --sheet)`, or "" when it has one sheet.
+ */
+export function otherSheets(sheets: readonly string[] | undefined): string {
+  if (sheets === undefined || sheets.length < 2) return '';
+  return `; the workbook's sheets are ${sheets.map((n) => `"${n}"`).join(', ')} (choose one with --sheet)`;
+}
+
+/**
+ * A stop found in a table read from one sheet of several (a required column
+ * missing), with the sheet read and the workbook's sheets added: the first
+ * sheet is often a cover or notes sheet.
+ */
+export function withSheetHint(err: unknown, raw: RawTable): unknown {
+  const sheets = raw.format.sheets;
+  if (!(err instanceof StopError) || err.kind !== 'input' || sheets === undefined || sheets.length < 2) return err;
+  return new StopError(err.kind, `${err.message}; sheet "${raw.format.sheet}" was read${otherSheets(sheets)}`, err.location);
+}
+
 export async function readWorklist(path: string, options: WorklistReadOptions = {}): Promise<RawTable> {
   await checkInputFile(path, { maxBytes: options.maxBytes });
   const content = sniffContent((await readHead(path, 8)).bytes);

@@ -1,24 +1,51 @@
 /**
  * XLSX worklist reader: one sheet as written, column by column (RawTable).
  *
- * The zip guard runs first; then exceljs's in-memory reader (its 4.4.0 streaming
- * reader loses values, LIBRARY-NOTES.md §2). The header row is the first row
- * with any value; `rowNumbers` are the real sheet rows. Rows with no value in
- * any cell are skipped (trailing or in between), like blank CSV lines.
+ * A small streaming reader of our own (ECMA-376 Part 1, SpreadsheetML) on the
+ * zip guard, yauzl and saxes (xlsx-package.ts, xlsx-workbook.ts): the sheet's
+ * XML is never held whole and only the rows kept take memory. It reads what
+ * Excel, LibreOffice, openpyxl, exceljs and instrument software write: shared
+ * and inline strings, rich text, formulas with cached values (shared ones
+ * too), dates, notes (ignored), missing `r` attributes (positional cells and
+ * rows), prefixed namespaces.
+ *
+ * The header row is the first row with any value; `rowNumbers` are the real
+ * sheet rows. Rows with no value in any cell are skipped (trailing or in
+ * between), like blank CSV lines.
  *
  * Cell values: numbers stay numbers; text stays text ("0012" stays "0012");
- * a formula gives its cached result; rich text and hyperlinks give their plain
- * text; a date gives ISO 8601 text ("2024-05-06", or "2024-05-06T13:30:00"
- * when it has a time: the sheet's wall clock, no zone); booleans give
- * "TRUE"/"FALSE"; an error gives its text ("#DIV/0!"); empty gives null.
- * A merged range's value sits in its top-left cell only (as the spreadsheet's
- * own formulas see it); the other cells of the range are null.
+ * a formula gives its cached result; rich text gives its plain text; a date
+ * (a number in a date format, or an ISO date cell) gives ISO 8601 text
+ * ("2024-05-06", or "2024-05-06T13:30:00" when it has a time: the sheet's wall
+ * clock, no zone; "13:30:00" for a time alone); booleans give "TRUE"/"FALSE";
+ * an error gives its text ("#DIV/0!"); empty gives null. A merged range's
+ * value sits in its top-left cell (the other cells of the range are empty in
+ * the file).
+ *
+ * A cell is what it says or it is flagged: a number cell that does not hold a
+ * finite number ("12,5", "NaN", "1e400"), a date cell that is no date, a
+ * shared-string cell whose string does not exist, a formula without a saved
+ * result: each is a row problem naming the cell and what it held (the cell
+ * keeps that text). A row numbered twice, out of order or past 1048576 stops
+ * the read with its place.
  */
-import ExcelJS from 'exceljs';
 import { StopError } from '../errors.js';
+import { formatBytes } from '../format.js';
 import { rowMessage } from '../issues.js';
 import { checkInputFile } from './csv.js';
+import { ColumnBuilder } from './column-builder.js';
 import type { RawCell, RawTable, RowProblem } from './types.js';
+import { otherSheets } from './worklist.js';
+import { XlsxPackage } from './xlsx-package.js';
+import {
+  decodeEscapes,
+  isoCellText,
+  readDateStyles,
+  readSharedStrings,
+  readWorkbookInfo,
+  serialToIso,
+  type SharedStrings,
+} from './xlsx-workbook.js';
 import { checkZip } from './zip-guard.js';
 
 export interface XlsxReadOptions {
@@ -30,198 +57,442 @@ export interface XlsxReadOptions {
   maxUnpackedBytes?: number;
 }
 
+const MiB = 1024 * 1024;
+const DEFAULT_MAX_UNPACKED = 512 * MiB;
+/**
+ * Unpacked bytes per cell kept: the table may hold (data rows × header columns)
+ * and the shared strings may hold at most --max-unpacked / 16 entries. The
+ * smallest cell that holds a value, `<c><v>1</v></c>`, is 15 bytes of XML, so
+ * a workbook within the limit needs no more; a cell costs the table 8 to 24
+ * bytes, so the limit bounds memory (about 1 GiB at the default 512 MiB).
+ */
+const BYTES_PER_CELL = 16;
+/** Last row and column a sheet can have (ECMA-376 Part 1, §18.3.1.73 and §18.3.1.4; Excel's limits). */
+const MAX_ROW = 1_048_576;
+const MAX_COLUMN = 16_384;
+/** Values beyond the header named in one row's message; the rest are counted. */
+const MAX_EXTRA_SHOWN = 10;
+
 export async function readXlsx(path: string, options: XlsxReadOptions = {}): Promise<RawTable> {
   await checkInputFile(path, { maxBytes: options.maxBytes });
-  await checkZip(path, { maxUnpackedBytes: options.maxUnpackedBytes });
+  const maxUnpacked = options.maxUnpackedBytes ?? DEFAULT_MAX_UNPACKED;
+  // The directory alone: yauzl's size validation stops any part that unpacks past what it states while it is read.
+  await checkZip(path, { maxUnpackedBytes: maxUnpacked, verifyData: false });
+  const maxCells = Math.max(1, Math.floor(maxUnpacked / BYTES_PER_CELL));
+  const tooMany = (what: string) =>
+    `more ${what} than --max-unpacked (${formatBytes(maxUnpacked)}) allows, one per ${BYTES_PER_CELL} bytes (${maxCells}); raise --max-unpacked to read it`;
 
-  const wb = new ExcelJS.Workbook();
+  const pkg = await XlsxPackage.open(path);
   try {
-    await wb.xlsx.readFile(path);
-  } catch (err) {
-    throw new StopError('input', `is not a readable XLSX workbook: ${damageReason(err)}; expected a workbook as a spreadsheet program saves it`, { file: path });
-  }
-  const sheets = wb.worksheets;
-  if (sheets.length === 0) {
-    throw new StopError('input', 'is not a readable XLSX workbook: it has no worksheets', { file: path });
-  }
-  let ws: ExcelJS.Worksheet;
-  if (options.sheet === undefined) {
-    ws = sheets[0]!;
-  } else {
-    const found = sheets.find((s) => s.name === options.sheet);
-    if (!found) {
-      throw new StopError(
-        'input',
-        `has no sheet named "${options.sheet}"; its sheets are ${sheets.map((s) => `"${s.name}"`).join(', ')}`,
-        { file: path },
-      );
+    const info = await readWorkbookInfo(pkg);
+    const names = info.sheets.map((s) => s.name);
+    if (info.sheets.length === 0) throw new StopError('input', 'is not a readable XLSX workbook: it has no worksheets', { file: path });
+    const sheet = options.sheet === undefined ? info.sheets[0]! : info.sheets.find((s) => s.name === options.sheet);
+    if (!sheet) {
+      throw new StopError('input', `has no sheet named "${options.sheet}"; its sheets are ${names.map((n) => `"${n}"`).join(', ')}`, { file: path });
     }
-    ws = found;
+    const hint = options.sheet === undefined ? otherSheets(names) : '';
+    if (sheet.part === undefined || !pkg.has(sheet.part)) {
+      throw new StopError('input', `sheet "${sheet.name}" holds no cells (it is not a worksheet); expected a worksheet${hint}`, { file: path });
+    }
+    const dateStyles = await readDateStyles(pkg, info.stylesPart);
+    const strings =
+      info.sharedStringsPart === undefined
+        ? undefined
+        : await readSharedStrings(pkg, info.sharedStringsPart, {
+            maxStrings: maxCells,
+            tooMany: () => new StopError('input', `its shared strings hold ${tooMany('strings')}`, { file: path }),
+          });
+    const reader = new SheetReader(path, sheet.name, {
+      strings,
+      dateStyles,
+      date1904: info.date1904,
+      maxCells,
+      sheetBytes: pkg.size(sheet.part),
+      tooMany: (row) => new StopError('input', `sheet "${sheet.name}": the sheet holds ${tooMany('cells (data rows × header columns)')}`, { file: path, line: row }),
+    });
+    await pkg.parse(sheet.part, reader);
+    return reader.finish(names, hint);
+  } finally {
+    pkg.close();
   }
-  return sheetToTable(path, ws);
 }
 
-function sheetToTable(path: string, ws: ExcelJS.Worksheet): RawTable {
-  const where = `sheet "${ws.name}"`;
-  const problems: RowProblem[] = [];
-  const lastRow = ws.rowCount;
-
-  let headerRow = 0;
-  let headers: string[] = [];
-  for (let r = 1; r <= lastRow && headerRow === 0; r++) {
-    const cells = rowCells(ws, r);
-    if (cells === null || isBlank(cells)) continue;
-    headerRow = r;
-    let width = cells.length;
-    while (width > 0 && isEmpty(cells[width - 1]!)) width--;
-    headers = cells.slice(0, width).map((c) => (c.value === null ? '' : String(c.value)));
-  }
-  if (headerRow === 0) {
-    throw new StopError('input', `${where} is empty, expected a header row and data rows`, { file: path });
-  }
-
-  const seen = new Map<string, number>();
-  for (let c = 0; c < headers.length; c++) {
-    const key = headers[c]!.trim();
-    if (key === '') continue; // unnamed columns are left to column mapping
-    if (seen.has(key)) {
-      throw new StopError(
-        'input',
-        `${where}: the header "${key}" appears twice (columns ${columnLetters(seen.get(key)! + 1)} and ${columnLetters(c + 1)}); expected each header once`,
-        { file: path, line: headerRow, column: key },
-      );
-    }
-    seen.set(key, c);
-  }
-
-  const width = headers.length;
-  const columns: RawCell[][] = headers.map(() => []);
-  const rowNumbers: number[] = [];
-  for (let r = headerRow + 1; r <= lastRow; r++) {
-    const cells = rowCells(ws, r);
-    if (cells === null || isBlank(cells)) continue;
-    const dataRow = rowNumbers.length;
-    rowNumbers.push(r);
-    for (let c = 0; c < width; c++) {
-      const cell = cells[c];
-      columns[c]!.push(cell ? cell.value : null);
-      if (cell?.formulaWithoutResult) {
-        problems.push({
-          row: dataRow,
-          column: headers[c],
-          message: rowMessage(
-            r,
-            headers[c],
-            `the formula "=${cell.formulaWithoutResult}" has no saved result; expected a value (open and save the file in a spreadsheet program)`,
-          ),
-        });
-      }
-    }
-    const extra: string[] = [];
-    for (let c = width; c < cells.length; c++) {
-      if (!isEmpty(cells[c]!)) extra.push(`"${String(cells[c]!.value)}" in column ${columnLetters(c + 1)}`);
-    }
-    if (extra.length > 0) {
-      // Every extra value is named: the message is the only place they survive.
-      const shown = extra.join(', ');
-      problems.push({
-        row: dataRow,
-        message: rowMessage(r, undefined, `values beyond the last header column were dropped: ${shown}`),
-      });
-    }
-  }
-  if (rowNumbers.length === 0) {
-    throw new StopError('input', `${where} has a header row but no data rows, expected at least one row of data below the header`, { file: path });
-  }
-
-  return {
-    source: path,
-    headers,
-    headerRow,
-    columns,
-    rowCount: rowNumbers.length,
-    rowNumbers: Int32Array.from(rowNumbers),
-    rowProblems: problems,
-    format: { kind: 'xlsx', decimalComma: false, sheet: ws.name },
-  };
+interface SheetContext {
+  strings: SharedStrings | undefined;
+  dateStyles: boolean[];
+  date1904: boolean;
+  maxCells: number;
+  /** Unpacked size of the sheet part (bounds the rows it can hold). */
+  sheetBytes: number;
+  tooMany: (row: number) => StopError;
 }
 
+/** One cell as read: its value and, when it is not what it says, why. */
 interface CellRead {
+  column: number;
   value: RawCell;
-  /** Formula text when the cell is a formula with no cached result. */
-  formulaWithoutResult?: string;
+  problem?: string;
 }
 
-/** Cells of sheet row `r` (index 0 = column A), or null when the row does not exist. */
-function rowCells(ws: ExcelJS.Worksheet, r: number): CellRead[] | null {
-  const row = ws.findRow(r);
-  if (!row) return null;
-  const out: CellRead[] = [];
-  for (let c = 1; c <= row.cellCount; c++) {
-    const cell = row.findCell(c);
-    out.push(cell ? readCell(cell) : { value: null });
-  }
-  return out;
-}
+/** The sheet's XML events → header, then data rows straight into columns. */
+class SheetReader {
+  private inSheetData = false;
+  // The row being read.
+  private rowNumber = 0;
+  private cells: CellRead[] = [];
+  private lastColumn = -1;
+  // The cell being read.
+  private inCell = false;
+  private cellRef: string | undefined;
+  private cellType = '';
+  private cellStyle = 0;
+  private value: string | null = null;
+  private inlineText: string | null = null;
+  private formula: string | null = null;
+  private sharedFormulaFrom: string | undefined;
+  /** Where text goes: 0 nowhere, 1 `<v>`, 2 an inline string's `<t>`, 3 `<f>`. */
+  private capture = 0;
+  private phonetic = 0;
+  private inInline = false;
+  /** The first cell of each shared formula, by its group index (for messages). */
+  private readonly sharedFormulas = new Map<string, string>();
+  /** The last row the sheet's `<dimension>` states (0 when none): a hint for sizing the columns. */
+  private lastRowStated = 0;
+  // The table.
+  private headers: string[] | null = null;
+  private headerRow = 0;
+  private columns: ColumnBuilder | null = null;
+  private readonly rowNumbers: number[] = [];
+  private readonly problems: RowProblem[] = [];
 
-function readCell(cell: ExcelJS.Cell): CellRead {
-  if (cell.type === ExcelJS.ValueType.Merge) return { value: null };
-  const v = cell.value;
-  if (v !== null && typeof v === 'object' && !(v instanceof Date)) {
-    if ('formula' in v || 'sharedFormula' in v) {
-      const result = (v as { result?: unknown }).result;
-      if (result === undefined || result === null) {
-        return { value: null, formulaWithoutResult: cell.formula || '' };
-      }
-      return { value: plainValue(result) };
+  constructor(
+    private readonly path: string,
+    private readonly sheet: string,
+    private readonly ctx: SheetContext,
+  ) {}
+
+  open(name: string, a: Record<string, string>, selfClosing: boolean): void {
+    if (!this.inSheetData) {
+      if (name === 'sheetData') this.inSheetData = !selfClosing;
+      else if (name === 'dimension' && a.ref !== undefined) this.lastRowStated = parseCellRef(a.ref.slice(a.ref.indexOf(':') + 1))?.row ?? 0;
+      return;
+    }
+    switch (name) {
+      case 'row':
+        this.startRow(a.r);
+        if (selfClosing) this.endRow();
+        break;
+      case 'c':
+        this.inCell = true;
+        this.cellRef = a.r;
+        this.cellType = a.t ?? 'n';
+        this.cellStyle = a.s === undefined ? 0 : Number(a.s);
+        this.value = null;
+        this.inlineText = null;
+        this.formula = null;
+        this.sharedFormulaFrom = undefined;
+        if (selfClosing) this.endCell();
+        break;
+      case 'v':
+        if (this.inCell) {
+          this.value = '';
+          this.capture = selfClosing ? 0 : 1;
+        }
+        break;
+      case 'f':
+        if (this.inCell) {
+          this.formula = '';
+          if (a.t === 'shared' && a.si !== undefined) {
+            const first = this.sharedFormulas.get(a.si);
+            if (first === undefined && a.ref !== undefined) this.sharedFormulas.set(a.si, this.ref());
+            else this.sharedFormulaFrom = first;
+          }
+          this.capture = selfClosing ? 0 : 3;
+        }
+        break;
+      case 'is':
+        if (this.inCell) {
+          this.inInline = !selfClosing;
+          this.inlineText = '';
+        }
+        break;
+      case 'rPh':
+        if (!selfClosing) this.phonetic++;
+        break;
+      case 't':
+        if (this.inInline && this.phonetic === 0 && !selfClosing) this.capture = 2;
+        break;
     }
   }
-  return { value: plainValue(v) };
-}
 
-/** Any exceljs value (or formula result) as a RawCell. */
-function plainValue(v: unknown): RawCell {
-  if (v === null || v === undefined) return null;
-  if (typeof v === 'number') return Number.isFinite(v) ? v : null;
-  if (typeof v === 'string') return v;
-  if (typeof v === 'boolean') return v ? 'TRUE' : 'FALSE';
-  if (v instanceof Date) return isoDate(v);
-  if (typeof v === 'object') {
-    const o = v as Record<string, unknown>;
-    if (Array.isArray(o.richText)) return o.richText.map((run: { text?: unknown }) => String(run.text ?? '')).join('');
-    if (typeof o.error === 'string') return o.error;
-    if ('text' in o) return plainValue(o.text); // hyperlink: {text, hyperlink}; text may be rich text
-    if ('result' in o) return plainValue(o.result);
+  close(name: string): void {
+    if (!this.inSheetData) return;
+    switch (name) {
+      case 'sheetData':
+        this.inSheetData = false;
+        break;
+      case 'row':
+        this.endRow();
+        break;
+      case 'c':
+        this.endCell();
+        break;
+      case 'v':
+      case 'f':
+      case 't':
+        this.capture = 0;
+        break;
+      case 'is':
+        this.inInline = false;
+        break;
+      case 'rPh':
+        this.phonetic--;
+        break;
+    }
   }
-  return String(v);
-}
 
-/** exceljs gives a sheet's wall-clock date as that instant in UTC; write it back without a zone. */
-function isoDate(d: Date): string {
-  if (Number.isNaN(d.getTime())) return '';
-  const iso = d.toISOString(); // YYYY-MM-DDTHH:MM:SS.sssZ
-  if (iso.endsWith('T00:00:00.000Z')) return iso.slice(0, 10);
-  return iso.endsWith('.000Z') ? iso.slice(0, 19) : iso.slice(0, 23);
-}
+  text(text: string): void {
+    if (this.capture === 1) this.value += text;
+    else if (this.capture === 2) this.inlineText += text;
+    else if (this.capture === 3) this.formula += text;
+  }
 
-function isEmpty(cell: CellRead): boolean {
-  return cell.value === null || (typeof cell.value === 'string' && cell.value.trim() === '');
-}
+  /** A stop at a place in the sheet: the row goes in the location (printed as "file, row N: …"). */
+  private stop(row: number | undefined, text: string): StopError {
+    return new StopError('input', `sheet "${this.sheet}": ${text}`, row === undefined ? { file: this.path } : { file: this.path, line: row });
+  }
 
-function isBlank(cells: CellRead[]): boolean {
-  return cells.every((c) => isEmpty(c) && c.formulaWithoutResult === undefined);
+  private startRow(r: string | undefined): void {
+    let n: number;
+    if (r === undefined) n = this.rowNumber + 1;
+    else {
+      n = /^\s*\d{1,15}\s*$/.test(r) ? Number(r) : NaN;
+      if (!(n >= 1 && n <= MAX_ROW)) {
+        throw this.stop(undefined, `a row is numbered "${r}"; expected row numbers from 1 to ${MAX_ROW}, the last row a sheet can have`);
+      }
+    }
+    if (n === this.rowNumber) throw this.stop(n, `the sheet holds this row twice; expected each row once`);
+    if (n < this.rowNumber) throw this.stop(n, `the row comes after row ${this.rowNumber}; expected rows in order`);
+    this.rowNumber = n;
+    this.cells.length = 0;
+    this.lastColumn = -1;
+  }
+
+  /** The reference of the cell being read ("B3"), from its position when it states none. */
+  private ref(): string {
+    return this.cellRef ?? `${columnLetters(this.lastColumn + 2)}${this.rowNumber}`;
+  }
+
+  private endCell(): void {
+    if (!this.inCell) return;
+    this.inCell = false;
+    this.capture = 0;
+    let column: number;
+    if (this.cellRef === undefined) column = this.lastColumn + 1;
+    else {
+      const at = parseCellRef(this.cellRef);
+      if (at === undefined || (at.row !== undefined && at.row !== this.rowNumber)) {
+        throw this.stop(this.rowNumber, `the cell reference "${this.cellRef}" is not a cell of this row; expected a reference such as "B${this.rowNumber}"`);
+      }
+      column = at.column;
+    }
+    if (column >= MAX_COLUMN) throw this.stop(this.rowNumber, `the cell "${this.cellRef}" lies past column XFD, the last a sheet can have`);
+    if (column <= this.lastColumn) {
+      throw this.stop(this.rowNumber, `the cell ${columnLetters(column + 1)}${this.rowNumber} comes twice or out of order (after ${columnLetters(this.lastColumn + 1)}${this.rowNumber}); expected each cell once, in column order`);
+    }
+    const ref = this.cellRef ?? `${columnLetters(column + 1)}${this.rowNumber}`;
+    this.lastColumn = column;
+    const read = this.cellValue(ref);
+    if (read.value === null && read.problem === undefined) return;
+    this.cells.push({ column, ...read });
+  }
+
+  private cellValue(ref: string): Omit<CellRead, 'column'> {
+    const v = this.value;
+    const held = (text: string) => `"${text}"`;
+    if (this.formula !== null && (v === null || (v === '' && this.cellType !== 'str'))) {
+      const what = this.formula !== '' ? `the formula "=${this.formula}"` : this.sharedFormulaFrom ? `the formula shared from cell ${this.sharedFormulaFrom}` : 'the formula';
+      return { value: null, problem: `${what} has no saved result; expected a value (open and save the file in a spreadsheet program)` };
+    }
+    switch (this.cellType) {
+      case 'n': {
+        if (v === null || v.trim() === '') return { value: null };
+        const n = parseXmlNumber(v);
+        if (n === undefined) return { value: v, problem: `the cell ${ref} is stored as a number but holds ${held(v)}; expected a finite number` };
+        if (this.ctx.dateStyles[this.cellStyle]) {
+          const iso = serialToIso(n, this.ctx.date1904);
+          if (iso === undefined) return { value: v, problem: `the cell ${ref} has a date format but holds ${v}, which is no day of the calendar; expected a date` };
+          return { value: iso };
+        }
+        return { value: n };
+      }
+      case 's': {
+        if (v === null || v.trim() === '') return { value: null };
+        const strings = this.ctx.strings;
+        const i = /^\s*\d+\s*$/.test(v) ? Number(v) : NaN;
+        if (strings === undefined) {
+          return { value: null, problem: `the cell ${ref} refers to shared string ${held(v.trim())}, but the workbook has no shared strings; expected a workbook as a spreadsheet program saves it` };
+        }
+        if (!(i < strings.count)) {
+          return { value: null, problem: `the cell ${ref} refers to shared string ${held(v.trim())}, but the workbook has ${strings.count}; expected a workbook as a spreadsheet program saves it` };
+        }
+        return { value: strings.get(i) };
+      }
+      case 'inlineStr':
+        return { value: decodeEscapes(this.inlineText ?? v ?? '') || null };
+      case 'str':
+        return { value: decodeEscapes(v ?? '') || null };
+      case 'b': {
+        const t = (v ?? '').trim();
+        if (t === '') return { value: null };
+        if (t === '1' || t === 'true') return { value: 'TRUE' };
+        if (t === '0' || t === 'false') return { value: 'FALSE' };
+        return { value: v, problem: `the cell ${ref} is stored as TRUE/FALSE but holds ${held(v!)}; expected 0 or 1` };
+      }
+      case 'e':
+        return { value: v === null || v === '' ? null : v };
+      case 'd': {
+        if (v === null || v.trim() === '') return { value: null };
+        const iso = isoCellText(v);
+        if (iso === undefined) return { value: v, problem: `the cell ${ref} is stored as a date but holds ${held(v)}; expected an ISO 8601 date such as "2024-05-06"` };
+        return { value: iso };
+      }
+      default:
+        return {
+          value: v === null || v === '' ? null : v,
+          problem: `the cell ${ref} has the type "${this.cellType}", which is not one of the spreadsheet cell types; expected n, s, str, inlineStr, b, e or d`,
+        };
+    }
+  }
+
+  private endRow(): void {
+    const cells = this.cells;
+    const r = this.rowNumber;
+    if (this.headers === null) {
+      if (!cells.some((c) => !isEmpty(c.value))) return;
+      const bad = cells.find((c) => c.problem !== undefined);
+      if (bad) throw this.stop(r, `the header row cannot be read: ${bad.problem}`);
+      let width = 0;
+      for (const c of cells) if (!isEmpty(c.value)) width = c.column + 1;
+      const headers = new Array<string>(width).fill('');
+      for (const c of cells) if (c.column < width && c.value !== null) headers[c.column] = String(c.value);
+      const seen = new Map<string, number>();
+      for (let c = 0; c < width; c++) {
+        const key = headers[c]!.trim();
+        if (key === '') continue; // unnamed columns are left to column mapping
+        const first = seen.get(key);
+        if (first !== undefined) {
+          throw new StopError(
+            'input',
+            `sheet "${this.sheet}": the header "${key}" appears twice (columns ${columnLetters(first + 1)} and ${columnLetters(c + 1)}); expected each header once`,
+            { file: this.path, line: r, column: key },
+          );
+        }
+        seen.set(key, c);
+      }
+      this.headers = headers;
+      this.headerRow = r;
+      // Columns sized up front from the stated dimension (a hint: the file may lie), within what the
+      // cell bound and the part's size allow (a row takes at least the 11 bytes of "<row></row>").
+      const expectedRows = Math.min(this.lastRowStated - r, Math.floor(this.ctx.maxCells / Math.max(width, 1)), Math.floor(this.ctx.sheetBytes / 11));
+      this.columns = new ColumnBuilder(width, { expectedRows: Math.max(0, expectedRows) });
+      return;
+    }
+    if (!cells.some((c) => !isEmpty(c.value) || c.problem !== undefined)) return;
+
+    const headers = this.headers;
+    const width = headers.length;
+    const row = this.rowNumbers.length;
+    if ((row + 1) * Math.max(width, 1) > this.ctx.maxCells) throw this.ctx.tooMany(r);
+    this.rowNumbers.push(r);
+    const columns = this.columns!;
+    let next = 0;
+    const extra: string[] = [];
+    let extraCount = 0;
+    for (const c of cells) {
+      if (c.column < width) {
+        while (next < c.column) columns.setCell(next++, row, null);
+        columns.setCell(c.column, row, c.value);
+        next = c.column + 1;
+        if (c.problem !== undefined) this.problems.push({ row, column: headers[c.column], message: rowMessage(r, headers[c.column], c.problem) });
+      } else if (!isEmpty(c.value) || c.problem !== undefined) {
+        extraCount++;
+        if (extra.length < MAX_EXTRA_SHOWN) extra.push(`"${c.value ?? ''}" in column ${columnLetters(c.column + 1)}`);
+      }
+    }
+    while (next < width) columns.setCell(next++, row, null);
+    if (extraCount > 0) {
+      const more = extraCount > extra.length ? ` and ${extraCount - extra.length} more` : '';
+      this.problems.push({ row, message: rowMessage(r, undefined, `values beyond the last header column were dropped: ${extra.join(', ')}${more}`) });
+    }
+  }
+
+  finish(sheets: string[], hint: string): RawTable {
+    const where = `sheet "${this.sheet}"`;
+    if (this.headers === null) {
+      throw new StopError('input', `${where} is empty, expected a header row and data rows${hint}`, { file: this.path });
+    }
+    if (this.rowNumbers.length === 0) {
+      throw new StopError('input', `${where} has a header row but no data rows, expected at least one row of data below the header${hint}`, { file: this.path });
+    }
+    const rowCount = this.rowNumbers.length;
+    return {
+      source: this.path,
+      headers: this.headers,
+      headerRow: this.headerRow,
+      columns: this.columns!.finish(rowCount),
+      rowCount,
+      rowNumbers: Int32Array.from(this.rowNumbers),
+      rowProblems: this.problems,
+      format: { kind: 'xlsx', decimalComma: false, sheet: this.sheet, sheets },
+    };
+  }
 }
 
 /**
- * Words for an exceljs failure on a zip that passed the guard: a part that is not
- * well-formed XML, or a part missing or not as the format wants (exceljs then
- * fails on an undefined property). The library's own text follows in brackets.
+ * A number as SpreadsheetML stores it (xsd:double, ECMA-376 Part 1, §18.18.11):
+ * digits with an optional sign, "." and exponent, spaces around allowed.
+ * Undefined for anything else, and for NaN, INF and values past the double range.
  */
-function damageReason(err: unknown): string {
-  const text = (err instanceof Error ? err.message : String(err)).split('\n')[0]!.replace(/\.$/, '');
-  if (err instanceof TypeError) return `a part of the workbook is damaged or missing (${text})`;
-  if (/^\d+:\d+:/.test(text) || /xml|entity|tag|root node/i.test(text)) return `a part of the workbook is not well-formed XML (${text})`;
-  return text;
+function parseXmlNumber(text: string): number | undefined {
+  const t = text.trim();
+  if (!/^[+-]?(?:\d+(?:\.\d*)?|\.\d+)(?:[eE][+-]?\d+)?$/.test(t)) return undefined;
+  const n = Number(t);
+  return Number.isFinite(n) ? n : undefined;
+}
+
+/**
+ * "B3" → column 1 (0-based) and row 3; "B" alone (no row) is a column; "$B$3"
+ * as "B3"; undefined when it is no reference. Written out by hand: it runs
+ * for every cell.
+ */
+function parseCellRef(ref: string): { column: number; row: number | undefined } | undefined {
+  let i = 0;
+  const n = ref.length;
+  if (i < n && ref.charCodeAt(i) === 36) i++; // $
+  let column = 0;
+  const start = i;
+  for (; i < n; i++) {
+    const ch = ref.charCodeAt(i) | 0x20; // lower case
+    if (ch < 97 || ch > 122) break;
+    column = column * 26 + (ch - 96);
+  }
+  if (i === start || i - start > 3) return undefined;
+  if (i < n && ref.charCodeAt(i) === 36) i++;
+  if (i === n) return { column: column - 1, row: undefined };
+  let row = 0;
+  const digits = i;
+  for (; i < n; i++) {
+    const d = ref.charCodeAt(i) - 48;
+    if (d < 0 || d > 9) return undefined;
+    row = row * 10 + d;
+  }
+  return i - digits > 9 ? undefined : { column: column - 1, row };
+}
+
+function isEmpty(value: RawCell): boolean {
+  return value === null || (typeof value === 'string' && value.trim() === '');
 }
 
 /** 1 → "A", 27 → "AA". */

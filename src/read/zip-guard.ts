@@ -1,6 +1,6 @@
 /**
- * A zip-bomb and "is this a zip at all" guard, run before exceljs unpacks a
- * workbook in memory.
+ * A zip-bomb and "is this a zip at all" guard, run before a workbook is read
+ * (the worklist reader, xlsx.ts, and `verify`'s exceljs reader).
  *
  * First the central directory alone is read (yauzl, lazy entries): the entry
  * count, the sum of the stated unpacked sizes and each entry's compression ratio
@@ -27,7 +27,11 @@ export interface ZipGuardOptions {
   maxRatio?: number;
   /** Entries smaller than this (unpacked) are not ratio-checked. Default 1 MiB. */
   ratioFloorBytes?: number;
-  /** Inflate every entry (output discarded) to prove the stated sizes. Default true. */
+  /**
+   * Inflate every entry (output discarded) to prove the stated sizes. Default true.
+   * The worklist reader turns it off: it reads only the parts it needs, each
+   * with yauzl's size validation, which stops a part at the size it states.
+   */
   verifyData?: boolean;
 }
 
@@ -71,7 +75,7 @@ export async function checkZip(path: string, options: ZipGuardOptions = {}): Pro
         entries.push(entry);
         total += entry.uncompressedSize;
         if (total > maxUnpacked) {
-          throw bomb(`its entries would unpack to more than ${formatBytes(maxUnpacked)}`);
+          throw bomb(`its entries would unpack to more than ${formatBytes(maxUnpacked)} (--max-unpacked); raise --max-unpacked if the workbook is genuine`);
         }
         const ratio = entry.uncompressedSize / Math.max(entry.compressedSize, 1);
         if (entry.uncompressedSize > ratioFloor && ratio > maxRatio) {

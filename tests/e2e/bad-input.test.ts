@@ -156,6 +156,11 @@ describe.concurrent('whole-file damage stops with exit 2, a located message and 
     },
     { kind: 'a required column missing', file: 'missing-column.csv', message: 'missing-column.csv, row 1: missing the required column "solvent_volume"' },
     {
+      kind: 'a workbook whose first sheet is not the worklist (the message names the sheets)',
+      file: 'first-sheet-notes.xlsx',
+      message: /^first-sheet-notes\.xlsx, row 1: missing the required column "[a-z_]+"; sheet "Notes" was read; the workbook's sheets are "Notes", "Worklist" \(choose one with --sheet\)$/,
+    },
+    {
       kind: 'a column given twice',
       file: 'doubled-column.csv',
       message:
@@ -186,13 +191,13 @@ describe.concurrent('whole-file damage stops with exit 2, a located message and 
     {
       kind: 'a corrupt XLSX (damaged packed data)',
       file: 'corrupt.xlsx',
-      message: /^corrupt\.xlsx: is not a readable XLSX workbook: entry "xl\/worksheets\/sheet1\.xml" cannot be unpacked \(.+\)$/,
+      message: /^corrupt\.xlsx: is not a readable XLSX workbook: the part "xl\/worksheets\/sheet1\.xml" cannot be unpacked \(.+\); expected a workbook as a spreadsheet program saves it$/,
     },
     {
       kind: 'a corrupt XLSX (a sound zip, the sheet XML cut off)',
       file: 'corrupt-xml.xlsx',
       message:
-        /^corrupt-xml\.xlsx: is not a readable XLSX workbook: a part of the workbook is (?:damaged or missing|not well-formed XML) \(.+\); expected a workbook as a spreadsheet program saves it$/,
+        /^corrupt-xml\.xlsx: is not a readable XLSX workbook: the part "xl\/worksheets\/sheet1\.xml" is not well-formed XML \(.+\); expected a workbook as a spreadsheet program saves it$/,
     },
     {
       kind: 'an unclosed quote (the message says the line)',
@@ -262,6 +267,18 @@ describe.concurrent('row damage: exit 1, the row kept in its place with INPUT_ER
     expect(sheetTexts(wb.getWorksheet('Flags')!)).toContain(message);
   });
 
+  it('an XLSX number cell holding "12,5" (not a number as the format stores one): INPUT_ERROR naming the cell, the row kept', async () => {
+    const r = await recalc('row-number-cell-text.xlsx', { args: ['--outputs', 'csv'] });
+    expectNoStack(r.stderr);
+    expect(r.code, r.stderr).toBe(1);
+    const rows = readResults(join(dir, r.out, 'row-number-cell-text.results.csv'));
+    expect(rows.map((x) => x.sample_id)).toEqual(['GOOD-1', 'BAD', 'GOOD-2']);
+    expect(rows.map((x) => x.flags)).toEqual(['', 'INPUT_ERROR', '']);
+    expect(rows[1]!.extract_conc).toBe('12,5'); // the cell as it was written
+    expect(rows[1]!['pre_extraction_conc [ng/mL]']).toBe('');
+    expect(Number(rows[0]!['pre_extraction_conc [ng/mL]'])).toBeGreaterThan(0);
+  });
+
   it('spaces around values and a leading plus sign are not errors: same numbers as the clean file, cells kept as written', async () => {
     const [clean, spaced] = await Promise.all([
       recalc('accepted-clean.csv', { args: ['--outputs', 'csv'] }),
@@ -315,7 +332,7 @@ describe.concurrent('bounded work: limits refuse early, with a message', () => {
   it('an XLSX whose parts unpack past --max-unpacked is refused from the zip directory', async () => {
     expectStop(
       await recalc('bomb-many-parts.xlsx', { args: ['--max-unpacked', '8MB'] }),
-      'bomb-many-parts.xlsx: was refused as a possible zip bomb: its entries would unpack to more than 8 MiB',
+      'bomb-many-parts.xlsx: was refused as a possible zip bomb: its entries would unpack to more than 8 MiB (--max-unpacked); raise --max-unpacked if the workbook is genuine',
     );
   });
 

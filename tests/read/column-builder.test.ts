@@ -2,6 +2,23 @@ import { describe, expect, it } from 'vitest';
 import { ColumnBuilder, estimateRows } from '../../src/read/column-builder.js';
 
 describe('column builder: sized up front, repeated cells shared, trimmed at the end', () => {
+  it('keeps numbers as numbers and shares repeated text when a reader sets cells of either kind (XLSX)', () => {
+    const b = new ColumnBuilder(2);
+    const rows = [
+      ['S1', 12.5],
+      ['S1', null],
+      [' 7 ', -0],
+      ['S1', 0.1],
+    ] as const;
+    rows.forEach((r, i) => r.forEach((cell, c) => b.setCell(c, i, cell)));
+    const cols = b.finish(rows.length);
+    expect(cols).toEqual([
+      ['S1', 'S1', ' 7 ', 'S1'],
+      [12.5, null, -0, 0.1],
+    ]);
+    expect(Object.is(cols[1]![2], -0)).toBe(true); // the number itself, not its text
+  });
+
   it.each([
     ['the estimate is exact', 4],
     ['more rows than expected', 1],
