@@ -9,6 +9,11 @@
  *                         22k rows took 1.6 GB, 44k ran out of memory)
  *   40,000 type codes     a 1 MB method mapping 40,000 lab codes (the YAML library's
  *                         duplicate-key check took over 20 s)
+ *   XLSX built to cost    the workbooks of bench/xlsx-hostile.mjs, each accepted by the zip
+ *                         guard (a bomb of empty styled cells at ~500:1, a 16,384-column
+ *                         header over 2M rows, values beyond the header, number cells up to
+ *                         the limits, a row numbered 2,000,000,000): any result (read, or a
+ *                         refusal naming --max-unpacked), within 1.5 GB (issue 19's target)
  *
  * Each case is a function of the work folder that writes its inputs and returns the
  * command to run and its ceilings.
@@ -16,6 +21,7 @@
 import { writeFileSync } from 'node:fs';
 import { join } from 'node:path';
 import { HEADERS } from './generate.mjs';
+import { writeHostile } from './xlsx-hostile.mjs';
 
 const row = (cells) => HEADERS.map((h) => cells[h] ?? '').join(',');
 
@@ -42,3 +48,15 @@ export const HOSTILE_CASES = [
     },
   },
 ];
+
+/** The XLSX cases, written into `work`: one process each, any exit code (a refusal is a right answer). */
+export async function xlsxHostileCases(work, cli, method) {
+  const cases = [];
+  for (const { name, path } of await writeHostile(work)) {
+    cases.push({
+      name: `XLSX: ${name}`,
+      run: { args: [cli, 'recalc', path, '-m', method, '-o', join(work, 'out-hostile-xlsx'), '--force', '--quiet', '--outputs', 'csv'], okCodes: [0, 1, 2], maxWallS: 90, maxPeakMb: 1536 },
+    });
+  }
+  return cases;
+}

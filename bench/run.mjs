@@ -37,7 +37,7 @@ import { performance } from 'node:perf_hooks';
 import Papa from 'papaparse';
 import { writeWorklist } from './generate.mjs';
 import { FLOOR_COLUMNS } from './floor-columns.mjs';
-import { HOSTILE_CASES } from './hostile.mjs';
+import { HOSTILE_CASES, xlsxHostileCases } from './hostile.mjs';
 
 const ROOT = resolve(dirname(fileURLToPath(import.meta.url)), '..');
 const CLI = join(ROOT, 'dist', 'cli.js');
@@ -317,8 +317,9 @@ async function main() {
   }
   const hostile = [];
   if (opts.hostile) {
-    for (const c of HOSTILE_CASES) {
-      const run = c.make(work, CLI, METHOD);
+    const cases = [...HOSTILE_CASES.map((c) => ({ name: c.name, run: c.make(work, CLI, METHOD) })), ...(await xlsxHostileCases(work, CLI, METHOD))];
+    for (const c of cases) {
+      const run = c.run;
       const m = await measure(process.execPath, run.args, { okCodes: run.okCodes, scratch: work });
       hostile.push({ name: c.name, wallS: m.wallS, peakMb: m.peakMb, maxWallS: run.maxWallS, maxPeakMb: run.maxPeakMb });
       log(`  hostile: ${c.name}: ${fmt(m.wallS)} s wall, ${fmt(m.peakMb, 0)} MB (ceilings ${run.maxWallS} s, ${run.maxPeakMb} MB)`);

@@ -17,7 +17,7 @@ import { copyFile, link, lstat, open, readdir, realpath, rename, rm, stat, unlin
 import { basename, dirname, join, resolve } from 'node:path';
 import { StopError, fsReason } from '../errors.js';
 import { pushTo } from '../group.js';
-import { lockFolder, releaseAllLocksSync, type FolderLock } from './folder-lock.js';
+import { LOCK_NAME, lockFolder, releaseAllLocksSync, type FolderLock } from './folder-lock.js';
 
 export interface AtomicWriteOptions {
   /** Replace targets that already exist. Default false: an existing target stops the run. */
@@ -150,6 +150,9 @@ async function clearLeftovers(folder: string, onNotice: AtomicWriteOptions['onNo
     if (name.startsWith('.phasebook-tmp-')) {
       await rm(join(folder, name), { recursive: true, force: true }).catch(() => undefined);
       onNotice?.(`${folder}: removed ${name}, the unfinished outputs of a run that was stopped`);
+    } else if (name.startsWith(`${LOCK_NAME}.`)) {
+      // A lock's owner text that a killed run had not yet linked or removed: nothing in it to keep.
+      await rm(join(folder, name), { force: true }).catch(() => undefined);
     } else if (name.startsWith('.phasebook-old-')) {
       onNotice?.(
         `${folder}: found ${name}, the earlier version of an output kept by a run that was stopped while replacing its outputs; ` +

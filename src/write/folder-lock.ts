@@ -7,7 +7,8 @@
  * when the commit ends and, synchronously, when the process exits.
  */
 import { readFileSync, rmSync } from 'node:fs';
-import { open, unlink } from 'node:fs/promises';
+import { randomBytes } from 'node:crypto';
+import { link, open, unlink, writeFile } from 'node:fs/promises';
 import { hostname } from 'node:os';
 import { join } from 'node:path';
 import { StopError, fsReason } from '../errors.js';
@@ -36,13 +37,7 @@ export async function lockFolder(folder: string): Promise<FolderLock> {
   let tookOver: string | undefined;
   for (let attempt = 0; attempt < 2; attempt++) {
     try {
-      const fh = await open(path, 'wx');
-      try {
-        const owner: LockOwner = { pid: process.pid, host: hostname(), since: new Date().toISOString() };
-        await fh.writeFile(JSON.stringify(owner) + '\n');
-      } finally {
-        await fh.close();
-      }
+      await createWithOwner(path, { pid: process.pid, host: hostname(), since: new Date().toISOString() });
       held.add(path);
       return { path, tookOver, release: () => release(path) };
     } catch (err) {
@@ -67,6 +62,33 @@ export async function lockFolder(folder: string): Promise<FolderLock> {
     );
   }
   throw new StopError('output', 'another phasebook run took the output folder\'s lock at the same moment; run again', { file: folder });
+}
+
+/**
+ * Create the lock file with its owner already in it: the text goes into a file of this
+ * process's own, which is then hard-linked to the lock's name (a link fails with EEXIST
+ * when the name exists, like O_EXCL). A run that finds the lock therefore always reads
+ * a whole owner, never the empty file an O_EXCL create shows before it is written. On a
+ * file system without hard links, an O_EXCL create is the fallback.
+ */
+async function createWithOwner(path: string, owner: LockOwner): Promise<void> {
+  const text = JSON.stringify(owner) + '\n';
+  const mine = `${path}.${process.pid}.${randomBytes(4).toString('hex')}`;
+  await writeFile(mine, text, { flag: 'wx' });
+  try {
+    await link(mine, path);
+  } catch (err) {
+    const code = (err as { code?: string }).code;
+    if (code !== 'EPERM' && code !== 'ENOTSUP' && code !== 'EOPNOTSUPP') throw err;
+    const fh = await open(path, 'wx');
+    try {
+      await fh.writeFile(text);
+    } finally {
+      await fh.close();
+    }
+  } finally {
+    await unlink(mine).catch(() => undefined);
+  }
 }
 
 function readOwner(path: string): LockOwner | undefined {
