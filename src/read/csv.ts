@@ -207,13 +207,23 @@ function parseStream(
     let charsRead = 0;
     let recordEnd = 0;
     let reported = 0;
+    // The text read since the last finished record (at most about MAX_RECORD_CHARS), to tell an
+    // open quote from a record that is simply that long.
+    const pending: string[] = [];
+    let pendingStart = 0;
     stream.on('data', (chunk: string | Buffer) => {
-      charsRead += chunk.length;
-      if (!failed && charsRead - recordEnd > MAX_RECORD_CHARS + chunk.length) {
+      const text = String(chunk);
+      charsRead += text.length;
+      pending.push(text);
+      while (pending.length > 1 && pendingStart + pending[0]!.length <= recordEnd) pendingStart += pending.shift()!.length;
+      if (!failed && charsRead - recordEnd > MAX_RECORD_CHARS + text.length) {
+        const open = pending.join('').slice(Math.max(0, recordEnd - pendingStart));
         fail(
           new StopError(
             'input',
-            `a quoted cell that starts on line ${st.nextLine} runs on for more than 1 MiB without a closing "; expected a closing " (a quote is probably missing)`,
+            open.includes('"')
+              ? `a quoted cell that starts on line ${st.nextLine} runs on for more than 1 MiB without a closing "; expected a closing " (a quote is probably missing)`
+              : `the row that starts on line ${st.nextLine} runs on for more than 1 MiB without ending; expected rows of a worklist (a cell that long is not one)`,
             { file: path, line: st.nextLine, lineKind: 'line' },
           ),
         );

@@ -251,6 +251,13 @@ describe('readCsv: whole-file stops name the file and, where there is one, the l
       line: 3,
     },
     {
+      // A record that long without any quote is a line that never ends, not an open quote (issue 19).
+      name: 'an unquoted row of 1.2 million characters',
+      content: 'a,b\n1,2\nA,' + 'x'.repeat(1_200_000) + '\n3,4\n',
+      message: /^the row that starts on line 3 runs on for more than 1 MiB without ending; expected rows of a worklist \(a cell that long is not one\)$/,
+      line: 3,
+    },
+    {
       name: 'text after a closing quote',
       content: 'a,b\n1,2\n"x"y,2\n',
       message: /^a quoted cell on line 3 has text after its closing quote; expected the delimiter or the end of the line right after a closing "$/,
