@@ -3,8 +3,8 @@ import { tmpdir } from 'node:os';
 import { join } from 'node:path';
 import fc from 'fast-check';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
-import { StopError } from '../../src/errors.js';
 import { firstInvalidUtf8, readCsv, sniffDelimiter, type CsvReadOptions } from '../../src/read/csv.js';
+import { stopOf } from '../helpers/stop.js';
 
 let dir: string;
 let n = 0;
@@ -22,15 +22,6 @@ async function csvFile(content: string | Buffer, name = `f${n++}.csv`): Promise<
   return p;
 }
 
-async function stopOf(p: Promise<unknown>): Promise<StopError> {
-  try {
-    await p;
-  } catch (err) {
-    expect(err).toBeInstanceOf(StopError);
-    return err as StopError;
-  }
-  throw new Error('expected a StopError');
-}
 
 describe('readCsv: delimiters, decimal comma, BOM, line ends, quoting', () => {
   it.each([

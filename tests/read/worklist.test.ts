@@ -3,8 +3,8 @@ import { tmpdir } from 'node:os';
 import { join } from 'node:path';
 import ExcelJS from 'exceljs';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
-import { StopError } from '../../src/errors.js';
 import { readWorklist, sniffContent } from '../../src/read/worklist.js';
+import { stopOf } from '../helpers/stop.js';
 
 let dir: string;
 let xlsxBytes: Buffer;
@@ -31,15 +31,6 @@ async function put(name: string, content: string | Buffer): Promise<string> {
   return p;
 }
 
-async function stopOf(p: Promise<unknown>): Promise<StopError> {
-  try {
-    await p;
-  } catch (err) {
-    expect(err).toBeInstanceOf(StopError);
-    return err as StopError;
-  }
-  throw new Error('expected a StopError');
-}
 
 describe('readWorklist picks the reader', () => {
   it.each([

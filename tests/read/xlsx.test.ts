@@ -3,10 +3,10 @@ import { tmpdir } from 'node:os';
 import { join } from 'node:path';
 import ExcelJS from 'exceljs';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
-import { StopError } from '../../src/errors.js';
 import { readXlsx } from '../../src/read/xlsx.js';
 import { buildZip } from '../helpers/zip.mjs';
 import { handWrittenWorkbook, type HandWrittenWorkbookSpec } from '../helpers/xlsx-parts.mjs';
+import { stopOf } from '../helpers/stop.js';
 
 let dir: string;
 let book: string;
@@ -20,15 +20,6 @@ async function workbook(name: string, fill: (wb: ExcelJS.Workbook) => void): Pro
   return p;
 }
 
-async function stopOf(p: Promise<unknown>): Promise<StopError> {
-  try {
-    await p;
-  } catch (err) {
-    expect(err).toBeInstanceOf(StopError);
-    return err as StopError;
-  }
-  throw new Error('expected a StopError');
-}
 
 beforeAll(async () => {
   dir = await mkdtemp(join(tmpdir(), 'phasebook-xlsx-'));

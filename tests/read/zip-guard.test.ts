@@ -2,9 +2,9 @@ import { mkdtemp, rm, writeFile } from 'node:fs/promises';
 import { tmpdir } from 'node:os';
 import { join } from 'node:path';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
-import { StopError } from '../../src/errors.js';
 import { checkZip } from '../../src/read/zip-guard.js';
 import { buildZip, deflateZeros } from '../helpers/zip.mjs';
+import { stopOf } from '../helpers/stop.js';
 
 const MiB = 1024 * 1024;
 let dir: string;
@@ -22,15 +22,6 @@ async function file(name: string, bytes: Buffer | string): Promise<string> {
   return p;
 }
 
-async function stopOf(p: Promise<unknown>): Promise<StopError> {
-  try {
-    await p;
-  } catch (err) {
-    expect(err).toBeInstanceOf(StopError);
-    return err as StopError;
-  }
-  throw new Error('expected a StopError');
-}
 
 describe('checkZip accepts honest archives', () => {
   it('sums entries and unpacked sizes of a small honest zip', async () => {

@@ -5,6 +5,7 @@ import { basename, dirname, join } from 'node:path';
 import { afterAll, afterEach, beforeEach, describe, expect, it, vi } from 'vitest';
 import { StopError } from '../../src/errors.js';
 import { commitAll, installInterruptCleanup, liveTempFiles, removeLiveTempFiles, writeFileAtomic } from '../../src/write/atomic.js';
+import { stopOf } from '../helpers/stop.js';
 
 let root: string;
 let dir: string;
@@ -21,15 +22,6 @@ afterAll(async () => {
 
 const text = (content: string) => async (tmp: string) => writeFile(tmp, content);
 
-async function stopOf(p: Promise<unknown>): Promise<StopError> {
-  try {
-    await p;
-  } catch (err) {
-    expect(err).toBeInstanceOf(StopError);
-    return err as StopError;
-  }
-  throw new Error('expected a StopError');
-}
 
 describe('writeFileAtomic', () => {
   it('writes through a temp file in the same folder and leaves only the target', async () => {

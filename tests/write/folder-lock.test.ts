@@ -4,9 +4,9 @@ import { mkdir, mkdtemp, readdir, readFile, rm, writeFile } from 'node:fs/promis
 import { hostname, tmpdir } from 'node:os';
 import { join } from 'node:path';
 import { afterAll, beforeEach, describe, expect, it, vi } from 'vitest';
-import { StopError } from '../../src/errors.js';
 import { commitAll } from '../../src/write/atomic.js';
 import { LOCK_NAME, lockFolder } from '../../src/write/folder-lock.js';
+import { stopOf } from '../helpers/stop.js';
 
 let root: string;
 let dir: string;
@@ -23,15 +23,6 @@ const lockOf = (pid: number, since = '2026-12-04T10:00:00.000Z') => JSON.stringi
 /** The id of a process that has ended (a finished child's). */
 const deadPid = () => spawnSync(process.execPath, ['-e', '0']).pid!;
 
-async function stopOf(p: Promise<unknown>): Promise<StopError> {
-  try {
-    await p;
-  } catch (err) {
-    expect(err).toBeInstanceOf(StopError);
-    return err as StopError;
-  }
-  throw new Error('expected a StopError');
-}
 
 describe('the output folder lock', () => {
   it('is held while the commit writes and gone afterwards', async () => {
