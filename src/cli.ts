@@ -17,6 +17,7 @@ import type { RecalcResult } from './pipeline.js';
 import { runRecalc } from './run.js';
 import { describeFailedControl } from './summary/failures.js';
 import { recalcJson, stopJson } from './commands/recalc-json.js';
+import { STDIN_LABEL, spoolStdin } from './read/stdin.js';
 import { VERSION } from './version.js';
 import { installInterruptCleanup } from './write/atomic.js';
 import { OUTPUT_KINDS, type OutputKind } from './write/outputs.js';
@@ -61,7 +62,7 @@ export function buildProgram(io: { exit: (code: number) => void }): Command {
   program
     .command('recalc')
     .description('recalculate a worklist (CSV or XLSX) with a method and write the results CSV and workbook')
-    .argument('<worklist>', 'worklist file (.csv or .xlsx)')
+    .argument('<worklist>', 'worklist file (.csv or .xlsx), or - for CSV on standard input')
     .requiredOption('-m, --method <file>', 'method file (YAML), or the name of a method (phasebook method list), e.g. surface-water')
     .requiredOption('-o, --out <dir>', 'folder to write the outputs into')
     .option('--sheet <name>', 'XLSX worklist: the sheet to read (default: the first)')
@@ -73,6 +74,7 @@ export function buildProgram(io: { exit: (code: number) => void }): Command {
     .option('--history <file>', 'QC history database (SQLite): control charts in the report, and this run recorded in it')
     .option('-q, --quiet', 'print nothing but errors')
     .option('--json', 'print the outcome as one JSON document on stdout (the summary on stderr is then left out)')
+    .option('--name <name>', 'with -: the worklist\'s name, which the outputs take (default: stdin)')
     .action(async (worklist: string, opts: RecalcCliOptions) => {
       io.exit(await recalcCommand(worklist, opts));
     });
@@ -96,6 +98,7 @@ interface RecalcCliOptions {
   history?: string;
   quiet?: boolean;
   json?: boolean;
+  name?: string;
 }
 
 async function recalcCommand(worklist: string, opts: RecalcCliOptions): Promise<number> {
@@ -112,19 +115,34 @@ async function recalcCommand(worklist: string, opts: RecalcCliOptions): Promise<
 }
 
 async function recalcCommandQuietly(worklist: string, opts: RecalcCliOptions): Promise<number> {
+  if (worklist !== '-') {
+    if (opts.name !== undefined) throw new StopError('usage', '--name goes with - (a worklist on standard input); a file names its own outputs');
+    return recalcWithWorker(worklist, opts);
+  }
+  const spooled = await spoolStdin(process.stdin, { name: opts.name ?? 'stdin', maxBytes: opts.maxBytes });
+  try {
+    return await recalcWithWorker(spooled.path, opts, STDIN_LABEL);
+  } catch (err) {
+    throw spooled.relabel(err);
+  } finally {
+    spooled.remove();
+  }
+}
+
+async function recalcWithWorker(worklist: string, opts: RecalcCliOptions, label?: string): Promise<number> {
   // On a terminal, work over a second shows a progress line on stderr (progress.ts).
   const progress = createProgress({ quiet: opts.quiet });
   // The report's charts are drawn on a second thread, which loads vega meanwhile (report/draw.ts).
   prepareChartWorker((opts.outputs ?? OUTPUT_KINDS).includes('html'));
   try {
-    return await recalcWithProgress(worklist, opts, progress);
+    return await recalcWithProgress(worklist, opts, progress, label);
   } finally {
     stopChartWorker();
     progress?.finish();
   }
 }
 
-async function recalcWithProgress(worklist: string, opts: RecalcCliOptions, progress: ProgressLine | undefined): Promise<number> {
+async function recalcWithProgress(worklist: string, opts: RecalcCliOptions, progress: ProgressLine | undefined, label?: string): Promise<number> {
   installInterruptCleanup();
   const outcome = await runRecalc(worklist, {
     method: opts.method,
@@ -150,8 +168,8 @@ async function recalcWithProgress(worklist: string, opts: RecalcCliOptions, prog
       `phasebook: the outputs were written in full, but the run is not in the QC history: ${history.notRecorded}; ` +
         'run the same command again with --force to record it\n',
     );
-    if (!opts.quiet) process.stderr.write(describeRun(result, written));
-    if (opts.json) process.stdout.write(JSON.stringify(recalcJson(outcome, EXIT.findings)) + '\n');
+    if (!opts.quiet) process.stderr.write(describeRun(result, written, label));
+    if (opts.json) process.stdout.write(JSON.stringify(recalcJson(outcome, EXIT.findings, label)) + '\n');
     return EXIT.findings;
   }
   const recorded = history?.recorded
@@ -160,8 +178,8 @@ async function recalcWithProgress(worklist: string, opts: RecalcCliOptions, prog
       : `Recorded ${history.recorded.added} control row${history.recorded.added === 1 ? '' : 's'} in ${history.file}.`
     : '';
   const code = exitCodeOf(result);
-  if (!opts.quiet) process.stderr.write(describeRun(result, written) + (recorded ? `${recorded}\n` : ''));
-  if (opts.json) process.stdout.write(JSON.stringify(recalcJson(outcome, code)) + '\n');
+  if (!opts.quiet) process.stderr.write(describeRun(result, written, label) + (recorded ? `${recorded}\n` : ''));
+  if (opts.json) process.stdout.write(JSON.stringify(recalcJson(outcome, code, label)) + '\n');
   return code;
 }
 
@@ -175,13 +193,13 @@ export function exitCodeOf(result: RecalcResult): number {
 /** Failed controls named on the terminal before the rest are counted. */
 const TERMINAL_FAILED_CONTROLS = 20;
 
-function describeRun(result: RecalcResult, written: Record<string, string[]>): string {
+function describeRun(result: RecalcResult, written: Record<string, string[]>, label = result.worklist.path): string {
   const errors = result.table.rowError.reduce((a, b) => a + b, 0);
   const controls = result.qc.status.filter((s) => s !== '').length;
   const failed = result.qc.status.filter((s) => s === 'fail').length;
   const lines: string[] = [];
   lines.push(
-    `phasebook: read ${result.rowsIn} row${result.rowsIn === 1 ? '' : 's'} from ${result.worklist.path} with method ${result.method.name}; ` +
+    `phasebook: read ${result.rowsIn} row${result.rowsIn === 1 ? '' : 's'} from ${label} with method ${result.method.name}; ` +
       `${errors} row${errors === 1 ? '' : 's'} with input errors; ${controls} control row${controls === 1 ? '' : 's'}, ${failed} failed; ` +
       `wrote ${Object.values(written).flat().join(', ')}.`,
   );

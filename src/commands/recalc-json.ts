@@ -12,7 +12,7 @@ import { VERSION } from '../version.js';
 
 const finite = (x: unknown): number | string | null => (typeof x === 'number' ? (Number.isFinite(x) ? x : null) : typeof x === 'string' ? x : null);
 
-export function recalcJson(outcome: RecalcRunOutcome, exitCode: number): object {
+export function recalcJson(outcome: RecalcRunOutcome, exitCode: number, label?: string): object {
   const { result, written, history } = outcome;
   const rowNumber = (row: number) => result.raw.rowNumbers[row] ?? row + 2;
   const flagJson = (f: Flag) => ({ code: f.code, column: f.column ?? null, value: finite(f.value), limit: finite(f.limit), message: f.message });
@@ -20,7 +20,7 @@ export function recalcJson(outcome: RecalcRunOutcome, exitCode: number): object 
   return {
     phasebook: VERSION,
     exit_code: exitCode,
-    worklist: { path: result.worklist.path, sha256: result.worklist.sha256, bytes: result.worklist.bytes },
+    worklist: { path: label ?? result.worklist.path, name: result.worklist.name, sha256: result.worklist.sha256, bytes: result.worklist.bytes },
     method: { name: result.method.name, file: result.method.file, sha256: result.method.sha256 },
     rows_in: result.rowsIn,
     rows_out: result.rowsOut,
