@@ -1,0 +1,74 @@
+/**
+ * phasebook as a user installs it (issue 18): the project packed as npm packs it, the
+ * tarball installed into an empty folder with `npm install --omit=optional` (from npm's
+ * cache where it can), then used by name: the command, a shipped method by name, standard
+ * input, --json, and the library from CommonJS, ESM and TypeScript (nodenext).
+ */
+import { execFileSync, spawnSync } from 'node:child_process';
+import { mkdirSync, mkdtempSync, readFileSync, readdirSync, rmSync, writeFileSync } from 'node:fs';
+import { tmpdir } from 'node:os';
+import { join } from 'node:path';
+import { afterAll, beforeAll, describe, expect, it } from 'vitest';
+import { ROOT } from '../helpers/cli.js';
+
+const dir = mkdtempSync(join(tmpdir(), 'phasebook-package-'));
+const app = join(dir, 'lab-app');
+let install: { stdout: string; stderr: string; status: number | null };
+const npm = (args: string[], cwd: string) => spawnSync('npm', args, { cwd, encoding: 'utf8', timeout: 300_000 });
+
+beforeAll(() => {
+  // --ignore-scripts: the suite has just built dist/, so prepack need not build it again.
+  const packed = npm(['pack', '--ignore-scripts', '--pack-destination', dir, '--silent'], ROOT);
+  expect(packed.status, packed.stderr).toBe(0);
+  const tarball = join(dir, packed.stdout.trim().split('\n').pop()!);
+  mkdirSync(app);
+  writeFileSync(join(app, 'package.json'), JSON.stringify({ name: 'lab-app', private: true }));
+  install = npm(['install', tarball, '--omit=optional', '--prefer-offline', '--no-audit', '--no-fund'], app);
+}, 600_000);
+afterAll(() => rmSync(dir, { recursive: true, force: true }));
+
+const bin = () => join(app, 'node_modules', '.bin', 'phasebook');
+const run = (args: string[], input?: string) => spawnSync(bin(), args, { cwd: app, encoding: 'utf8', input, timeout: 120_000 });
+
+describe('the packed and installed package', () => {
+  it('installs without engine warnings and without asking to run a script', () => {
+    expect(install.status, install.stderr).toBe(0);
+    expect(install.stderr).not.toMatch(/EBADENGINE|install-scripts/);
+  });
+
+  it('ships the license, the methods and the built code, and nothing of the repository besides', () => {
+    const pkg = join(app, 'node_modules', 'phasebook');
+    expect(readdirSync(pkg).sort()).toEqual(['LICENSE', 'README.md', 'dist', 'package.json', 'templates']);
+  });
+
+  it('runs by name: a shipped method by name, --json on stdout', () => {
+    const version = run(['--version']);
+    expect(version.stdout.trim()).toBe(JSON.parse(readFileSync(join(ROOT, 'package.json'), 'utf8')).version);
+    const r = run(['recalc', join(ROOT, 'samples/kestrel-brook-2026-11.csv'), '-m', 'surface-water', '-o', 'out', '--json']);
+    expect(r.status, r.stderr).toBe(0);
+    expect(JSON.parse(r.stdout)).toMatchObject({ exit_code: 0, rows_in: 44, verdict: { verdict: 'pass' } });
+  });
+
+  it('reads a worklist from standard input', () => {
+    const r = run(['recalc', '-', '-m', 'surface-water', '-o', 'piped', '--name', 'kestrel', '--outputs', 'csv'], readFileSync(join(ROOT, 'samples/kestrel-brook-2026-11.csv'), 'utf8'));
+    expect(r.status, r.stderr).toBe(0);
+    expect(readdirSync(join(app, 'piped'))).toEqual(['kestrel.results.csv']);
+  });
+
+  it.each([
+    ['CommonJS', ['-e', "const p = require('phasebook'); console.log(typeof p.recalculate, typeof p.writeOutputs)"]],
+    ['ESM', ['--input-type=module', '-e', "import { recalculate, writeOutputs } from 'phasebook'; console.log(typeof recalculate, typeof writeOutputs)"]],
+  ])('loads as a library from %s', (_kind, args) => {
+    expect(execFileSync(process.execPath, args, { cwd: app, encoding: 'utf8' }).trim()).toBe('function function');
+  });
+
+  it('type-checks from TypeScript with module nodenext', () => {
+    writeFileSync(
+      join(app, 'check.ts'),
+      "import { recalculate, type RecalcResult } from 'phasebook';\nexport async function verdictOf(file: string): Promise<RecalcResult['verdict']['verdict']> {\n  return (await recalculate(file, { method: 'surface-water' })).verdict.verdict;\n}\n",
+    );
+    writeFileSync(join(app, 'tsconfig.json'), JSON.stringify({ compilerOptions: { module: 'nodenext', moduleResolution: 'nodenext', target: 'es2022', strict: true, noEmit: true, types: [] }, files: ['check.ts'] }));
+    const tsc = spawnSync(process.execPath, [join(ROOT, 'node_modules', 'typescript', 'bin', 'tsc'), '-p', 'tsconfig.json'], { cwd: app, encoding: 'utf8' });
+    expect(tsc.status, tsc.stdout + tsc.stderr).toBe(0);
+  });
+});
