@@ -3,6 +3,8 @@
  * method, write the outputs. Everything else is internal.
  */
 export { recalculate, recalculateTable } from './pipeline.js';
+export { recalculateData } from './memory.js';
+export type { DataOptions, WorklistData, Cell } from './memory.js';
 export type { RecalcOptions, RecalcResult, WorklistInfo } from './pipeline.js';
 export type { OnProgress, ProgressEvent } from './progress.js';
 export { loadMethod, parseMethod } from './method/load.js';

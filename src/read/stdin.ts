@@ -24,17 +24,17 @@ export interface Spooled {
   relabel(err: unknown): unknown;
 }
 
-/** A name for the outputs: letters, digits, dot, dash and underscore, not starting with a dot. */
-export function checkStdinName(name: string): string {
+/** A worklist's name that outputs can take: letters, digits, dot, dash and underscore, not starting with a dot. */
+export function checkWorklistName(name: string): string {
   if (!/^[A-Za-z0-9_-][A-Za-z0-9._-]{0,99}$/.test(name)) {
-    throw new StopError('usage', `--name: expected a name for the outputs made of letters, digits, ".", "_" and "-", got "${name}"`);
+    throw new StopError('usage', `expected a worklist name made of letters, digits, ".", "_" and "-" (the outputs take it), got "${name}"`);
   }
   return name;
 }
 
 export async function spoolStdin(input: AsyncIterable<Buffer | string>, options: { name: string; maxBytes: number }): Promise<Spooled> {
   const folder = mkdtempSync(join(tmpdir(), 'phasebook-stdin-'));
-  const path = join(folder, `${checkStdinName(options.name)}.csv`);
+  const path = join(folder, `${checkWorklistName(options.name)}.csv`);
   const remove = () => rmSync(folder, { recursive: true, force: true });
   let bytes = 0;
   const fh = await open(path, 'wx');

@@ -44,7 +44,7 @@ describe('the packed and installed package', () => {
   it('runs by name: a shipped method by name, --json on stdout', () => {
     const version = run(['--version']);
     expect(version.stdout.trim()).toBe(JSON.parse(readFileSync(join(ROOT, 'package.json'), 'utf8')).version);
-    const r = run(['recalc', join(ROOT, 'samples/kestrel-brook-2026-11.csv'), '-m', 'surface-water', '-o', 'out', '--json']);
+    const r = run(['recalc', join(ROOT, 'samples/kestrel-brook-2026-11.csv'), '-m', 'surface-water', '-o', 'by-name', '--json']);
     expect(r.status, r.stderr).toBe(0);
     expect(JSON.parse(r.stdout)).toMatchObject({ exit_code: 0, rows_in: 44, verdict: { verdict: 'pass' } });
   });
@@ -60,6 +60,17 @@ describe('the packed and installed package', () => {
     ['ESM', ['--input-type=module', '-e', "import { recalculate, writeOutputs } from 'phasebook'; console.log(typeof recalculate, typeof writeOutputs)"]],
   ])('loads as a library from %s', (_kind, args) => {
     expect(execFileSync(process.execPath, args, { cwd: app, encoding: 'utf8' }).trim()).toBe('function function');
+  });
+
+  it("runs the README's library example as it stands", () => {
+    const readme = readFileSync(join(ROOT, 'README.md'), 'utf8');
+    const example = /### Library[\s\S]*?```js\n([\s\S]*?)```/.exec(readme)?.[1];
+    expect(example).toBeDefined();
+    writeFileSync(join(app, 'end-of-day.mjs'), example!);
+    const r = spawnSync(process.execPath, ['end-of-day.mjs'], { cwd: app, encoding: 'utf8' });
+    expect(r.status, r.stderr).toBe(0);
+    expect(r.stdout).toContain('every control passed and no row has an input error');
+    expect(readdirSync(join(app, 'out')).sort()).toEqual(['wells-0412.report.html', 'wells-0412.results.csv', 'wells-0412.xlsx']);
   });
 
   it('type-checks from TypeScript with module nodenext', () => {

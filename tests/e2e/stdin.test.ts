@@ -42,7 +42,7 @@ describe('recalc -', () => {
   });
 
   it.each([
-    [['--name', '../escape'], 'phasebook: --name: expected a name for the outputs made of letters, digits, ".", "_" and "-", got "../escape"\nNothing was written.\n'],
+    [['--name', '../escape'], 'phasebook: expected a worklist name made of letters, digits, ".", "_" and "-" (the outputs take it), got "../escape"\nNothing was written.\n'],
     [['--max-bytes', '100'], 'phasebook: standard input: is larger than the 100 bytes accepted (--max-bytes)\nNothing was written.\n'],
   ])('refuses %j', (extra, message) => {
     const r = runCli(['recalc', '-', '-m', 'surface-water', '-o', join(dir, 'refused'), ...extra], { input: demo, env });
