@@ -67,7 +67,7 @@ export interface RecalcResult {
 
 export async function recalculate(worklistPath: string, options: RecalcOptions): Promise<RecalcResult> {
   const method = typeof options.method === 'string' ? loadMethod(options.method) : options.method;
-  const compiled = compileMethod(method); // a bad formula stops before the worklist is read
+  compileMethod(method); // a bad formula stops before the worklist is read (kept for the stages after reading)
   const raw = await readWorklist(worklistPath, {
     sheet: options.sheet,
     maxBytes: options.maxBytes,
@@ -76,18 +76,18 @@ export async function recalculate(worklistPath: string, options: RecalcOptions):
   });
   options.onProgress?.({ stage: 'read', rows: raw.rowCount, totalRows: raw.rowCount, fraction: 1 });
   const worklist = await describeFile(worklistPath);
-  return recalculateTable(raw, { method, worklist, compiled, onProgress: options.onProgress, inHouse: options.inHouse });
+  return recalculateTable(raw, { method, worklist, onProgress: options.onProgress, inHouse: options.inHouse });
 }
 
 /** The stages after reading, for callers that already hold a RawTable. */
 export function recalculateTable(
   raw: RawTable,
-  ctx: { method: Method; worklist: WorklistInfo; compiled?: ReturnType<typeof compileMethod>; onProgress?: OnProgress; inHouse?: InHouseLimits },
+  ctx: { method: Method; worklist: WorklistInfo; onProgress?: OnProgress; inHouse?: InHouseLimits },
 ): RecalcResult {
   const { method } = ctx;
   // The stages after reading take about equal time; each one done moves "evaluated" on.
   const stageDone = (k: number) => ctx.onProgress?.({ stage: 'evaluate', rows: Math.round((raw.rowCount * k) / 5), totalRows: raw.rowCount });
-  const compiled = ctx.compiled ?? compileMethod(method);
+  const compiled = compileMethod(method); // once per method: recalculate() compiled it already, to fail early
   let columnMap: ColumnMap;
   try {
     columnMap = mapColumns(raw, method);

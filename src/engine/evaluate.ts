@@ -18,7 +18,19 @@ export interface CompiledMethod {
 }
 
 /** Compile every formula of a method once; a refused formula or a cycle stops the run. */
+/** Compiled once per loaded method: the pipeline, the workbook and verify all ask for it. */
+const compiledMethods = new WeakMap<Method, CompiledMethod>();
+
 export function compileMethod(method: Method): CompiledMethod {
+  let compiled = compiledMethods.get(method);
+  if (!compiled) {
+    compiled = compileMethodOnce(method);
+    compiledMethods.set(method, compiled);
+  }
+  return compiled;
+}
+
+function compileMethodOnce(method: Method): CompiledMethod {
   const symbols = new Map<string, SymbolKind>();
   for (const spec of FIELD_SPECS.values()) symbols.set(spec.name, spec.kind);
   for (const [name, d] of Object.entries(DERIVED_COLUMNS)) symbols.set(name, d.kind);

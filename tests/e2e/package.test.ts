@@ -73,6 +73,24 @@ describe('the packed and installed package', () => {
     expect(readdirSync(join(app, 'out')).sort()).toEqual(['wells-0412.report.html', 'wells-0412.results.csv', 'wells-0412.xlsx']);
   });
 
+  it("has public types that import no other package's types", () => {
+    const root = join(app, 'node_modules', 'phasebook', 'dist');
+    const seen = new Set<string>();
+    const outside: string[] = [];
+    const walk = (file: string) => {
+      if (seen.has(file)) return;
+      seen.add(file);
+      for (const m of readFileSync(file, 'utf8').matchAll(/(?:from|import\()\s*['"]([^'"]+)['"]/g)) {
+        const spec = m[1]!;
+        if (spec.startsWith('.')) walk(join(file, '..', spec.replace(/\.js$/, '.d.ts')));
+        else if (!spec.startsWith('node:')) outside.push(`${spec} (from ${file.slice(root.length + 1)})`);
+      }
+    };
+    walk(join(root, 'index.d.ts'));
+    expect(seen.size).toBeGreaterThan(10);
+    expect(outside).toEqual([]);
+  });
+
   it('type-checks from TypeScript with module nodenext', () => {
     writeFileSync(
       join(app, 'check.ts'),
