@@ -74,8 +74,8 @@ export async function lockFolder(folder: string): Promise<FolderLock> {
 async function createWithOwner(path: string, owner: LockOwner): Promise<void> {
   const text = JSON.stringify(owner) + '\n';
   const mine = `${path}.${process.pid}.${randomBytes(4).toString('hex')}`;
-  await writeFile(mine, text, { flag: 'wx' });
   try {
+    await writeFile(mine, text, { flag: 'wx' }); // a full disk can fail it after creating the file: removed below
     await link(mine, path);
   } catch (err) {
     const code = (err as { code?: string }).code;

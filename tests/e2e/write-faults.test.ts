@@ -62,7 +62,9 @@ describe('a write that fails stops the run with exit 2 and leaves nothing', () =
       return;
     }
     expect(r.code).toBe(2);
-    expect(r.stderr).toMatch(new RegExp(`^phasebook: \\S+: cannot be written: ${REASONS[code]}\\nNothing was written\\.\\n$`));
+    // The first write into the folder is the run's lock: at 0 bytes that is what cannot be written.
+    const what = after === 0 ? "cannot take the output folder's lock" : 'cannot be written';
+    expect(r.stderr).toMatch(new RegExp(`^phasebook: \\S+: ${what}: ${REASONS[code]}\\nNothing was written\\.\\n$`));
     expect(r.left).toEqual([]);
     expect(sha()).toBe(before);
   });
@@ -72,7 +74,7 @@ describe('a workbook large enough to wait on the disk', () => {
   // The case found: the workbook's writer waits for the disk to take its data; when the
   // write failed it waited for ever, the event loop ran dry and the process exited 0.
   it.each([
-    ['xlsx', 'ENOSPC', 0],
+    ['xlsx', 'ENOSPC', 1000],
     ['xlsx', 'ENOSPC', 200_000],
     ['csv,xlsx,html', 'EIO', 400_000],
   ])('--outputs %s, %s after %i bytes', (outputs, code, after) => {
@@ -92,7 +94,7 @@ describe('a write that never answers', () => {
     const out = join(root, `hang${k++}`);
     const r = runCli(['recalc', WORKLIST, '-m', METHOD, '-o', out, '--outputs', outputs], {
       nodeArgs: ['--require', INJECT],
-      env: { FAIL_WRITES_DIR: out, FAIL_WRITES_CODE: 'HANG' },
+      env: { FAIL_WRITES_DIR: out, FAIL_WRITES_CODE: 'HANG', FAIL_WRITES_AFTER: '200' }, // past the lock: the outputs' writes hang
     });
     expect(r.code).toBe(2);
     expect(r.stderr).toBe('phasebook: the run ended before it finished: an operation never completed (please report this)\nNothing was written.\n');
