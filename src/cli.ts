@@ -20,7 +20,7 @@ import { recalcJson, stopJson } from './commands/recalc-json.js';
 import { STDIN_LABEL, spoolStdin } from './read/stdin.js';
 import { VERSION } from './version.js';
 import { installInterruptCleanup } from './write/atomic.js';
-import { OUTPUT_KINDS, type OutputKind } from './write/outputs.js';
+import { CSV_DIALECTS, OUTPUT_KINDS, type CsvDialectChoice, type OutputKind } from './write/outputs.js';
 import { createProgress, type ProgressLine } from './progress.js';
 import { prepareChartWorker, stopChartWorker } from './report/draw.js';
 
@@ -75,6 +75,11 @@ export function buildProgram(io: { exit: (code: number) => void }): Command {
     .option('-q, --quiet', 'print nothing but errors')
     .option('--json', 'print the outcome as one JSON document on stdout (the summary on stderr is then left out)')
     .option('--name <name>', 'with -: the worklist\'s name, which the outputs take (default: stdin)')
+    .addOption(
+      new Option('--csv-dialect <dialect>', 'the results CSV: as the worklist (default), comma (decimal point), semicolon (decimal comma) or tab')
+        .choices([...CSV_DIALECTS])
+        .default('as-input'),
+    )
     .action(async (worklist: string, opts: RecalcCliOptions) => {
       io.exit(await recalcCommand(worklist, opts));
     });
@@ -99,6 +104,7 @@ interface RecalcCliOptions {
   quiet?: boolean;
   json?: boolean;
   name?: string;
+  csvDialect?: CsvDialectChoice;
 }
 
 async function recalcCommand(worklist: string, opts: RecalcCliOptions): Promise<number> {
@@ -158,6 +164,7 @@ async function recalcWithProgress(worklist: string, opts: RecalcCliOptions, prog
     version: VERSION,
     onProgress: progress?.update,
     onNotice: opts.quiet ? undefined : (text) => process.stderr.write(`phasebook: ${text}\n`),
+    csvDialect: opts.csvDialect,
   });
   progress?.finish();
   const { result, written, history } = outcome;
@@ -203,6 +210,9 @@ function describeRun(result: RecalcResult, written: Record<string, string[]>, la
       `${errors} row${errors === 1 ? '' : 's'} with input errors; ${controls} control row${controls === 1 ? '' : 's'}, ${failed} failed; ` +
       `wrote ${Object.values(written).flat().join(', ')}.`,
   );
+  // How the numbers were read (decided once per file; a text file always says so).
+  const nf = result.table.numberFormat;
+  if (result.raw.format.kind === 'csv' || nf.basis !== 'delimiter') lines.push(`Numbers read with ${nf.how}.`);
   for (const g of result.groups) {
     if (g.verdict === 'fail') lines.push(`  FAIL ${g.batch ? `batch ${g.batch}, ` : ''}${g.analyte}: ${g.reasons.join('; ')}`);
   }

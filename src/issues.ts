@@ -14,6 +14,7 @@ export const FLAG_CODES = [
   'BELOW_RL',
   'OVER_RANGE',
   'OUTLIER',
+  'NOT_DETECTED',
   'LCS_ASSOC',
   'MATRIX_ASSOC',
   'BLANK_ASSOC',

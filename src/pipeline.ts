@@ -133,6 +133,7 @@ export function recalculateTable(
     computed: evaluated.columns,
     links,
     rowError: table.rowError,
+    nondetect: table.nondetect,
     inHouse: ctx.inHouse,
   });
   stageDone(4);

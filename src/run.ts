@@ -19,7 +19,7 @@ import { StopError } from './errors.js';
 import { loadMethod } from './method/load.js';
 import { recalculate, type RecalcResult } from './pipeline.js';
 import type { OnProgress } from './progress.js';
-import { OUTPUT_KINDS, workbookDeclined, writeOutputs, type OutputKind } from './write/outputs.js';
+import { OUTPUT_KINDS, workbookDeclined, writeOutputs, type CsvDialectChoice, type OutputKind } from './write/outputs.js';
 
 export interface RecalcRunOptions {
   /** Method file. */
@@ -43,6 +43,8 @@ export interface RecalcRunOptions {
   onProgress?: OnProgress;
   /** Told what the commit did besides writing (a stale lock taken over, leftovers found). */
   onNotice?: (text: string) => void;
+  /** The results CSV's dialect (default: as the worklist's). */
+  csvDialect?: CsvDialectChoice;
 }
 
 export interface RecalcRunOutcome {
@@ -83,6 +85,7 @@ export async function runRecalc(worklist: string, options: RecalcRunOptions): Pr
       historyFile: options.history,
       onProgress: options.onProgress,
       onNotice: options.onNotice,
+      csvDialect: options.csvDialect,
     });
     const asked = (options.outputs ?? OUTPUT_KINDS).includes('xlsx');
     outcome = { result, written, workbookDeclined: asked ? workbookDeclined(result.rowsOut) : undefined };

@@ -5,6 +5,8 @@ import type { RawTable } from '../read/types.js';
 import { FIELD_SPECS, SAMPLE_TYPES, type CanonicalField, type SampleType } from './fields.js';
 import type { ColumnMap, FieldSource } from './map.js';
 import { cellText, parseNumberCell, type NumberCell } from './numbers.js';
+import { decideFormat, type NumberFormat } from './number-format.js';
+import { NonDetectReader } from './nondetect.js';
 import { conversionFactor } from './units.js';
 
 /** Where a value in the work table came from, per cell. */
@@ -31,6 +33,12 @@ export interface WorkTable {
   analyteIndex: Int32Array;
   /** 1 on rows with an input error: their computed cells stay empty. */
   rowError: Uint8Array;
+  /** How this worklist writes its numbers: declared by the method, or decided from its cells. */
+  numberFormat: NumberFormat;
+  /** 1 where the result (extract_conc) is a non-detect: its value stays empty (nondetect.ts). */
+  nondetect: Uint8Array;
+  /** A non-detect's stated limit (`< 0.5`), in the method's concentration unit; NaN when none is stated. */
+  nondetectLimit: Float64Array;
   errors: Flag[];
   notes: Note[];
 }
@@ -116,6 +124,13 @@ export function buildTable(raw: RawTable, map: ColumnMap, method: Method): WorkT
     for (let r = 0; r < n; r++) if (col[r] === '') fail(r, header, `expected ${field === 'sample_id' ? 'a sample id' : 'an analyte name'}, got an empty cell`);
   }
 
+  // One number format for the whole file (number-format.ts), from the text cells of every numeric field;
+  // the result column's non-detect words are not numbers, the number of a "< 0,5" is.
+  const nonDetects = new NonDetectReader(method.nonDetects);
+  const numberFormat = raw.format.numberFormat ?? decideFormat(numericTexts(raw, map, nonDetects), { declared: method.numberFormat, delimiter: raw.format.delimiter });
+  const nondetect = new Uint8Array(n);
+  const nondetectLimit = new Float64Array(n).fill(NaN);
+
   // Numeric fields.
   const numbers = new Map<string, Float64Array>();
   const sources = new Map<string, Uint8Array>();
@@ -124,7 +139,10 @@ export function buildTable(raw: RawTable, map: ColumnMap, method: Method): WorkT
     const values = new Float64Array(n).fill(NaN);
     const source = new Uint8Array(n).fill(ValueSource.Empty);
     const src = map.fields.get(spec.name);
-    if (src) readNumbers(raw, src, values, source, { analyteIndex, method, fail });
+    if (src) {
+      const results = spec.name === 'extract_conc' ? { reader: nonDetects, rows: nondetect, limits: nondetectLimit, flags: errors } : undefined;
+      readNumbers(raw, src, values, source, { analyteIndex, method, fail, numberFormat, nonDetects: results });
+    }
     numbers.set(spec.name, values);
     sources.set(spec.name, source);
   }
@@ -194,7 +212,8 @@ export function buildTable(raw: RawTable, map: ColumnMap, method: Method): WorkT
       else if (Number.isNaN(cols.pka.values[r]!)) fail(r, headerOf('pka'), `expected a pKa for an ionisable analyte (${ab})`);
     }
     for (const [f, values] of required) {
-      if (Number.isNaN(values[r]!)) fail(r, headerOf(f), `expected a value for ${f}, got an empty cell`);
+      // A non-detect is a result: its concentration is empty on purpose.
+      if (Number.isNaN(values[r]!) && !(f === 'extract_conc' && nondetect[r])) fail(r, headerOf(f), `expected a value for ${f}, got an empty cell`);
     }
     const type = sampleType[r];
     if (!rowError[r] && (type === 'lcs' || type === 'lcsd' || type === 'ms' || type === 'msd' || type === 'qc')) {
@@ -213,7 +232,7 @@ export function buildTable(raw: RawTable, map: ColumnMap, method: Method): WorkT
   }
   texts.set('acid_base', acidCanon);
 
-  return { rowCount: n, numbers, texts, sources, sampleType, analyteIndex, rowError, errors: sortByRow(errors), notes };
+  return { rowCount: n, numbers, texts, sources, sampleType, analyteIndex, rowError, numberFormat, nondetect, nondetectLimit, errors: sortByRow(errors), notes };
 }
 
 function numberDefault(method: Method, field: CanonicalField): number | undefined {
@@ -230,6 +249,9 @@ function readNumbers(
     analyteIndex: Int32Array;
     method: Method;
     fail: (row: number, column: string | undefined, reason: string, value?: string) => void;
+    numberFormat: NumberFormat;
+    /** For the result column: the non-detect words, and where to mark them. */
+    nonDetects?: { reader: NonDetectReader; rows: Uint8Array; limits: Float64Array; flags: Flag[] };
   },
 ): void {
   const cells = raw.columns[src.column]!;
@@ -254,18 +276,38 @@ function readNumbers(
   const parsedText = new Map<string, NumberCell>();
   let cacheOn = true;
   let misses = 0;
+  const nd = ctx.nonDetects;
   for (let r = 0; r < raw.rowCount; r++) {
     const cell = cells[r] ?? null;
+    if (nd && typeof cell === 'string') {
+      const found = nd.reader.read(cell, ctx.numberFormat);
+      if (found) {
+        nd.rows[r] = 1;
+        const factor = found.limit === undefined ? undefined : factorFor(r);
+        if (typeof factor === 'number') nd.limits[r] = found.limit! * factor;
+        const limit = found.limit === undefined ? '' : `, below its stated limit of ${found.limit} ${src.fromUnit}`.trimEnd();
+        // A flag of its own that informs: it fails nothing and raises no exit code (QC judges the row).
+        nd.flags.push({
+          row: r,
+          code: 'NOT_DETECTED',
+          column: src.header,
+          value: cell.trim(),
+          ...(found.limit === undefined ? {} : { limit: found.limit }),
+          message: rowMessage(raw.rowNumbers[r]!, src.header, `"${cell.trim()}" is read as not detected${limit}`),
+        });
+        continue;
+      }
+    }
     let parsed: NumberCell | undefined;
     if (cacheOn && typeof cell === 'string') {
       parsed = parsedText.get(cell);
       if (parsed === undefined) {
-        parsed = parseNumberCell(cell, raw.format.decimalComma);
+        parsed = parseNumberCell(cell, ctx.numberFormat);
         parsedText.set(cell, parsed);
         // A column of mostly distinct values (results) gains nothing: stop looking up.
         if (++misses > 1024 && misses > (r + 1) / 2) cacheOn = false;
       }
-    } else parsed = parseNumberCell(cell, raw.format.decimalComma);
+    } else parsed = parseNumberCell(cell, ctx.numberFormat);
     if (!parsed.ok) {
       ctx.fail(r, src.header, parsed.reason, cellText(cell));
       continue;
@@ -288,4 +330,26 @@ function readNumbers(
 
 function sortByRow<T extends { row: number }>(xs: T[]): T[] {
   return xs.sort((a, b) => a.row - b.row);
+}
+
+/** The text cells of every numeric field, for deciding the number format (the number of a "< 0,5" included). */
+function* numericTexts(raw: RawTable, map: ColumnMap, nonDetects: NonDetectReader): Iterable<string> {
+  for (const src of map.fields.values()) {
+    if (FIELD_SPECS.get(src.field)?.kind !== 'number') continue;
+    const cells = raw.columns[src.column]!;
+    const result = src.field === 'extract_conc';
+    for (let r = 0; r < raw.rowCount; r++) {
+      const cell = cells[r];
+      if (typeof cell !== 'string' || cell === '') continue;
+      if (result) {
+        const part = NonDetectReader.numberPart(cell);
+        if (part !== undefined) {
+          yield part;
+          continue;
+        }
+        if (nonDetects.isWord(cell)) continue;
+      }
+      yield cell;
+    }
+  }
 }

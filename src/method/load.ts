@@ -201,6 +201,8 @@ export function parseMethod(text: string, options: { file: string }): Method {
     units,
     fields,
     sampleTypes,
+    numberFormat: raw.number_format,
+    nonDetects: raw.non_detects ?? [],
     analytes,
     defaults: { reporting_limit: raw.defaults?.reporting_limit },
     limits: mergeLimitTables(GENERIC_LIMITS, (raw.limits ?? {}) as LimitTable),
@@ -298,6 +300,8 @@ interface RawMethod {
   units?: { volume?: string; concentration?: string; extract_concentration?: string };
   fields?: Record<string, { aliases?: string[]; unit?: string; default?: number | string }>;
   sample_types?: Record<string, SampleType>;
+  number_format?: { decimal_mark: '.' | ','; grouping?: 'none' | '.' | ',' | ' ' | "'" };
+  non_detects?: string[];
   analytes?: Record<
     string,
     {

@@ -70,6 +70,10 @@ export interface Method {
   fields: Map<CanonicalField, FieldConfig>;
   /** Lab code (lower case, trimmed) → canonical sample type. */
   sampleTypes: Map<string, SampleType>;
+  /** How the worklist writes numbers, when the method declares it (else decided per file: columns/number-format.ts). */
+  numberFormat?: { decimal_mark: '.' | ','; grouping?: 'none' | '.' | ',' | ' ' | "'" };
+  /** The lab's own words for "not detected", besides phasebook's (columns/nondetect.ts). */
+  nonDetects: string[];
   /** Analyte by name; look up with `findAnalyte`. */
   analytes: AnalyteInfo[];
   defaults: { reporting_limit?: number };

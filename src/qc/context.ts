@@ -19,6 +19,8 @@ export interface QcInput {
   computed: ReadonlyMap<string, Float64Array>;
   links: Links;
   rowError: Uint8Array;
+  /** 1 where the result is a non-detect (columns/nondetect.ts): no concentration, judged as not detected. */
+  nondetect?: Uint8Array;
   /** In-house limits from the QC history, used when the method asks for them. */
   inHouse?: InHouseLimits;
 }
@@ -39,6 +41,8 @@ export interface QcContext {
   /** extract_conc as held by the engine (in the method's concentration unit). */
   extract: Float64Array;
   reportingLimit: Float64Array;
+  /** 1 where the result is a non-detect. */
+  nondetect: Uint8Array;
   batch: readonly string[];
   analyte: readonly string[];
   sampleId: readonly string[];
@@ -84,6 +88,7 @@ export function buildContext(input: QcInput): QcContext {
     rpd: col('rpd_pct'),
     result: col('pre_extraction_conc'),
     extract: col('extract_conc'),
+    nondetect: input.nondetect ?? new Uint8Array(input.rowCount),
     reportingLimit: col('reporting_limit'),
     batch: text('batch_id'),
     analyte: text('analyte'),

@@ -23,6 +23,11 @@ export const ROW_RULES: readonly RowRule[] = [
     description: 'spike recovery below the lower limit for the row type (and qc level), limits inclusive',
     check(ctx, r) {
       const lim = ctx.limits[r]!.recovery;
+      // A spiked control that is not detected has recovered nothing of its spike: it fails (issue 13).
+      const spiked = ctx.isSurrogate(r) || ['lcs', 'lcsd', 'ms', 'msd', 'qc'].includes(ctx.type[r]!);
+      if (lim && spiked && ctx.nondetect[r]) {
+        return { column: 'spike_recovery_pct', text: `recovery below its limit: expected ${formatRange(lim)}, got a result not detected (nothing of the spike recovered)`, value: 0, limit: lim[0] };
+      }
       const x = ctx.recovery[r]!;
       if (!lim || !finite(x) || !isBelow(x, lim[0])) return undefined;
       return { column: 'spike_recovery_pct', text: `recovery below its limit: expected ${formatRange(lim)}, got "${fmt(x)} %"`, value: x, limit: lim[0] };
@@ -68,6 +73,11 @@ export const ROW_RULES: readonly RowRule[] = [
       if (ctx.type[r] !== 'sample' || ctx.isSurrogate(r)) return undefined;
       const x = ctx.result[r]!;
       const rl = ctx.reportingLimit[r]!;
+      if (ctx.nondetect[r]) {
+        // Not detected: below the reporting limit by what the instrument says, with no number to show.
+        const u = ctx.method.units.concentration;
+        return { column: 'pre_extraction_conc', text: `result not detected: below the reporting limit${finite(rl) ? ` ${fmt(rl)} ${u}` : ''}`, value: 'not detected', limit: finite(rl) ? rl : undefined };
+      }
       if (!finite(x) || !finite(rl) || !isBelow(x, rl)) return undefined;
       const u = ctx.method.units.concentration;
       return { column: 'pre_extraction_conc', text: `result "${fmt(x)} ${u}" is below the reporting limit ${fmt(rl)} ${u}`, value: x, limit: rl };

@@ -52,7 +52,10 @@ export async function readCsv(path: string, options: CsvReadOptions = {}): Promi
   const text = checkTextHead(path, head.bytes, head.complete);
   if (text.trim() === '') throw new StopError('input', 'is empty, expected a header row and data rows', { file: path });
   const delimiter = options.delimiter ?? sniffDelimiter(text);
-  return parseStream(path, delimiter, { expectedRows: estimateRows(size, text, { complete: head.complete }), fileBytes: size, onRows: options.onRows });
+  const bom = head.bytes.length >= 3 && head.bytes[0] === 0xef && head.bytes[1] === 0xbb && head.bytes[2] === 0xbf;
+  const table = await parseStream(path, delimiter, { expectedRows: estimateRows(size, text, { complete: head.complete }), fileBytes: size, onRows: options.onRows });
+  table.format.bom = bom;
+  return table;
 }
 
 /**

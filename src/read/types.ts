@@ -1,3 +1,4 @@
+import type { NumberFormat } from '../columns/number-format.js';
 /**
  * What a reader hands forward: the worklist exactly as written, column by column.
  *
@@ -27,8 +28,15 @@ export interface RawTable {
     kind: 'csv' | 'xlsx';
     /** CSV only: the delimiter used. */
     delimiter?: ',' | ';' | '\t';
-    /** True when numbers in this file use a decimal comma (semicolon CSV). */
+    /**
+     * The reader's guess of the decimal mark (a semicolon CSV: decimal comma). Only a hint:
+     * the columns stage decides the number format from the cells (columns/number-format.ts).
+     */
     decimalComma: boolean;
+    /** A number format fixed in advance (verify sets the one the run decided); otherwise decided from the cells. */
+    numberFormat?: NumberFormat;
+    /** CSV only: the file began with a byte-order mark (the results CSV then does too). */
+    bom?: boolean;
     /** XLSX only: the sheet read. */
     sheet?: string;
     /** XLSX only: every sheet of the workbook, in order (for messages that suggest another). */

@@ -33,7 +33,9 @@ import {
   PROVENANCE_MARKER,
   PROVENANCE_SHEET,
   READING_PROBLEMS_TITLE,
+  parseNumberFormatCode,
 } from '../write/workbook/provenance-sheet.js';
+import { decideFormat, type NumberFormat } from '../columns/number-format.js';
 import { QC_SHEET } from '../write/workbook/qc-sheet.js';
 import { RESULTS_SHEET, WORKLIST_ROW_HEADER } from '../write/workbook/results-sheet.js';
 import { SUMMARY_SHEET } from '../write/workbook/summary-sheet.js';
@@ -117,11 +119,12 @@ export async function verifyWorkbook(path: string, options: VerifyOptions = {}):
   }
 
   // The worklist, from the Results sheet's input columns.
-  const raw = rebuildWorklist(results, provenance, {
-    path,
-    inputCount,
-    decimalComma: facts.get(KEYS.decimalComma)?.value === 'yes',
-  });
+  // The number format the run decided, read back so that every text cell is read the same way again.
+  const decimalComma = facts.get(KEYS.decimalComma)?.value === 'yes';
+  const numberFormat =
+    parseNumberFormatCode(String(facts.get(KEYS.numberFormatCode)?.value ?? ''), String(facts.get(KEYS.numberFormat)?.value ?? '')) ??
+    decideFormat([], { declared: { decimal_mark: decimalComma ? ',' : '.' } }); // a version 2 workbook: the mark only
+  const raw = rebuildWorklist(results, provenance, { path, inputCount, decimalComma, numberFormat });
   let result: RecalcResult;
   try {
     result = recalculateTable(raw, {
@@ -156,7 +159,6 @@ export async function verifyWorkbook(path: string, options: VerifyOptions = {}):
     maxNotes: needNumber(KEYS.maxNotes),
     formulas: need(KEYS.formulas) === FORMULAS_LIVE,
     readAs: needText(KEYS.readAs),
-    decimalComma: facts.get(KEYS.decimalComma)?.value === 'yes',
   });
 
   // Compare sheet by sheet, taking the digest over the stored Results rows on the way.
@@ -276,7 +278,7 @@ function rowValues(cells: ReadonlyMap<number, StoredCell>, width: number): CellV
 function rebuildWorklist(
   results: StoredSheet,
   provenance: StoredSheet,
-  options: { path: string; inputCount: number; decimalComma: boolean },
+  options: { path: string; inputCount: number; decimalComma: boolean; numberFormat: NumberFormat },
 ): RawTable {
   const n = options.inputCount;
   const header = results.row(1);
@@ -318,7 +320,7 @@ function rebuildWorklist(
     rowCount: rowNumbers.length,
     rowNumbers: Int32Array.from(rowNumbers),
     rowProblems,
-    format: { kind: 'xlsx', decimalComma: options.decimalComma },
+    format: { kind: 'xlsx', decimalComma: options.decimalComma, numberFormat: options.numberFormat },
   };
 }
 

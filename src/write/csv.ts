@@ -1,6 +1,10 @@
 /**
- * Results CSV writer: RFC 4180 fields, comma delimiter, LF line ends, UTF-8
- * without BOM, numbers unrounded, text neutralised against formula injection.
+ * Results CSV writer: RFC 4180 fields, LF line ends, UTF-8, numbers unrounded,
+ * text neutralised against formula injection. The dialect follows the worklist's
+ * (issue 13): a semicolon file with decimal commas gives a semicolon file whose
+ * computed numbers have decimal commas, with a BOM when the worklist had one, so
+ * that a spreadsheet in that locale reads both alike; by default a comma file with
+ * decimal points, no BOM.
  *
  * Formula injection (OWASP "CSV Injection"; ASVS 5.0 V1.2.10; LIBRARY-NOTES.md
  * §4): a text cell whose first character is `=` `+` `-` `@`, tab, CR, LF or NUL
@@ -20,6 +24,15 @@ export type ResultColumn =
   | { kind: 'text'; values: ReadonlyArray<RawCell> }
   | { kind: 'number'; values: Float64Array };
 
+/** Delimiter, decimal mark and BOM of the results CSV. */
+export interface CsvDialect {
+  delimiter: ',' | ';' | '\t';
+  decimal: '.' | ',';
+  bom: boolean;
+}
+
+export const COMMA_DIALECT: CsvDialect = { delimiter: ',', decimal: '.', bom: false };
+
 export interface ResultsCsv {
   headers: readonly string[];
   /** One per header, in order; each holds at least `rowCount` values. */
@@ -38,34 +51,42 @@ export function formatNumber(x: number): string {
  * needs it (a comma, quote, CR or LF inside) or when it starts or ends with
  * a space or tab (so that no reader trims it).
  */
-export function escapeCsvText(s: string): string {
+export function escapeCsvText(s: string, delimiter: CsvDialect['delimiter'] = ','): string {
   if (s.length === 0) return '';
   const first = s.charCodeAt(0);
   // A number written as text ("-0.02", "+5", "-1,25" in a decimal-comma file) is a
   // real instrument value, not a formula: it stays as written (issue: "-2.5 stays a number").
   if (isFormulaTrigger(first) && !PLAIN_NUMBER.test(s)) return `"'${s.replace(QUOTES, '""')}"`;
   const last = s.charCodeAt(s.length - 1);
-  if (NEEDS_QUOTES.test(s) || first === 32 || last === 32 || last === 9) return `"${s.replace(QUOTES, '""')}"`;
+  if (NEEDS_QUOTES.test(s) || s.includes(delimiter) || first === 32 || last === 32 || last === 9) return `"${s.replace(QUOTES, '""')}"`;
   return s;
 }
 
 const QUOTES = /"/g;
 const PLAIN_NUMBER = /^[+-](?:\d+(?:[.,]\d*)?|[.,]\d+)(?:[eE][+-]?\d+)?$/;
-const NEEDS_QUOTES = /[",\r\n]/;
+/** A quote or line break (the delimiter is checked by itself: a comma needs no quotes in a semicolon file). */
+const NEEDS_QUOTES = /["\r\n]/;
 
 /** `=` `+` `-` `@` tab CR LF NUL (OWASP CSV Injection plus ASVS's NUL). */
 function isFormulaTrigger(c: number): boolean {
   return c === 61 || c === 43 || c === 45 || c === 64 || c === 9 || c === 13 || c === 10 || c === 0;
 }
 
-function rawField(v: RawCell | undefined): string {
+function rawField(v: RawCell | undefined, dialect: CsvDialect): string {
   if (v === null || v === undefined) return '';
-  return typeof v === 'number' ? formatNumber(v) : escapeCsvText(v);
+  return typeof v === 'number' ? numberField(v, dialect) : escapeCsvText(v, dialect.delimiter);
+}
+
+/** A number in the dialect: its decimal point written as the dialect's mark. */
+function numberField(x: number, dialect: CsvDialect): string {
+  const text = formatNumber(x);
+  if (dialect.decimal !== ',' || !text.includes('.')) return text;
+  const comma = text.replace('.', ',');
+  return dialect.delimiter === ',' ? `"${comma}"` : comma; // a comma file with decimal commas quotes them
 }
 
 const CHUNK_BYTES = 1 << 20;
 const LF = 10;
-const COMMA = 44;
 
 /**
  * Copy `s` into `buf` at `off` as UTF-8 and return the new offset. Short ASCII
@@ -87,9 +108,16 @@ function encodeInto(buf: Buffer, off: number, s: string): number {
 export async function writeResultsCsv(
   path: string,
   table: ResultsCsv,
-  options: { /** Called every few thousand rows with the rows written so far. */ onRows?: (rows: number) => void } = {},
+  options: {
+    /** Called every few thousand rows with the rows written so far. */
+    onRows?: (rows: number) => void;
+    /** Delimiter, decimal mark and BOM (default: comma, decimal point, no BOM). */
+    dialect?: CsvDialect;
+  } = {},
 ): Promise<void> {
   const onRows = options.onRows;
+  const dialect = options.dialect ?? COMMA_DIALECT;
+  const SEP = dialect.delimiter.charCodeAt(0);
   const { headers, columns, rowCount } = table;
   if (columns.length !== headers.length) {
     throw new Error(`writeResultsCsv: ${headers.length} headers but ${columns.length} columns`);
@@ -135,14 +163,15 @@ export async function writeResultsCsv(
   };
 
   try {
-    for (let c = 0; c < headers.length; c++) await put(escapeCsvText(headers[c]!), c === headers.length - 1 ? LF : COMMA);
+    if (dialect.bom) off = encodeInto(buf, off, '\uFEFF');
+    for (let c = 0; c < headers.length; c++) await put(escapeCsvText(headers[c]!, dialect.delimiter), c === headers.length - 1 ? LF : SEP);
     const last = columns.length - 1;
     for (let r = 0; r < rowCount; r++) {
       if (onRows && (r & 8191) === 0 && r > 0) onRows(r);
       for (let c = 0; c <= last; c++) {
         const col = columns[c]!;
-        const field = col.kind === 'number' ? formatNumber(col.values[r]!) : rawField(col.values[r]);
-        const separator = c === last ? LF : COMMA;
+        const field = col.kind === 'number' ? numberField(col.values[r]!, dialect) : rawField(col.values[r], dialect);
+        const separator = c === last ? LF : SEP;
         // Inline fast path of put(): no promise unless the buffer is full.
         if (off + 3 * field.length + 1 <= CHUNK_BYTES) {
           off = encodeInto(buf, off, field);

@@ -3,7 +3,7 @@ import { basename, dirname, extname, join, resolve } from 'node:path';
 import { StopError, fsReason } from '../errors.js';
 import type { RecalcResult } from '../pipeline.js';
 import { commitAll, type WriteJob } from './atomic.js';
-import { writeResultsCsv } from './csv.js';
+import { COMMA_DIALECT, writeResultsCsv, type CsvDialect } from './csv.js';
 import { outputColumns } from './output-columns.js';
 import type { RunInfo } from './workbook.js';
 import { VERSION } from '../version.js';
@@ -34,6 +34,32 @@ export interface WriteOptions {
   onProgress?: OnProgress;
   /** Told what the commit did besides writing (a stale lock taken over, leftovers of a stopped run). */
   onNotice?: (text: string) => void;
+  /** The results CSV's dialect: as the worklist's (default), or comma, semicolon or tab. */
+  csvDialect?: CsvDialectChoice;
+}
+
+export const CSV_DIALECTS = ['as-input', 'comma', 'semicolon', 'tab'] as const;
+export type CsvDialectChoice = (typeof CSV_DIALECTS)[number];
+
+/**
+ * The results CSV's dialect. As the input: a CSV worklist's delimiter, decimal mark (as
+ * decided for its numbers) and BOM; an XLSX worklist gives comma and decimal point.
+ * Chosen: comma with decimal points, semicolon with decimal commas, tab with decimal points.
+ */
+export function csvDialectOf(result: RecalcResult, choice: CsvDialectChoice = 'as-input'): CsvDialect {
+  const bom = result.raw.format.bom ?? false;
+  switch (choice) {
+    case 'comma':
+      return { delimiter: ',', decimal: '.', bom };
+    case 'semicolon':
+      return { delimiter: ';', decimal: ',', bom };
+    case 'tab':
+      return { delimiter: '\t', decimal: '.', bom };
+    default:
+      return result.raw.format.kind === 'csv'
+        ? { delimiter: result.raw.format.delimiter ?? ',', decimal: result.table.numberFormat.decimal, bom }
+        : COMMA_DIALECT;
+  }
 }
 
 /** Rows a spreadsheet sheet holds, the header included (Excel's limit, 2^20). */
@@ -123,7 +149,7 @@ export async function writeOutputs(result: RecalcResult, options: WriteOptions):
             columns: columns.map((c) => (c.kind === 'number' ? { kind: 'number', values: c.values } : { kind: 'text', values: c.values })),
             rowCount: result.rowsOut,
           },
-          { onRows: options.onProgress && ((rows) => report(rows, rows / Math.max(1, result.rowsOut))) },
+          { onRows: options.onProgress && ((rows) => report(rows, rows / Math.max(1, result.rowsOut))), dialect: csvDialectOf(result, options.csvDialect) },
         ),
     });
   }

@@ -46,7 +46,8 @@ describe('every demo worklist runs end to end with its method', { timeout: 180_0
     expect(r.stderr).toContain('Batch verdict: PASS');
     expect(r.code, r.stderr).toBe(0);
     const input = readCsv(join(ROOT, 'samples', `${worklist}.csv`), delimiter);
-    const results = readCsv(join(out, `${worklist}.results.csv`));
+    // The results CSV speaks the worklist's dialect (issue 13): a semicolon worklist gives a semicolon file.
+    const results = readCsv(join(out, `${worklist}.results.csv`), delimiter);
     expect(input).toHaveLength(rows);
     expect(results).toHaveLength(rows);
     expect(results.every((row) => row.qc_status !== 'fail')).toBe(true);
@@ -87,7 +88,7 @@ describe('every demo worklist runs end to end with its method', { timeout: 180_0
     const out = tempDir();
     const r = runCli(['recalc', 'samples/elderwick-juice-s2611-3.csv', '-m', 'templates/fruit-juice.yaml', '-o', out]);
     expect(r.code, r.stderr).toBe(0);
-    const rows = readCsv(join(out, 'elderwick-juice-s2611-3.results.csv'));
+    const rows = readCsv(join(out, 'elderwick-juice-s2611-3.results.csv'), ';'); // the worklist's dialect: semicolon, decimal comma
     // Acid: D = K/(1 + 10^(pH − pKa)) (Harvey §7.7), sorbic acid K 6, pKa 4.76, pH 2.5, two 5.0 mL portions from 10.0 mL.
     const e = efficiency(6 / (1 + 10 ** (2.5 - 4.76)), 10, 5, 2);
     const sorbic = rows.filter((row) => row.Substance === 'Sorbic acid');

@@ -124,6 +124,7 @@ describe('phasebook recalc over a worklist with every kind of QC failure', () =>
     const lines = stderr.trimEnd().split('\n');
     expect(lines[0]).toMatch(/^phasebook: read 34 rows from samples\/qc-failures-2026-12\.csv with method qc-failures-demo; 2 rows with input errors; 27 control rows, 8 failed; wrote /);
     expect(lines.slice(1)).toEqual([
+      'Numbers read with decimal point, from the file (132 cells such as "133.9"), no digit grouping.',
       '  FAIL batch P1, carbamazepine: BLANK_HIT: blank "P1-MB"; REC_HIGH: lcs "P1-LCS"; REC_LOW: ms "S-101-MS"; RPD_HIGH: msd "S-101-MSD"; NO_PARENT: dup "S-105-DUP"; INPUT_ERROR: sample "S-104"',
       '  FAIL batch P2, carbamazepine: INPUT_ERROR: qc "P2-QCX"; run rule rejects the run: 1 of 3 qc rows at level low pass, fewer than 50 %; failed: qc "P2-QCL-2" (REC_LOW), qc "P2-QCL-3" (REC_LOW)',
       'Failed controls (8):',
@@ -156,6 +157,7 @@ describe('exit code when only qc rows the run rule accepts have failed', () => {
       // The run rule accepts the run, so the verdict is PASS; but the failed qc row is named with its value and
       // limit, and the words say "accepted with failed QCs", never "every control passed" (issue 14).
       expect(res.stderr.trimEnd().split('\n').slice(1)).toEqual([
+        'Numbers read with decimal point, from the file (4 cells such as "4.2"), no digit grouping.',
         'Failed controls (1):',
         '  qc low "QL2", metoprolol, batch R1 (tolerated by the run rule): REC_LOW: row 4, column "spike_recovery_pct": recovery below its limit: expected 85–115 %, got "80 %"',
         'Batch verdict: PASS: run accepted with failed QCs: the run rule accepts the run, but 1 qc row failed',

@@ -10,8 +10,8 @@ const FORMS = join(ROOT, 'tests/fixtures/forms');
 const GENERIC = join(ROOT, 'templates/generic-lle.yaml');
 const COMPUTED = ['distribution_ratio', 'extraction_efficiency_pct', 'pre_extraction_conc [ng/mL]', 'spike_recovery_pct', 'rpd_pct'];
 
-function readCsv(path: string): Record<string, string>[] {
-  const parsed = Papa.parse<Record<string, string>>(readFileSync(path, 'utf8'), { header: true, skipEmptyLines: 'greedy' });
+function readCsv(path: string, delimiter = ','): Record<string, string>[] {
+  const parsed = Papa.parse<Record<string, string>>(readFileSync(path, 'utf8'), { header: true, skipEmptyLines: 'greedy', delimiter });
   return parsed.data;
 }
 
@@ -52,7 +52,8 @@ describe('recalc end to end on the four input forms', () => {
       const dir = join(out, name);
       const r = runCli(['recalc', path, '--method', GENERIC, '--out', dir, '--timestamp', '2026-11-20T16:00:00Z']);
       const csv = readdirSync(dir).find((f) => f.endsWith('.results.csv'))!;
-      runs[name] = { code: r.status ?? r.code, stderr: r.stderr, rows: readCsv(join(dir, csv)) };
+      // The semicolon worklist gives a semicolon results CSV with decimal commas (the same dialect out as in).
+      runs[name] = { code: r.status ?? r.code, stderr: r.stderr, rows: readCsv(join(dir, csv), name === 'semicolon' ? ';' : ',') };
     }
   });
 
@@ -74,7 +75,7 @@ describe('recalc end to end on the four input forms', () => {
           const a = base[i]![col]!;
           const b = row[col]!;
           if (a === '') expect(b, `${name} row ${i} ${col}`).toBe('');
-          else expect(Math.abs(Number(b) - Number(a)) / Math.abs(Number(a)), `${name} row ${i} ${col}`).toBeLessThan(1e-12);
+          else expect(Math.abs(Number(b.replace(',', '.')) - Number(a)) / Math.abs(Number(a)), `${name} row ${i} ${col}`).toBeLessThan(1e-12);
         }
         expect(row.flags, `${name} row ${i}`).toBe(base[i]!.flags);
         expect(row.qc_status, `${name} row ${i}`).toBe(base[i]!.qc_status);

@@ -29,7 +29,6 @@ export interface PlanOptions {
   formulas?: boolean;
   /** How the worklist was read, in words (default from result.raw.format). */
   readAs?: string;
-  decimalComma?: boolean;
   /** The QC history's series, this run included (history/trends.ts trendsIncludingRun), for the Trends sheet. */
   history?: TrendsSheetInput;
   /** Points a series needs before it has limits (default MIN_POINTS). */
@@ -83,8 +82,7 @@ export function planWorkbook(result: RecalcResult, options: PlanOptions): Workbo
     provenance: (digest) =>
       planProvenanceSheet(result, {
         run: options.run,
-        readAs: options.readAs ?? describeFormat(result.raw.format),
-        decimalComma: options.decimalComma ?? result.raw.format.decimalComma,
+        readAs: options.readAs ?? describeFormat(result.raw.format, result.table.numberFormat),
         formulas,
         formulaRowLimit,
         maxNotes,

@@ -1,3 +1,4 @@
+import type { NumberFormat } from '../../columns/number-format.js';
 /**
  * The Provenance sheet: where the numbers came from and how to check them. The
  * worklist's name, size and SHA-256, the method's name and SHA-256, phasebook and
@@ -28,6 +29,8 @@ export const KEYS = {
   worklistSha: 'worklist SHA-256',
   readAs: 'read as',
   decimalComma: 'decimal comma',
+  numberFormat: 'number format',
+  numberFormatCode: 'number format (as read back)',
   rowsIn: 'rows in',
   rowsOut: 'rows out',
   worklistRows: 'worklist rows',
@@ -63,12 +66,28 @@ export const CSV_ESCAPING =
   "formula-escaped: a text cell of the results CSV that starts with = + - @, tab, CR, LF or NUL carries a leading ' and is quoted " +
   '(OWASP CSV Injection); numbers are written as numbers, unrounded';
 
-/** How the worklist was read, in words (e.g. `CSV, delimiter ";", decimal comma`). */
-export function describeFormat(format: RawTable['format']): string {
+/** How the worklist was read, in words (e.g. `CSV, delimiter semicolon, decimal comma`). */
+export function describeFormat(format: RawTable['format'], numbers?: NumberFormat): string {
   if (format.kind === 'xlsx') return `XLSX, sheet "${format.sheet ?? ''}"`;
   const names: Record<string, string> = { ',': 'comma', ';': 'semicolon', '\t': 'tab' };
   const d = format.delimiter ?? ',';
-  return `CSV, delimiter ${names[d] ?? JSON.stringify(d)}, decimal ${format.decimalComma ? 'comma' : 'point'}`;
+  const decimal = numbers ? numbers.decimal === ',' : format.decimalComma;
+  return `CSV, delimiter ${names[d] ?? JSON.stringify(d)}, decimal ${decimal ? 'comma' : 'point'}`;
+}
+
+/** The number format as one cell verify reads back: `decimal ","; grouping "."; from cells; grouping known`. */
+export function numberFormatCode(f: NumberFormat): string {
+  return `decimal ${JSON.stringify(f.decimal)}; grouping ${JSON.stringify(f.grouping)}; from ${f.basis}; grouping ${f.groupingKnown ? 'known' : 'not known'}`;
+}
+
+/** The number format of a numberFormatCode cell (with its words), or undefined when the cell is not one. */
+export function parseNumberFormatCode(code: string, how: string): NumberFormat | undefined {
+  const m = /^decimal "([.,])"; grouping "(none|[.,' ])"; from (declared|cells|delimiter); grouping (known|not known)$/.exec(code);
+  if (!m) return undefined;
+  const decimal = m[1] as NumberFormat['decimal'];
+  const grouping = m[2] as NumberFormat['grouping'];
+  const short = `decimal ${decimal === ',' ? 'comma' : 'point'}${grouping === 'none' ? '' : `, thousands grouped by ${({ '.': 'points', ',': 'commas', ' ': 'spaces', "'": 'apostrophes' } as const)[grouping]}`}`;
+  return { decimal, grouping, basis: m[3] as NumberFormat['basis'], groupingKnown: m[4] === 'known', how, short };
 }
 
 /** 1-based row numbers as ranges: `2-41` or `2-10, 12-41`. */
@@ -88,7 +107,6 @@ export interface ProvenanceFacts {
   run: RunInfo;
   /** How the worklist was read (describeFormat). */
   readAs: string;
-  decimalComma: boolean;
   formulas: boolean;
   formulaRowLimit: number;
   maxNotes: number;
@@ -106,11 +124,13 @@ export function planProvenanceSheet(result: RecalcResult, facts: ProvenanceFacts
   b.keyValue(KEYS.worklistBytes, result.worklist.bytes);
   b.keyValue(KEYS.worklistSha, result.worklist.sha256);
   b.keyValue(KEYS.readAs, facts.readAs);
-  b.keyValue(KEYS.decimalComma, facts.decimalComma ? 'yes' : 'no');
+  b.keyValue(KEYS.decimalComma, result.table.numberFormat.decimal === ',' ? 'yes' : 'no');
   b.keyValue(KEYS.rowsIn, result.rowsIn);
   b.keyValue(KEYS.rowsOut, result.rowsOut);
   b.keyValue(KEYS.worklistRows, rowRanges(result.raw.rowNumbers));
   b.keyValue(KEYS.inputColumns, result.raw.headers.length);
+  b.keyValue(KEYS.numberFormat, result.table.numberFormat.how);
+  b.keyValue(KEYS.numberFormatCode, numberFormatCode(result.table.numberFormat));
   b.blank();
 
   b.title('Method', 'section');

@@ -170,17 +170,17 @@ export function inputCellWriter(result: RecalcResult): (column: number, row: num
     else textField[src.column] = true;
   }
   const csv = raw.format.kind === 'csv';
-  const comma = raw.format.decimalComma;
+  const format = result.table.numberFormat;
   return (column, row) => {
     const v: RawCell = raw.columns[column]![row] ?? null;
     if (v === null) return null;
     if (typeof v === 'number') return Number.isFinite(v) ? v : String(v);
     if (v === '') return null;
     if (csv && numericField[column]) {
-      const parsed = parseNumberCell(v, comma);
+      const parsed = parseNumberCell(v, format);
       if (parsed.ok && Number.isFinite(parsed.value)) return parsed.value;
     } else if (csv && !textField[column]) {
-      const plain = comma && /^-?\d+,\d+$/.test(v) ? v.replace(',', '.') : v;
+      const plain = format.decimal === ',' && /^-?\d+,\d+$/.test(v) ? v.replace(',', '.') : v;
       if (PLAIN_NUMBER.test(plain) && String(Number(plain)) === plain) return Number(plain);
     }
     return sheetText(v);

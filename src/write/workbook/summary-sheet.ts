@@ -23,6 +23,7 @@ export const FLAG_MEANINGS: Record<FlagCode, string> = {
   BELOW_RL: 'a sample result below the reporting limit',
   OVER_RANGE: "the extract concentration is above the analyte's calibration range",
   OUTLIER: "a statistical outlier among the recoveries of its group (Grubbs' or Dixon's test)",
+  NOT_DETECTED: 'the instrument reported the result as not detected (ND, n.d., BLQ, < 0.5, …): no concentration is computed; a blank so is clean, a spiked control has recovered nothing, a sample is below its reporting limit',
   NO_PARENT: 'an ms, msd or dup whose parent_id names no sample row of its analyte',
   INPUT_ERROR: 'a cell could not be used (the reason names the row and column); the row is not computed',
   LCS_ASSOC: 'a sample whose batch lcs or lcsd failed',
