@@ -213,6 +213,7 @@ function describeRun(result: RecalcResult, written: Record<string, string[]>, la
   // How the numbers were read (decided once per file; a text file always says so).
   const nf = result.table.numberFormat;
   if (result.raw.format.kind === 'csv' || nf.basis !== 'delimiter') lines.push(`Numbers read with ${nf.how}.`);
+  for (const note of result.columnMap.notes) lines.push(`Note: ${note}.`);
   for (const g of result.groups) {
     if (g.verdict === 'fail') lines.push(`  FAIL ${g.batch ? `batch ${g.batch}, ` : ''}${g.analyte}: ${g.reasons.join('; ')}`);
   }

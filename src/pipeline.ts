@@ -119,7 +119,8 @@ export function recalculateTable(
     texts,
     parentRow: links.parentRow,
     pairRow: links.pairRow,
-    rowError: table.rowError,
+    // Rows with an input error, and carried rows (calibrators), are not computed.
+    rowError: table.carried.some((x) => x === 1) ? table.rowError.map((e, r) => e | table.carried[r]!) : table.rowError,
   });
   stageDone(3);
   const qc = assessQc({

@@ -63,7 +63,12 @@ export const FIELD_SPECS: ReadonlyMap<CanonicalField, FieldSpec> = new Map(
   CANONICAL_FIELDS.map((name, i) => [name, { name, ...specs[i]! }]),
 );
 
-export const SAMPLE_TYPES = ['sample', 'blank', 'lcs', 'lcsd', 'ms', 'msd', 'dup', 'qc'] as const;
+/**
+ * The canonical sample types. `calibrator` covers calibration standards, system-suitability
+ * and other rows a lab exports beside its samples: carried into every output verbatim, never
+ * computed or judged.
+ */
+export const SAMPLE_TYPES = ['sample', 'blank', 'lcs', 'lcsd', 'ms', 'msd', 'dup', 'qc', 'calibrator'] as const;
 export type SampleType = (typeof SAMPLE_TYPES)[number];
 
 export function isCanonicalField(name: string): name is CanonicalField {

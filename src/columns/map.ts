@@ -23,6 +23,8 @@ export interface ColumnMap {
   fields: Map<CanonicalField, FieldSource>;
   /** Raw column indexes that map to no field (kept verbatim in the outputs). */
   unmapped: number[];
+  /** What the mapping decided that the user should hear (a header unit it could not read, and what it used). */
+  notes: string[];
 }
 
 /** The unit the method computes a dimension in. */
@@ -56,6 +58,7 @@ export function mapColumns(table: RawTable, method: Method): ColumnMap {
 
   const fields = new Map<CanonicalField, FieldSource>();
   const unmapped: number[] = [];
+  const notes: string[] = [];
   table.headers.forEach((header, column) => {
     const whole = byKey.get(headerKey(header));
     const split = splitHeaderUnit(header);
@@ -75,7 +78,14 @@ export function mapColumns(table: RawTable, method: Method): ColumnMap {
     const spec = FIELD_SPECS.get(field)!;
     const toUnit = methodUnit(method, spec.dimension);
     const writtenIn = spec.dimension === 'extract_concentration' ? method.units.extract_concentration : toUnit;
-    let fromUnit = split.unit ?? method.fields.get(field)?.unit ?? writtenIn;
+    const declared = method.fields.get(field)?.unit;
+    let fromUnit = split.unit ?? declared ?? writtenIn;
+    // A header unit that cannot be read, where the method says the field's unit: the method's unit is
+    // used, and the run says so (a unit that reads as another kind still stops the run below).
+    if (split.unit !== undefined && declared !== undefined && spec.dimension !== 'none' && !unitKind(split.unit)) {
+      notes.push(`column "${header}": "${split.unit}" is not a unit phasebook reads; the method's unit for ${field}, ${declared}, is used`);
+      fromUnit = declared;
+    }
     if (spec.dimension === 'none') {
       if (split.unit && !whole && !isDimensionlessUnit(split.unit)) {
         throw new StopError('input', `expected no unit for ${field}, got "${split.unit}"`, { file: table.source, line, column: header });
@@ -120,7 +130,7 @@ export function mapColumns(table: RawTable, method: Method): ColumnMap {
     const aliases = cfg?.aliases.length ? ` (or ${cfg.aliases.map((a) => `"${a}"`).join(', ')})` : '';
     throw new StopError('input', `missing the required column "${spec.name}"${aliases}`, { file: table.source, line });
   }
-  return { fields, unmapped };
+  return { fields, unmapped, notes };
 }
 
 /** What a header's unit should have been, for messages. */

@@ -35,6 +35,8 @@ export interface WorkTable {
   rowError: Uint8Array;
   /** How this worklist writes its numbers: declared by the method, or decided from its cells. */
   numberFormat: NumberFormat;
+  /** 1 on carried rows (calibrators): in every output as written, no computed cells, no flags. */
+  carried: Uint8Array;
   /** 1 where the result (extract_conc) is a non-detect: its value stays empty (nondetect.ts). */
   nondetect: Uint8Array;
   /** A non-detect's stated limit (`< 0.5`), in the method's concentration unit; NaN when none is stated. */
@@ -61,7 +63,10 @@ export function buildTable(raw: RawTable, map: ColumnMap, method: Method): WorkT
   const errors: Flag[] = [];
   const notes: Note[] = [];
   const rowError = new Uint8Array(n);
+  // Set once the sample types are read: a carried row (a calibrator) is never judged, so never an input error.
+  let isCarried = (_row: number) => false;
   const fail = (row: number, column: string | undefined, reason: string, value?: string) => {
+    if (isCarried(row)) return;
     const shown = value === undefined ? reason : `${reason}, got "${value}"`;
     errors.push({ row, code: 'INPUT_ERROR', column, message: rowMessage(raw.rowNumbers[row]!, column, shown), value });
     rowError[row] = 1;
@@ -103,6 +108,24 @@ export function buildTable(raw: RawTable, map: ColumnMap, method: Method): WorkT
   }
   // Canonical type text for formulas (sample_type == "ms").
   texts.set('sample_type', sampleType.map((t) => t));
+
+  // A type code that carries a QC level ("QC Low": { type: qc, level: low }) gives the row its level;
+  // a qc_level cell that says another level is an input error naming both.
+  if (method.sampleTypeLevels.size > 0) {
+    const levels = texts.get('qc_level')!;
+    const levelHeader = map.fields.get('qc_level')?.header ?? 'qc_level';
+    for (let r = 0; r < n; r++) {
+      const fromCode = method.sampleTypeLevels.get(typeText[r]!.toLowerCase());
+      if (fromCode === undefined) continue;
+      const cell = levels[r]!;
+      if (cell === '' || cell.toLowerCase() === fromCode) levels[r] = fromCode;
+      else fail(r, levelHeader, `expected the level its type code "${typeText[r]}" carries (${fromCode}) or an empty cell`, cell);
+    }
+  }
+  // Calibrators and the like are carried: in every output as written, never computed or judged.
+  const carried = new Uint8Array(n);
+  for (let r = 0; r < n; r++) if (sampleType[r] === 'calibrator') carried[r] = 1;
+  isCarried = (row) => carried[row] === 1;
 
   // Analytes through the method's names and aliases.
   const analyteKey = new Map<string, number>();
@@ -206,7 +229,7 @@ export function buildTable(raw: RawTable, map: ColumnMap, method: Method): WorkT
       ab = a.acid_base;
     }
     acidCanon[r] = ab;
-    if (rowError[r]) continue;
+    if (rowError[r] || carried[r]) continue;
     if (ab !== 'neutral' && !Number.isNaN(cols.k.values[r]!)) {
       if (Number.isNaN(cols.ph.values[r]!)) fail(r, headerOf('ph'), `expected a pH for an ionisable analyte (${ab})`);
       else if (Number.isNaN(cols.pka.values[r]!)) fail(r, headerOf('pka'), `expected a pKa for an ionisable analyte (${ab})`);
@@ -232,7 +255,7 @@ export function buildTable(raw: RawTable, map: ColumnMap, method: Method): WorkT
   }
   texts.set('acid_base', acidCanon);
 
-  return { rowCount: n, numbers, texts, sources, sampleType, analyteIndex, rowError, numberFormat, nondetect, nondetectLimit, errors: sortByRow(errors), notes };
+  return { rowCount: n, numbers, texts, sources, sampleType, analyteIndex, rowError, carried, numberFormat, nondetect, nondetectLimit, errors: sortByRow(errors), notes };
 }
 
 function numberDefault(method: Method, field: CanonicalField): number | undefined {

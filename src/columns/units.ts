@@ -1,5 +1,18 @@
 import { unit as mathUnit } from '../mathjs.js';
-import { normaliseUnitText } from '../method/load.js';
+
+/**
+ * A unit as labs type it, in the spelling mathjs reads: the micro sign (U+00B5) and the
+ * Greek mu (U+03BC) become u, superscript ² and ³ become ^2 and ^3 (cm³ → cm^3), and
+ * spaces go (ng / mL → ng/mL).
+ */
+export function normaliseUnitText(unit: string): string {
+  return unit
+    .trim()
+    .replace(/[\u00b5\u03bc]/g, 'u')
+    .replace(/\u00b2/g, '^2')
+    .replace(/\u00b3/g, '^3')
+    .replace(/\s+/g, '');
+}
 
 /**
  * Unit conversion done once per column, at the edge (LIBRARY-NOTES.md §1):

@@ -22,6 +22,8 @@ export function recalcJson(outcome: RecalcRunOutcome, exitCode: number, label?: 
     exit_code: exitCode,
     worklist: { path: label ?? result.worklist.path, name: result.worklist.name, sha256: result.worklist.sha256, bytes: result.worklist.bytes },
     method: { name: result.method.name, file: result.method.file, sha256: result.method.sha256 },
+    number_format: { decimal_mark: result.table.numberFormat.decimal, grouping: result.table.numberFormat.grouping, how: result.table.numberFormat.how },
+    column_notes: result.columnMap.notes,
     rows_in: result.rowsIn,
     rows_out: result.rowsOut,
     input_errors: result.flags.filter((f) => f.code === 'INPUT_ERROR').map((f) => ({ row: rowNumber(f.row), ...flagJson(f) })),

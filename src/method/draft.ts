@@ -24,7 +24,7 @@ import { splitHeaderUnit, unitKind, type UnitKind } from '../columns/units.js';
 import { cellText } from '../columns/numbers.js';
 import type { RawTable } from '../read/types.js';
 import { GENERIC_LIMITS, GENERIC_QC } from './defaults.js';
-import { normaliseUnitText } from './load.js';
+import { normaliseUnitText } from '../columns/units.js';
 import type { ControlKind, LimitSet } from './types.js';
 
 const GENERIC_METHOD_URL = new URL('../../templates/generic-lle.yaml', import.meta.url);
@@ -142,6 +142,7 @@ const KNOWN_CODES: Record<SampleType, readonly string[]> = {
   msd: ['matrix spike dup', 'matrix spike duplicate', 'fsd', 'lfmd', 'spkd'],
   dup: ['duplicate', 'rep', 'replicate', 'sd', 'sample duplicate'],
   qc: ['qcl', 'qcm', 'qch', 'lqc', 'mqc', 'hqc', 'qc sample'],
+  calibrator: ['cal', 'cal std', 'calibrator', 'calibration', 'std', 'standard', 'sst', 'system suitability', 'curve'],
 };
 const AMBIGUOUS_CODES: Record<string, string> = {
   fb: 'a fortified blank (lcs) or a field blank (blank)',

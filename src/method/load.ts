@@ -2,10 +2,11 @@ import { createHash } from 'node:crypto';
 import { readFileSync, statSync } from 'node:fs';
 import { formatBytes } from '../format.js';
 import { resolveMethod } from './find.js';
+import { normaliseUnitText, unitKind } from '../columns/units.js';
 import { LineCounter, parseDocument, isNode, isScalar, visit, type Document } from 'yaml';
 import { StopError, fsReason } from '../errors.js';
 import { parseAcidBase } from '../chemistry/partition.js';
-import { isCanonicalField, type CanonicalField, type SampleType } from '../columns/fields.js';
+import { FIELD_SPECS, isCanonicalField, type CanonicalField, type Dimension, type SampleType } from '../columns/fields.js';
 import { GENERIC_LIMITS, GENERIC_QC } from './defaults.js';
 import { methodSchemaValidator } from './schema-validator.js';
 import type { AnalyteInfo, FieldConfig, FormulaDef, LimitTable, Method } from './types.js';
@@ -136,7 +137,19 @@ export function parseMethod(text: string, options: { file: string }): Method {
   }
 
   const sampleTypes = new Map<string, SampleType>();
-  for (const [code, type] of Object.entries(raw.sample_types ?? {})) sampleTypes.set(code.trim().toLowerCase(), type);
+  const sampleTypeLevels = new Map<string, string>();
+  for (const [code, value] of Object.entries(raw.sample_types ?? {})) {
+    const key = code.trim().toLowerCase();
+    if (typeof value === 'string') {
+      sampleTypes.set(key, value);
+    } else {
+      sampleTypes.set(key, value.type);
+      if (value.level !== undefined) {
+        if (value.type !== 'qc') throw new StopError('method', `a QC level goes with the type qc, got the type ${value.type}`, at(['sample_types', code, 'level']));
+        sampleTypeLevels.set(key, value.level.trim().toLowerCase());
+      }
+    }
+  }
 
   const analytes: AnalyteInfo[] = Object.entries(raw.analytes ?? {}).map(([name, a]) => ({
     name,
@@ -166,6 +179,25 @@ export function parseMethod(text: string, options: { file: string }): Method {
     concentration: normaliseUnitText(raw.units?.concentration ?? 'ng/mL'),
     extract_concentration: normaliseUnitText(raw.units?.extract_concentration ?? raw.units?.concentration ?? 'ng/mL'),
   };
+  // Every unit the method names must be a unit of its kind (a "furlong" concentration must not reach a header).
+  const wanted = (dimension: Dimension) =>
+    dimension === 'volume' ? { kinds: ['volume'], words: 'a volume unit such as mL, uL or L' } : { kinds: ['mass_concentration', 'molar_concentration'], words: 'a concentration unit such as ng/mL, ug/L or nmol/L' };
+  const checkUnit = (text: string | undefined, dimension: Dimension, path: (string | number)[]) => {
+    if (text === undefined || dimension === 'none') return;
+    const kind = unitKind(text);
+    const want = wanted(dimension);
+    if (!kind || !want.kinds.includes(kind)) {
+      throw new StopError('method', `${kind ? `"${text}" is not a unit of this kind` : `cannot read "${text}" as a unit`}; expected ${want.words}`, at(path));
+    }
+  };
+  checkUnit(raw.units?.volume, 'volume', ['units', 'volume']);
+  checkUnit(raw.units?.concentration, 'concentration', ['units', 'concentration']);
+  checkUnit(raw.units?.extract_concentration, 'extract_concentration', ['units', 'extract_concentration']);
+  for (const [name, cfg] of fields) {
+    const dimension = FIELD_SPECS.get(name)?.dimension ?? 'none';
+    if (cfg.unit !== undefined && dimension === 'none') throw new StopError('method', `${name} has no unit; expected no unit key here`, at(['fields', name, 'unit']));
+    checkUnit(cfg.unit, dimension, ['fields', name, 'unit']);
+  }
 
   const seen = new Set<string>();
   const formulas: FormulaDef[] = raw.formulas.map((f, i) => {
@@ -201,6 +233,7 @@ export function parseMethod(text: string, options: { file: string }): Method {
     units,
     fields,
     sampleTypes,
+    sampleTypeLevels,
     numberFormat: raw.number_format,
     nonDetects: raw.non_detects ?? [],
     analytes,
@@ -230,9 +263,6 @@ export function mergeLimitTables(base: LimitTable, override: LimitTable): LimitT
 }
 
 /** µ (U+00B5) and μ (U+03BC) are the micro prefix; mathjs spells it u. */
-export function normaliseUnitText(unit: string): string {
-  return unit.trim().replace(/[\u00b5\u03bc]/g, 'u').replace(/\s+/g, '');
-}
 
 function resolveFormulaUnit(unit: string | undefined, units: Method['units']): string {
   if (unit === undefined) return '';
@@ -299,7 +329,7 @@ interface RawMethod {
   description?: string;
   units?: { volume?: string; concentration?: string; extract_concentration?: string };
   fields?: Record<string, { aliases?: string[]; unit?: string; default?: number | string }>;
-  sample_types?: Record<string, SampleType>;
+  sample_types?: Record<string, SampleType | { type: SampleType; level?: string }>;
   number_format?: { decimal_mark: '.' | ','; grouping?: 'none' | '.' | ',' | ' ' | "'" };
   non_detects?: string[];
   analytes?: Record<

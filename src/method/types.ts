@@ -70,6 +70,8 @@ export interface Method {
   fields: Map<CanonicalField, FieldConfig>;
   /** Lab code (lower case, trimmed) → canonical sample type. */
   sampleTypes: Map<string, SampleType>;
+  /** Lab code (lower case, trimmed) → the QC level it carries ("QC Low": { type: qc, level: low }). */
+  sampleTypeLevels: Map<string, string>;
   /** How the worklist writes numbers, when the method declares it (else decided per file: columns/number-format.ts). */
   numberFormat?: { decimal_mark: '.' | ','; grouping?: 'none' | '.' | ',' | ' ' | "'" };
   /** The lab's own words for "not detected", besides phasebook's (columns/nondetect.ts). */

@@ -41,7 +41,8 @@ export function assessQc(input: QcInput): QcResult {
   const add = (row: number, code: FlagCode, f: Finding) => flags.push(toFlag(ctx, row, code, f));
 
   for (let r = 0; r < n; r++) {
-    if (input.rowError[r] || !ctx.type[r]) continue;
+    // Calibrators are carried, never judged.
+    if (input.rowError[r] || !ctx.type[r] || ctx.type[r] === 'calibrator') continue;
     for (const rule of ROW_RULES) {
       const found = rule.check(ctx, r);
       if (found) add(r, rule.code, found);
@@ -61,7 +62,7 @@ export function assessQc(input: QcInput): QcResult {
   for (let r = 0; r < n; r++) {
     const type = ctx.type[r];
     // A row of unknown type cannot be shown to be a sample; it carries an input error and fails.
-    if (type === 'sample') status[r] = '';
+    if (type === 'sample' || type === 'calibrator') status[r] = '';
     else status[r] = failedByFlags[r] || input.rowError[r] || !type ? 'fail' : 'pass';
   }
 

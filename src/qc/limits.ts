@@ -32,7 +32,7 @@ export function limitsFor(
 ): AppliedLimits {
   const kind: ControlKind | undefined = row.analyte?.surrogate
     ? 'surrogate'
-    : row.sampleType === 'sample' || row.sampleType === 'blank'
+    : row.sampleType === 'sample' || row.sampleType === 'blank' || row.sampleType === 'calibrator'
       ? undefined
       : row.sampleType;
   if (!kind) return { origin: 'none' };

@@ -166,7 +166,7 @@ export function summarize(input: SummaryInput): { groups: GroupSummary[]; overal
 
     const rpds = rows.map((r) => rpd[r]!).filter(Number.isFinite);
     const blanks = rows.filter((r) => input.sampleType[r] === 'blank');
-    const effs = rows.filter((r) => !input.rowError[r]).map((r) => eff[r]!);
+    const effs = rows.filter((r) => !input.rowError[r] && input.sampleType[r] !== 'calibrator').map((r) => eff[r]!);
     const rule = input.qc.runRule.find((o) => o.batch === b && o.analyte === a);
 
     // Reasons: failed controls by code, input errors, the run rule.

@@ -373,7 +373,8 @@ export function planResultsSheet(result: RecalcResult, options: ResultsOptions):
           : { value: v };
     }
     cells[layout.worklistRow.column - 1] = { value: raw.rowNumbers[r]! };
-    const error = table.rowError[r] === 1;
+    // An input error, or a carried row (a calibrator): no computed cells.
+    const error = table.rowError[r] === 1 || table.carried[r] === 1;
     const live = options.formulas && !error;
     for (const planner of asUsedPlanners) cells[planner.column - 1] = planner.plan(r, R, live);
 
