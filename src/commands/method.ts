@@ -22,6 +22,8 @@ import { writeFileAtomic } from '../write/atomic.js';
 import { delimiter } from 'node:path';
 import { listMethods, methodFolders, SHIPPED_METHODS } from '../method/find.js';
 import { methodJson, stopJson } from './recalc-json.js';
+import { describeFeeds } from '../method/feeds.js';
+import { mapColumns } from '../columns/map.js';
 
 
 const SCHEMA_PATH = fileURLToPath(SCHEMA_URL);
@@ -63,12 +65,20 @@ export function registerMethodCommand(program: Command, io: CommandIo): Command 
     .description('validate a method and print it in plain words: fields and units, lab names, limits, formula order')
     .argument('<method>', 'method file (YAML), or the name of a method (phasebook method list)')
     .option('--json', 'print the method as loaded as one JSON document on stdout')
-    .action((file: string, opts: { json?: boolean }) => {
+    .option('--worklist <file>', 'also show, for this worklist, which column feeds each field, which fields default, and which columns go unused')
+    .option('--sheet <name>', 'with --worklist, an XLSX worklist: the sheet to read (default: the first)')
+    .action(async (file: string, opts: { json?: boolean; worklist?: string; sheet?: string }) => {
       try {
         const loaded = loadMethod(file);
         const compiled = compileMethod(loaded);
         if (opts.json) stdout(JSON.stringify(methodJson(loaded, compiled.order.map((i) => loaded.formulas[i]!.name))) + '\n');
         else stdout(describeMethod(loaded, compiled));
+        if (opts.worklist !== undefined) {
+          const raw = await readWorklist(opts.worklist, { sheet: opts.sheet });
+          const feeds = describeFeeds(raw, mapColumns(raw, loaded), loaded);
+          if (opts.json) stderr(feeds);
+          else stdout(`\n${feeds}`);
+        }
         io.exit(EXIT.ok);
       } catch (err) {
         if (!(err instanceof StopError)) throw err;
@@ -117,6 +127,9 @@ function draftSummary(d: DraftResult, out: string | undefined): string {
   const lines = [`phasebook: placed ${d.placed.length} of ${total} header${total === 1 ? '' : 's'} on canonical fields`];
   if (d.unplaced.length) lines.push(`  not placed: ${d.unplaced.map((u) => `"${u.header}"`).join(', ')}`);
   if (d.missing.length) lines.push(`  required fields with no column: ${d.missing.join(', ')}`);
+  for (const f of d.defaulted) {
+    if (f.maybe.length) lines.push(`  CHECK: ${f.field} has no column and falls back to ${f.fallback}; ${f.maybe.map((h) => `"${h}"`).join(', ')} may be it`);
+  }
   const guessed = d.sampleTypes.filter((c) => c.type && c.type !== c.code.toLowerCase()).length;
   const open = d.sampleTypes.filter((c) => !c.type).length;
   if (d.sampleTypes.length) {

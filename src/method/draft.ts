@@ -70,6 +70,8 @@ export interface DraftResult {
   unplaced: UnplacedHeader[];
   /** Required fields no header was placed on. */
   missing: CanonicalField[];
+  /** Optional fields with a default that no header was placed on, each with the unplaced headers that may feed it. */
+  defaulted: Array<{ field: CanonicalField; fallback: string; maybe: string[] }>;
   sampleTypes: SampleTypeCode[];
   analytes: string[];
   units: { volume: string; concentration: string; extract_concentration: string };
@@ -124,7 +126,7 @@ const WORD_RULES: ReadonlyArray<{ field: CanonicalField; words: RegExp; needs?: 
     field: 'solvent_volume',
     words: /\b(solvent|extractant|organic|portion|dcm|dichloromethane|mtbe|ether|hexane|heptane|chloroform|toluene|ethyl acetate|isoamyl|iaa)\b/,
   },
-  { field: 'final_volume', words: /\b(recon|reconstitution|reconstituted|made up|make up|up to)\b/ },
+  { field: 'final_volume', words: /\b(recon\w*|reconst\w*|redissolved|taken up|made up|make up|up to)\b/ },
   { field: 'final_volume', words: /\b(final)\b/, needs: /\b(vol|volume)\b|^$/ },
   { field: 'final_volume', words: /\b(extract)\b/, needs: /\b(vol|volume)\b|^$/ },
   { field: 'sample_volume', words: /\b(sample|aliquot|plasma|serum|blood|urine|water|juice|drink|milk|wine|beer|matrix)\b/, needs: /\b(vol|volume|size|amount)\b|^$/ },
@@ -163,8 +165,30 @@ export function draftMethod(raw: RawTable, options: DraftOptions = {}): DraftRes
   const analyteColumn = byField.get('analyte');
   const analytes = analyteColumn ? distinctCells(raw, analyteColumn.column) : [];
   const name = options.name ?? methodName(raw.source);
-  const text = writeDraft({ raw, name, placed, unplaced, missing, units, sampleTypes, analytes, schemaRef: options.schemaRef });
-  return { name, text, placed, unplaced, missing, sampleTypes, analytes, units };
+  const defaulted = defaultedFields(byField, unplaced.map((u) => headerParts(u.header)));
+  const text = writeDraft({ raw, name, placed, unplaced, missing, defaulted, units, sampleTypes, analytes, schemaRef: options.schemaRef });
+  return { name, text, placed, unplaced, missing, defaulted, sampleTypes, analytes, units };
+}
+
+/** What each optional field falls back to when no column feeds it (DESIGN.md §4). */
+const FALLBACKS: Partial<Record<CanonicalField, { fallback: string; plausible: (h: HeaderParts) => boolean }>> = {
+  final_volume: { fallback: 'extractions × solvent_volume (the whole extract, never concentrated or made up)', plausible: (h) => h.kind === 'volume' },
+  extractions: { fallback: '1 extraction', plausible: (h) => /\b(n|number|times|count|portion|step|repeat)\w*\b/.test(h.words) },
+  dilution: { fallback: 'no dilution (1)', plausible: (h) => /\b(dil\w*|factor|df)\b/.test(h.words) },
+};
+
+/**
+ * The optional fields that would fall back to a default, and the unplaced headers that may
+ * feed them: a draft never lets a field a header plausibly feeds default without saying so
+ * (a "Reconst. (µL)" left unplaced made the final volume n × solvent volume, 4× off).
+ */
+function defaultedFields(byField: ReadonlyMap<CanonicalField, HeaderPlacement>, unplaced: readonly HeaderParts[]): DraftResult['defaulted'] {
+  const out: DraftResult['defaulted'] = [];
+  for (const [field, f] of Object.entries(FALLBACKS) as Array<[CanonicalField, NonNullable<(typeof FALLBACKS)[CanonicalField]>]>) {
+    if (byField.has(field)) continue;
+    out.push({ field, fallback: f.fallback, maybe: unplaced.filter(f.plausible).map((h) => h.header) });
+  }
+  return out;
 }
 
 /** Recognise one header without regard to the others; undefined when nothing fits. */
@@ -341,6 +365,7 @@ function writeDraft(d: {
   placed: HeaderPlacement[];
   unplaced: UnplacedHeader[];
   missing: CanonicalField[];
+  defaulted: DraftResult['defaulted'];
   units: DraftResult['units'];
   sampleTypes: SampleTypeCode[];
   analytes: string[];
@@ -404,6 +429,10 @@ function writeDraft(d: {
     put(`  ${`${field}:`.padEnd(width)} ${`{ aliases: [${q(p.alias)}] }`.padEnd(aliasWidth)}   # ${note}`);
   }
   for (const field of d.missing) put(`  # ${`${field}:`.padEnd(width)} { aliases: ["..."] }   # required: no column found`);
+  for (const f of d.defaulted) {
+    const maybe = f.maybe.length ? `; CHECK: ${f.maybe.map((h) => q(h)).join(', ')} may be it` : '';
+    put(`  # ${`${f.field}:`.padEnd(width)} no column: ${f.fallback}${maybe}`);
+  }
 
   put('');
   const active = d.sampleTypes.filter((c) => c.type && c.type !== c.code.toLowerCase());
