@@ -6,6 +6,7 @@
  */
 import { CANONICAL_FIELDS, FIELD_SPECS, type CanonicalField } from '../columns/fields.js';
 import type { ColumnMap } from '../columns/map.js';
+import { canonicalUnitText } from '../columns/units.js';
 import type { RawTable } from '../read/types.js';
 import type { AnalyteInfo, Method } from './types.js';
 
@@ -38,7 +39,8 @@ export function describeFeeds(raw: RawTable, map: ColumnMap, method: Method): st
   for (const field of CANONICAL_FIELDS) {
     const src = map.fields.get(field);
     if (src) {
-      const unit = src.fromUnit && src.fromUnit !== src.toUnit ? `, in ${src.fromUnit}, read as ${src.toUnit}` : src.fromUnit ? `, in ${src.fromUnit}` : '';
+      const converted = src.fromUnit !== '' && canonicalUnitText(src.fromUnit) !== canonicalUnitText(src.toUnit);
+      const unit = converted ? `, in ${src.fromUnit}, read as ${src.toUnit}` : src.fromUnit ? `, in ${src.fromUnit}` : '';
       lines.push(`${field.padEnd(width)}column "${src.header}"${unit}`);
       continue;
     }

@@ -1,5 +1,5 @@
 import { describe, expect, it } from 'vitest';
-import { conversionFactor, splitHeaderUnit, unitKind } from '../../src/columns/units.js';
+import { conversionFactor, normaliseUnitText, splitHeaderUnit, unitKind } from '../../src/columns/units.js';
 
 // Expected factors are SI definitions (1 L = 1000 mL, 1 µg = 1000 ng; BIPM SI Brochure, 9th ed., from memory).
 describe('unit conversion factors', () => {
@@ -62,5 +62,32 @@ describe('units in headers', () => {
     ['[odd]', { name: '[odd]' }],
   ])('%s', (header, want) => {
     expect(splitHeaderUnit(header)).toEqual(want);
+  });
+});
+
+describe('units as labs type them (issue 13)', () => {
+  // SI Brochure, 9th ed. (BIPM 2019): 1 cm³ = 1 mL, 1 dm³ = 1 L, µ = 10⁻⁶; mcg is the clinical spelling of µg
+  // (common practice). mathjs (the reference library) computes the factors.
+  it.each([
+    ['cm³', 'mL', 1],
+    ['dm³', 'L', 1],
+    ['µL', 'uL', 1], // micro sign U+00B5
+    ['μL', 'uL', 1], // Greek mu U+03BC
+    ['ml', 'mL', 1],
+    ['mcg/L', 'ug/L', 1],
+    ['ng / mL', 'ng/mL', 1],
+    ['ng / ml', 'ug/L', 1],
+    ['cm³', 'uL', 1000],
+  ])('%s is %s × %d', (from, to, factor) => {
+    expect(conversionFactor(from, to)).toBe(factor);
+  });
+
+  it.each([
+    ['cm³', 'cm^3'],
+    ['dm²', 'dm^2'],
+    [' µg / mL ', 'ug/mL'],
+    ['μL', 'uL'],
+  ])('normaliseUnitText(%j) is %j', (text, want) => {
+    expect(normaliseUnitText(text)).toBe(want);
   });
 });

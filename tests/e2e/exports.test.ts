@@ -141,3 +141,42 @@ describe('type codes carry their QC level; units as labs type them', () => {
     expect(r.csv.split('\n')[0]!.startsWith('Sample ID\tSample Type\tRun\tAnalyte\tExtract Conc (ng / mL)\tPlasma (cm³)')).toBe(true);
   });
 });
+
+describe('verify, with calibrators, QC levels from type codes and non-detects', () => {
+  it.each(['comma.csv', 'semicolon.csv', 'exceljs.xlsx'])('the workbook from %s verifies untouched', (name) => {
+    run(name);
+    const out = join(dir, 'out', name);
+    const workbook = join(out, readdirSync(out).find((f) => f.endsWith('.xlsx'))!);
+    const v = runCli(['verify', workbook]);
+    expect(v.code, v.stdout + v.stderr).toBe(0);
+  });
+});
+
+describe('a qc_level cell that says another level than its type code', () => {
+  it('is an input error naming both', async () => {
+    const { recalculateData } = await import('../../src/index.js');
+    const csv = readFileSync(files['comma.csv']!, 'utf8').split('\n');
+    csv[0] += ',QC Level';
+    for (let i = 1; i < csv.length; i++) if (csv[i]) csv[i] += i === 4 ? ',high' : ',';
+    const result = await recalculateData(csv.join('\n'), { method: METHOD });
+    // Row 5 of the file (QC-L1, halvamine): its code says low, its qc_level cell says high.
+    const flags = result.flags.filter((f) => f.row === 3 && f.code === 'INPUT_ERROR');
+    expect(flags.map((f) => f.message)).toEqual(['row 5, column "QC Level": expected the level its type code "QC Low" carries (low) or an empty cell, got "high"']);
+    // The other QC rows take the level their code carries.
+    expect(result.table.texts.get('qc_level')![4]).toBe('mid');
+  });
+});
+
+describe('method check --worklist', () => {
+  it('shows which column feeds each field, what defaults, and what goes unused', () => {
+    const r = runCli(['method', 'check', METHOD, '--worklist', files['tab.txt']!]);
+    expect(r.code, r.stderr).toBe(0);
+    const feeds = r.stdout.slice(r.stdout.indexOf('Worklist '));
+    expect(feeds).toContain('sample_volume    column "Plasma (cm³)", in cm³, read as uL');
+    expect(feeds).toContain('extract_conc     column "Extract Conc (ng / mL)", in ng / mL\n');
+    expect(feeds).toContain('final_volume     column "Reconst. (μL)", in μL\n');
+    expect(feeds).toContain('qc_level         no column: empty');
+    expect(feeds).toContain('partition_coeff  no column: the method\'s analyte data (halvamine 15.848931924611133, nor-halvamine 7.943282347242816)');
+    expect(feeds).toContain('Every column feeds a field.');
+  });
+});

@@ -188,3 +188,24 @@ describe('method draft says what is left to do', () => {
     expect(draft.text).toContain('  # "#1": ...');
   });
 });
+
+const rawTableOf = (headers: string[]) => rawTable(headers, [headers.map(() => '1')], { source: 'lab-export.csv' });
+
+describe('the draft never lets a field a header plausibly feeds default without saying so (issue 13)', () => {
+  it('places "Reconst. (µL)" on final_volume', () => {
+    expect(recogniseHeader('Reconst. (µL)')).toMatchObject({ field: 'final_volume', unit: 'uL' });
+    expect(recogniseHeader('Reconstituted in (mL)')).toMatchObject({ field: 'final_volume', unit: 'mL' });
+  });
+
+  it('says which fields default, and names the unplaced header that may feed one', () => {
+    const raw = rawTableOf(['Sample', 'Analyte', 'Extract Conc (ng/mL)', 'Plasma (µL)', 'Solvent (mL)', 'Taken into (µL)', 'Operator']);
+    const d = draftMethod(raw);
+    expect(d.defaulted).toEqual([
+      { field: 'final_volume', fallback: 'extractions × solvent_volume (the whole extract, never concentrated or made up)', maybe: ['Taken into (µL)'] },
+      { field: 'extractions', fallback: '1 extraction', maybe: [] },
+      { field: 'dilution', fallback: 'no dilution (1)', maybe: [] },
+    ]);
+    expect(d.text).toContain('# final_volume:    no column: extractions × solvent_volume (the whole extract, never concentrated or made up); CHECK: "Taken into (µL)" may be it');
+    expect(d.text).toContain('#   "Operator": no canonical field matches this header');
+  });
+});

@@ -97,3 +97,30 @@ describe('method files that are too big, too deep or say a key twice (issue 19)'
     );
   });
 });
+
+describe('units in the method are units of their kind (issue 13)', () => {
+  it.each([
+    [`name: x\nunits:\n  concentration: furlong\n${OK_FORMULAS}`, 'm.yaml, line 3, key "units.concentration": cannot read "furlong" as a unit; expected a concentration unit such as ng/mL, ug/L or nmol/L'],
+    [`name: x\nunits:\n  volume: ng/mL\n${OK_FORMULAS}`, 'm.yaml, line 3, key "units.volume": "ng/mL" is not a unit of this kind; expected a volume unit such as mL, uL or L'],
+    [`name: x\nfields:\n  sample_volume: { unit: mg/L }\n${OK_FORMULAS}`, 'm.yaml, line 3, key "fields.sample_volume.unit": "mg/L" is not a unit of this kind; expected a volume unit such as mL, uL or L'],
+    [`name: x\nfields:\n  dilution: { unit: mL }\n${OK_FORMULAS}`, 'm.yaml, line 3, key "fields.dilution.unit": dilution has no unit; expected no unit key here'],
+  ])('%#: refused with file, line and key', (text, message) => {
+    expect(stop(text)).toBe(message);
+  });
+
+  it.each(['cm³', 'μL', 'ml', 'dm³'])('accepts the volume unit %s', (unit) => {
+    const m = parseMethod(`name: x\nunits:\n  volume: ${unit}\n${OK_FORMULAS}`, { file: 'm.yaml' });
+    expect(m.units.volume).toBe(unit.replace('³', '^3').replace('μ', 'u'));
+  });
+});
+
+describe('type codes with a level (issue 13)', () => {
+  it('maps a code onto a type and a QC level; a level on another type is refused', () => {
+    const m = parseMethod(`name: x\nsample_types:\n  "QC Low": { type: qc, level: Low }\n  Std: calibrator\n${OK_FORMULAS}`, { file: 'm.yaml' });
+    expect([...m.sampleTypes]).toEqual([['qc low', 'qc'], ['std', 'calibrator']]);
+    expect([...m.sampleTypeLevels]).toEqual([['qc low', 'low']]);
+    expect(stop(`name: x\nsample_types:\n  BS: { type: lcs, level: low }\n${OK_FORMULAS}`)).toBe(
+      'm.yaml, line 3, key "sample_types.BS.level": a QC level goes with the type qc, got the type lcs',
+    );
+  });
+});
