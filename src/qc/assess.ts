@@ -48,9 +48,22 @@ export function assessQc(input: QcInput): QcResult {
       if (found) add(r, rule.code, found);
     }
   }
+  // A matrix spike or duplicate whose parent is not detected has no recovery or RPD to judge: never a silent
+  // pass, the note says why (the native amount is unknown; US EPA CLP practice takes it as 0, which the lab may).
+  const notJudged: Note[] = [];
+  for (let r = 0; r < n; r++) {
+    const t = ctx.type[r];
+    if (input.rowError[r] || (t !== 'ms' && t !== 'msd' && t !== 'dup')) continue;
+    const p = input.links.parentRow[r]!;
+    if (p >= 0 && ctx.nondetect[p] && !(t === 'dup' && ctx.nondetect[r])) {
+      notJudged.push({ row: r, column: t === 'dup' ? 'rpd_pct' : 'spike_recovery_pct', message: `not judged: its parent sample "${ctx.sampleId[p]}" is not detected, so its ${t === 'dup' ? 'RPD' : 'recovery'} cannot be computed` });
+    } else if (t === 'dup' && p >= 0 && ctx.nondetect[r]) {
+      notJudged.push({ row: r, column: 'rpd_pct', message: `not judged: this duplicate is not detected while its parent "${ctx.sampleId[p]}" is, so no RPD can be computed` });
+    }
+  }
   const outlierTest = findOutliers(ctx);
   for (const o of outlierTest.outliers) add(o.row, 'OUTLIER', o.finding);
-  const notes: Note[] = outlierTest.undecided.map((u) => ({ row: u.row, column: 'spike_recovery_pct', message: u.text }));
+  const notes: Note[] = [...notJudged, ...outlierTest.undecided.map((u) => ({ row: u.row, column: 'spike_recovery_pct', message: u.text }))];
 
   const failedByFlags = new Uint8Array(n);
   const codesOf: Array<Set<FlagCode> | undefined> = new Array(n);

@@ -560,3 +560,23 @@ describe('verdict per analyte and batch', () => {
     });
   });
 });
+
+describe('non-detects in QC (issue 13)', () => {
+  const nd = (r: Row): Row => ({ ...r, extract_conc: 'ND' });
+  it('a blank not detected passes; a spiked control not detected fails as recovering nothing; a sample is below its RL', () => {
+    const r = run([
+      nd({ sample_id: 'MB', sample_type: 'blank' }),
+      nd(lcs('L', 0, 10)),
+      nd({ sample_id: 'S1', reporting_limit: 0.5 }),
+    ]);
+    expect(r.rowFlags).toEqual(['NOT_DETECTED', 'REC_LOW;NOT_DETECTED', 'BELOW_RL;NOT_DETECTED;LCS_ASSOC']); // the failed lcs qualifies the sample
+    expect(r.qc.status).toEqual(['pass', 'fail', '']);
+    expect(flagsOf(r, 1, 'REC_LOW')[0]!.message).toBe('row 3, column "spike_recovery_pct": recovery below its limit: expected 70–130 %, got a result not detected (nothing of the spike recovered)');
+    expect(flagsOf(r, 2, 'BELOW_RL')[0]!.message).toBe('row 4, column "pre_extraction_conc": result not detected: below the reporting limit 0.5 ng/mL');
+  });
+
+  it('a matrix spike of a sample not detected is not judged, and says why', () => {
+    const r = run([nd({ sample_id: 'S1' }), { sample_id: 'S1-MS', sample_type: 'ms', parent_id: 'S1', extract_conc: 9.5, spike_conc: 10 }]);
+    expect(r.notes.filter((n) => n.row === 1).map((n) => n.message)).toContain('not judged: its parent sample "S1" is not detected, so its recovery cannot be computed');
+  });
+});
