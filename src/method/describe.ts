@@ -47,7 +47,26 @@ export function describeMethod(method: Method, compiled: CompiledMethod): string
     qcSection(method),
     formulasSection(method, compiled),
   ];
+  const warnings = judgingWarnings(method);
+  if (warnings.length) sections.push(['Warnings: controls this method cannot judge', ...warnings.map((w) => `  ${w}`)]);
   return sections.map((lines) => lines.join('\n')).join('\n\n') + '\n';
+}
+
+/** What the method leaves controls without (they are then marked not judged, never passed silently). */
+export function judgingWarnings(method: Method): string[] {
+  const out: string[] = [];
+  const usesBlank = method.sampleTypes.size === 0 || [...method.sampleTypes.values()].includes('blank');
+  const rlSomewhere = method.defaults.reporting_limit !== undefined || method.analytes.some((a) => a.reporting_limit !== undefined) || method.fields.has('reporting_limit');
+  if (usesBlank && !rlSomewhere) {
+    out.push('blanks: no reporting limit anywhere (defaults.reporting_limit, an analyte\'s reporting_limit, or a reporting_limit column): a blank is judged only where its row gives one');
+  }
+  for (const kind of controlKindsUsed(method)) {
+    const set = method.limits[kind];
+    if (kind === 'dup' ? set?.rpd_max === undefined : !set?.recovery) {
+      out.push(`${kind}: no ${kind === 'dup' ? 'RPD limit (rpd_max)' : 'recovery limits'} in the method: such rows are not judged unless an analyte gives them`);
+    }
+  }
+  return out;
 }
 
 function headerSection(method: Method): string[] {

@@ -6,10 +6,12 @@ export type Range = readonly [number, number];
 export interface LimitSet {
   recovery?: Range;
   rpd_max?: number;
+  /** Blanks: the part of the reporting limit a blank must stay below (bioanalysis: 0.2, ICH M10); default 1, the RL itself. */
+  max_fraction_of_rl?: number;
   levels?: Record<string, LimitSet>;
 }
 
-export type ControlKind = 'lcs' | 'lcsd' | 'ms' | 'msd' | 'dup' | 'qc' | 'surrogate';
+export type ControlKind = 'blank' | 'lcs' | 'lcsd' | 'ms' | 'msd' | 'dup' | 'qc' | 'surrogate';
 export type LimitTable = Partial<Record<ControlKind, LimitSet>>;
 
 export interface FieldConfig {

@@ -61,6 +61,21 @@ export function assessQc(input: QcInput): QcResult {
       notJudged.push({ row: r, column: 'rpd_pct', message: `not judged: this duplicate is not detected while its parent "${ctx.sampleId[p]}" is, so no RPD can be computed` });
     }
   }
+  // A control with no limit to judge it by is never a silent pass: the note says it was not judged, and why.
+  for (let r = 0; r < n; r++) {
+    const t = ctx.type[r];
+    if (input.rowError[r] || !t || t === 'sample' || t === 'calibrator') continue;
+    const lim = ctx.limits[r]!;
+    let why: string | undefined;
+    if (t === 'blank' && !ctx.isSurrogate(r)) {
+      if (!Number.isFinite(ctx.reportingLimit[r]!)) why = 'no reporting limit (give the row a reporting_limit, the analyte one, or the method defaults.reporting_limit)';
+    } else if (t === 'dup') {
+      if (lim.rpdMax === undefined) why = 'no RPD limit for dup rows (limits.dup.rpd_max)';
+    } else if (!lim.recovery) {
+      why = `no recovery limits for ${ctx.isSurrogate(r) ? 'this surrogate' : `${t} rows`} (limits.${ctx.isSurrogate(r) ? 'surrogate' : t}.recovery)`;
+    }
+    if (why) notJudged.push({ row: r, column: t === 'dup' ? 'rpd_pct' : t === 'blank' ? 'pre_extraction_conc' : 'spike_recovery_pct', message: `not judged: ${why}` });
+  }
   const outlierTest = findOutliers(ctx);
   for (const o of outlierTest.outliers) add(o.row, 'OUTLIER', o.finding);
   const notes: Note[] = [...notJudged, ...outlierTest.undecided.map((u) => ({ row: u.row, column: 'spike_recovery_pct', message: u.text }))];

@@ -15,6 +15,8 @@ export function inHouseKey(analyte: string, sampleType: string): string {
 export interface AppliedLimits {
   recovery?: Range;
   rpdMax?: number;
+  /** Blanks: the part of the reporting limit they must stay below (1 when the method says nothing). */
+  blankFraction?: number;
   /** Which entry of the method supplied them, in words (for the QC sheet). */
   origin: string;
 }
@@ -32,7 +34,7 @@ export function limitsFor(
 ): AppliedLimits {
   const kind: ControlKind | undefined = row.analyte?.surrogate
     ? 'surrogate'
-    : row.sampleType === 'sample' || row.sampleType === 'blank' || row.sampleType === 'calibrator'
+    : row.sampleType === 'sample' || row.sampleType === 'calibrator'
       ? undefined
       : row.sampleType;
   if (!kind) return { origin: 'none' };
@@ -59,6 +61,10 @@ export function limitsFor(
     if (out.rpdMax === undefined && set.rpd_max !== undefined && kind !== 'surrogate') {
       out.rpdMax = set.rpd_max;
       origins.push(`RPD from ${where}`);
+    }
+    if (out.blankFraction === undefined && set.max_fraction_of_rl !== undefined && kind === 'blank') {
+      out.blankFraction = set.max_fraction_of_rl;
+      origins.push(`blank limit from ${where}`);
     }
   }
   // A method that asks for in-house limits gets them where the history holds enough points.

@@ -61,9 +61,13 @@ export const ROW_RULES: readonly RowRule[] = [
       if (ctx.type[r] !== 'blank' || ctx.isSurrogate(r)) return undefined;
       const x = ctx.result[r]!;
       const rl = ctx.reportingLimit[r]!;
-      if (!finite(x) || !finite(rl) || !isAtOrAbove(x, rl)) return undefined;
+      // The limit is the RL (environmental practice) or a part of it (bioanalysis: below 20 % of the LLOQ, ICH M10 §3.2.5).
+      const fraction = ctx.limits[r]!.blankFraction ?? 1;
+      const limit = rl * fraction;
+      if (!finite(x) || !finite(limit) || !isAtOrAbove(x, limit)) return undefined;
       const u = ctx.method.units.concentration;
-      return { column: 'pre_extraction_conc', text: `blank at or above the reporting limit: expected below ${fmt(rl)} ${u}, got "${fmt(x)} ${u}"`, value: x, limit: rl };
+      const what = fraction === 1 ? 'the reporting limit' : `${fmt(fraction * 100)} % of the reporting limit ${fmt(rl)} ${u}`;
+      return { column: 'pre_extraction_conc', text: `blank at or above ${what}: expected below ${fmt(limit)} ${u}, got "${fmt(x)} ${u}"`, value: x, limit };
     },
   },
   {

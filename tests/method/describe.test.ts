@@ -3,6 +3,7 @@ import { describe, expect, it } from 'vitest';
 import { compileMethod } from '../../src/engine/evaluate.js';
 import { describeMethod } from '../../src/method/describe.js';
 import { loadMethod, parseMethod } from '../../src/method/load.js';
+import { judgingWarnings } from '../../src/method/describe.js';
 
 const ROOT = join(import.meta.dirname, '../..');
 const describeFile = (name: string) => {
@@ -126,5 +127,15 @@ describe('describeMethod on small methods', () => {
     expect(text).toContain('no partition coefficient: from the worklist, else the extraction is taken as complete (E = 100 %)');
     expect(text).toContain('Reporting limit where an analyte names none: 0.5 ng/mL');
     expect(text).toContain('blank: result below the reporting limit 0.5 ng/mL');
+  });
+});
+
+describe('method check warns of controls the method cannot judge (issue 14, point 4)', () => {
+  it.each([
+    ['name: x\nsample_types:\n  MB: blank\nformulas:\n  - { name: y, expr: extract_conc }\n', ['blanks: no reporting limit anywhere']],
+    ['name: x\ndefaults: { reporting_limit: 0.5 }\nsample_types:\n  MB: blank\nformulas:\n  - { name: y, expr: extract_conc }\n', []],
+  ])('%#', (text, starts) => {
+    const warnings = judgingWarnings(parseMethod(text, { file: 'm.yaml' }));
+    expect(warnings.map((w) => w.slice(0, w.indexOf(' (') > 0 ? w.indexOf(' (') : undefined))).toEqual(starts);
   });
 });

@@ -580,3 +580,36 @@ describe('non-detects in QC (issue 13)', () => {
     expect(r.notes.filter((n) => n.row === 1).map((n) => n.message)).toContain('not judged: its parent sample "S1" is not detected, so its recovery cannot be computed');
   });
 });
+
+describe('blanks judged as the trade judges them (issue 14, point 4)', () => {
+  // ICH M10 (2022) §3.2.5: in bioanalysis a blank's response must stay below 20 % of the LLOQ's;
+  // environmental practice judges a blank against the reporting limit itself (US EPA SW-846, common practice).
+  const blank = (conc: number): Row => ({ sample_id: 'MB', sample_type: 'blank', extract_conc: conc, reporting_limit: 0.5 });
+  const bio = genericMethod({ append: 'analytes:\n  atrazine:\n    limits:\n      blank: { max_fraction_of_rl: 0.2 }' });
+
+  it.each([
+    // [blank result, method, flags, status]
+    [0.09, 'bio', '', 'pass'], // below 20 % of 0.5 = 0.1
+    [0.1, 'bio', 'BLANK_HIT', 'fail'], // at the limit: limits are inclusive
+    [0.3, 'bio', 'BLANK_HIT', 'fail'],
+    [0.3, 'env', '', 'pass'], // below the RL itself
+    [0.5, 'env', 'BLANK_HIT', 'fail'],
+  ] as const)('a blank at %d ng/mL under the %s rule: %s', (conc, which, flag, status) => {
+    const r = run([blank(conc)], which === 'bio' ? bio : undefined);
+    expect(r.rowFlags[0]).toBe(flag);
+    expect(r.qc.status[0]).toBe(status);
+  });
+
+  it('names the part of the reporting limit in the message', () => {
+    const r = run([blank(0.3)], bio);
+    expect(flagsOf(r, 0, 'BLANK_HIT')[0]!.message).toBe('row 2, column "pre_extraction_conc": blank at or above 20 % of the reporting limit 0.5 ng/mL: expected below 0.1 ng/mL, got "0.3 ng/mL"');
+  });
+
+  it('a blank with no reporting limit anywhere is not judged, and says so', () => {
+    const r = run([{ sample_id: 'MB', sample_type: 'blank', extract_conc: 0.3 }]);
+    expect(r.qc.status[0]).toBe('pass');
+    expect(r.notes.filter((n) => n.row === 0).map((n) => n.message)).toContain(
+      'not judged: no reporting limit (give the row a reporting_limit, the analyte one, or the method defaults.reporting_limit)',
+    );
+  });
+});
