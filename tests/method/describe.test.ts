@@ -1,9 +1,8 @@
 import { join } from 'node:path';
 import { describe, expect, it } from 'vitest';
 import { compileMethod } from '../../src/engine/evaluate.js';
-import { describeMethod } from '../../src/method/describe.js';
+import { describeMethod, judgingWarnings } from '../../src/method/describe.js';
 import { loadMethod, parseMethod } from '../../src/method/load.js';
-import { judgingWarnings } from '../../src/method/describe.js';
 
 const ROOT = join(import.meta.dirname, '../..');
 const describeFile = (name: string) => {
