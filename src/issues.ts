@@ -17,6 +17,7 @@ export const FLAG_CODES = [
   'NOT_DETECTED',
   'LCS_ASSOC',
   'MATRIX_ASSOC',
+  'SURROGATE_ASSOC',
   'BLANK_ASSOC',
 ] as const;
 export type FlagCode = (typeof FLAG_CODES)[number];

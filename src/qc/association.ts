@@ -9,6 +9,8 @@ export interface JudgedRows {
   hasFlag(row: number, code: FlagCode): boolean;
   /** The batch's `sample` rows of this row's analyte. */
   batchSamples(row: number): readonly number[];
+  /** The other rows of this row's sample in its batch (the same sample id, the other analytes). */
+  sameSample(row: number): readonly number[];
 }
 
 /**
@@ -43,6 +45,14 @@ export const ASSOCIATION_RULES: readonly AssociationRule[] = [
     },
   },
   {
+    code: 'SURROGATE_ASSOC',
+    // US EPA SW-846 Method 8000 practice: a surrogate outside its limits qualifies the results of its sample.
+    description: 'a surrogate outside its limits qualifies every other analyte of its sample in its batch',
+    happened: 'outside its limits',
+    isSource: (ctx, r, j) => ctx.isSurrogate(r) && (j.hasFlag(r, 'REC_LOW') || j.hasFlag(r, 'REC_HIGH')),
+    targets: (ctx, r, j) => j.sameSample(r).filter((t) => !ctx.isSurrogate(t)),
+  },
+  {
     code: 'BLANK_ASSOC',
     description: 'a blank at or above the reporting limit qualifies every sample row of its analyte in its batch',
     happened: 'at or above the reporting limit',
@@ -64,9 +74,16 @@ export const NAMED_SOURCES = 10;
  * (an ms and an msd of one parent) has them merged. Naming every source for every
  * sample was quadratic: 4,000 failing blanks in a batch of 44,000 rows ran out of memory.
  */
-export function associate(ctx: QcContext, judged: Omit<JudgedRows, 'batchSamples'>): Array<{ row: number; code: FlagCode; finding: Finding }> {
+export function associate(ctx: QcContext, judged: Omit<JudgedRows, 'batchSamples' | 'sameSample'>): Array<{ row: number; code: FlagCode; finding: Finding }> {
   const samplesByKey = rowsByBatchAnalyte(ctx, 'sample');
-  const j: JudgedRows = { ...judged, batchSamples: (r) => samplesByKey.get(batchAnalyteKey(ctx, r)) ?? [] };
+  // Rows by batch and sample id, once (a surrogate's targets; one shared list per sample).
+  const bySample = new Map<string, number[]>();
+  for (let r = 0; r < ctx.rowCount; r++) pushTo(bySample, `${ctx.batch[r]}\u0000${ctx.sampleId[r]}`, r);
+  const j: JudgedRows = {
+    ...judged,
+    batchSamples: (r) => samplesByKey.get(batchAnalyteKey(ctx, r)) ?? [],
+    sameSample: (r) => bySample.get(`${ctx.batch[r]}\u0000${ctx.sampleId[r]}`) ?? [],
+  };
   const out: Array<{ row: number; code: FlagCode; finding: Finding }> = [];
   for (const rule of ASSOCIATION_RULES) {
     // Sources per list of targets (by identity), in row order.

@@ -89,7 +89,17 @@ export interface Headline {
  * The verdict's sentence. `failed` counts every failed control, tolerated ones included;
  * `controls` the control rows judged; `inputErrors` the rows with an input error.
  */
-export function headline(verdict: 'pass' | 'fail', counts: { controls: number; failed: number; tolerated: number; inputErrors: number }): Headline {
+export function headline(
+  verdict: 'pass' | 'fail',
+  counts: { controls: number; failed: number; tolerated: number; inputErrors: number; surrogateSamples?: number },
+): Headline {
+  const h = headlineOf(verdict, counts);
+  // A surrogate outside its limits qualifies its sample without failing anything: still said, never hidden behind "passed".
+  const s = counts.surrogateSamples ?? 0;
+  return s > 0 ? { ...h, sentence: `${h.sentence}; ${s.toLocaleString('en-US')} sample${s === 1 ? ' is' : 's are'} qualified by a surrogate outside its limits` } : h;
+}
+
+function headlineOf(verdict: 'pass' | 'fail', counts: { controls: number; failed: number; tolerated: number; inputErrors: number }): Headline {
   const { controls, failed, tolerated, inputErrors } = counts;
   const plural = (k: number, one: string, many: string) => `${k.toLocaleString('en-US')} ${k === 1 ? one : many}`;
   if (verdict === 'fail') {

@@ -45,6 +45,8 @@ export interface GroupSummary {
   meanEfficiencyPct: number;
   inputErrors: number;
   failedControls: number;
+  /** Rows qualified by a surrogate of their sample outside its limits (SURROGATE_ASSOC). */
+  surrogateQualified: number;
   runRule?: RunRuleOutcome;
   verdict: 'pass' | 'fail';
   /** Why the verdict is fail; empty when it passes. */
@@ -203,6 +205,7 @@ export function summarize(input: SummaryInput): { groups: GroupSummary[]; overal
       meanEfficiencyPct: mean(effs),
       inputErrors: errorRows.length,
       failedControls: rows.filter((r) => input.qc.status[r] === 'fail').length,
+      surrogateQualified: rows.filter((r) => has(r, 'SURROGATE_ASSOC')).length,
       runRule: rule,
       verdict: reasons.length ? 'fail' : 'pass',
       reasons,
@@ -220,12 +223,20 @@ export function summarize(input: SummaryInput): { groups: GroupSummary[]; overal
     tolerated: (r) => toleratedRows.has(r),
   });
   // Counts per batch ('' for a worklist without batch ids) and over the whole worklist.
-  const countsOf = new Map<string, { controls: number; failed: number; tolerated: number; inputErrors: number }>();
+  const countsOf = new Map<string, { controls: number; failed: number; tolerated: number; inputErrors: number; surrogateSamples: number }>();
   const countFor = (b: string) => {
     let c = countsOf.get(b);
-    if (!c) countsOf.set(b, (c = { controls: 0, failed: 0, tolerated: 0, inputErrors: 0 }));
+    if (!c) countsOf.set(b, (c = { controls: 0, failed: 0, tolerated: 0, inputErrors: 0, surrogateSamples: 0 }));
     return c;
   };
+  // Samples (batch and sample id) qualified by a surrogate, each counted once.
+  const qualifiedSamples = new Set<string>();
+  for (let r = 0; r < n; r++) {
+    if (has(r, 'SURROGATE_ASSOC') && !qualifiedSamples.has(`${batch[r]}\u0000${sampleId[r]}`)) {
+      qualifiedSamples.add(`${batch[r]}\u0000${sampleId[r]}`);
+      countFor(batch[r]!).surrogateSamples++;
+    }
+  }
   for (let r = 0; r < n; r++) {
     const c = countFor(batch[r]!);
     if (input.qc.status[r] !== '') c.controls++;
@@ -236,7 +247,7 @@ export function summarize(input: SummaryInput): { groups: GroupSummary[]; overal
     c.failed++;
     if (f.tolerated) c.tolerated++;
   }
-  const total = { controls: 0, failed: 0, tolerated: 0, inputErrors: 0 };
+  const total = { controls: 0, failed: 0, tolerated: 0, inputErrors: 0, surrogateSamples: 0 };
   for (const c of countsOf.values()) for (const k of Object.keys(total) as (keyof typeof total)[]) total[k] += c[k];
 
   const batches: BatchVerdict[] = [];

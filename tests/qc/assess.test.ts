@@ -613,3 +613,28 @@ describe('blanks judged as the trade judges them (issue 14, point 4)', () => {
     );
   });
 });
+
+describe('surrogates qualify their sample (issue 14, point 2)', () => {
+  // US EPA SW-846 Method 8000 practice: a surrogate outside its limits qualifies the sample's results.
+  const method = genericMethod({ append: 'analytes:\n  fluoro-s:\n    surrogate: true\n    limits:\n      surrogate: { recovery: [60, 120] }' });
+  const row = (id: string, analyte: string, conc: number, extra: Row = {}): Row => ({ sample_id: id, analyte, extract_conc: conc, ...extra });
+  it('a surrogate outside its limits puts SURROGATE_ASSOC on the other analytes of its sample in its batch, and fails nothing', () => {
+    const r = run(
+      [
+        row('S1', 'fluoro-s', 5, { spike_conc: 10 }), // 50 %: below 60–120
+        row('S1', 'atrazine', 3),
+        row('S1', 'simazine', 4),
+        row('S2', 'fluoro-s', 9, { spike_conc: 10 }), // 90 %: within
+        row('S2', 'atrazine', 3),
+        row('S1', 'atrazine', 3, { batch_id: 'B2' }), // the same sample id in another batch: not qualified
+      ],
+      method,
+    );
+    expect(r.rowFlags).toEqual(['REC_LOW', 'SURROGATE_ASSOC', 'SURROGATE_ASSOC', '', '', '']);
+    expect(flagsOf(r, 1, 'SURROGATE_ASSOC')[0]!.message).toBe('row 3: qualified by sample "S1": outside its limits');
+    expect(r.verdict.verdict).toBe('pass');
+    expect(r.groups.find((g) => g.batch === 'B1' && g.analyte === 'atrazine')!.surrogateQualified).toBe(1);
+    // Said, never hidden behind "passed".
+    expect(r.verdict.headline.sentence).toBe('no control row was judged: the worklist has none, so nothing here checks the extraction; 1 sample is qualified by a surrogate outside its limits');
+  });
+});

@@ -28,6 +28,7 @@ export const FLAG_MEANINGS: Record<FlagCode, string> = {
   INPUT_ERROR: 'a cell could not be used (the reason names the row and column); the row is not computed',
   LCS_ASSOC: 'a sample whose batch lcs or lcsd failed',
   MATRIX_ASSOC: 'a sample whose ms or msd failed',
+  SURROGATE_ASSOC: "an analyte of a sample whose surrogate recovery is outside its limits (US EPA SW-846 Method 8000 practice): it qualifies the sample's results, it does not fail the batch",
   BLANK_ASSOC: 'a sample whose batch blank is at or above the reporting limit',
 };
 
@@ -99,6 +100,7 @@ export function planSummarySheet(
       ...SAMPLE_TYPES.map((t) => `${t} rows`),
       'input errors',
       'failed controls',
+      'qualified by a surrogate',
       'outside limits',
       'max RPD %',
       'blanks',
@@ -114,6 +116,7 @@ export function planSummarySheet(
       ...SAMPLE_TYPES.map((t) => g.counts[t] ?? 0),
       cell(g.inputErrors, { mark: g.inputErrors > 0 ? 'fail' : undefined }),
       cell(g.failedControls, { mark: g.failedControls > 0 ? 'fail' : undefined }),
+      cell(g.surrogateQualified, { mark: g.surrogateQualified > 0 ? 'inform' : undefined }),
       g.outsideLimits,
       cell(pct(g.maxRpd), { numFmt: '0.0' }),
       cell(g.blankStatus, { mark: g.blankStatus === 'hit' ? 'fail' : undefined }),
@@ -174,5 +177,5 @@ export function planSummarySheet(
     }),
   );
 
-  return b.plan(SUMMARY_SHEET, { widths: [24, 44, 14, 10, 10, 10, 10, 10, 10, 10, 10, 12, 12, 12, 12, 10, 10, 24, 50, 40] });
+  return b.plan(SUMMARY_SHEET, { widths: [24, 44, 14, 10, 10, 10, 10, 10, 10, 10, 10, 10, 12, 12, 12, 12, 12, 10, 10, 24, 50, 40] });
 }
