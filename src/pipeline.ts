@@ -135,6 +135,7 @@ export function recalculateTable(
     links,
     rowError: table.rowError,
     nondetect: table.nondetect,
+    nondetectLimit: table.nondetectLimit,
     inHouse: ctx.inHouse,
   });
   stageDone(4);

@@ -1,6 +1,6 @@
 import { FAILING_CODES, type Flag, type FlagCode, type Note } from '../issues.js';
 import { associate } from './association.js';
-import { buildContext, toFlag, type Finding, type QcInput } from './context.js';
+import { buildContext, fmt, toFlag, type Finding, type QcContext, type QcInput } from './context.js';
 import type { AppliedLimits } from './limits.js';
 import { findOutliers } from './outlier-rule.js';
 import { ROW_RULES } from './row-rules.js';
@@ -69,6 +69,7 @@ export function assessQc(input: QcInput): QcResult {
     let why: string | undefined;
     if (t === 'blank' && !ctx.isSurrogate(r)) {
       if (!Number.isFinite(ctx.reportingLimit[r]!)) why = 'no reporting limit (give the row a reporting_limit, the analyte one, or the method defaults.reporting_limit)';
+      else if (ctx.nondetect[r]) why = statedLimitTooHigh(ctx, r);
     } else if (t === 'dup') {
       if (lim.rpdMax === undefined) why = 'no RPD limit for dup rows (limits.dup.rpd_max)';
     } else if (!lim.recovery) {
@@ -105,4 +106,20 @@ export function assessQc(input: QcInput): QcResult {
   const runRule = applyRunRule(ctx, (r) => status[r] === 'pass');
   flags.sort((a, b) => a.row - b.row);
   return { flags, status, limits: ctx.limits, runRule, notes };
+}
+
+/**
+ * A blank not detected "below 5" shows it clean only if 5, taken through the same mass balance as a
+ * result, is below the blank's limit; otherwise the blank is not judged, and the words say why.
+ */
+function statedLimitTooHigh(ctx: QcContext, r: number): string | undefined {
+  const stated = ctx.input.nondetectLimit?.[r];
+  if (stated === undefined || !Number.isFinite(stated)) return undefined;
+  const num = (name: string) => ctx.input.numbers.get(name)?.[r] ?? NaN;
+  const e = (ctx.input.computed.get('extraction_efficiency_pct')?.[r] ?? NaN) / 100;
+  const inSample = (stated * num('dilution') * num('final_volume')) / (num('sample_volume') * e);
+  const limit = ctx.reportingLimit[r]! * (ctx.limits[r]!.blankFraction ?? 1);
+  if (!Number.isFinite(inSample) || inSample < limit) return undefined;
+  const u = ctx.method.units.concentration;
+  return `not detected, but only below a stated limit of ${fmt(inSample)} ${u} in the sample, which is not below the blank's limit of ${fmt(limit)} ${u}`;
 }

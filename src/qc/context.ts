@@ -21,6 +21,8 @@ export interface QcInput {
   rowError: Uint8Array;
   /** 1 where the result is a non-detect (columns/nondetect.ts): no concentration, judged as not detected. */
   nondetect?: Uint8Array;
+  /** A non-detect's stated limit in the method's concentration unit, as measured in the extract (NaN when none). */
+  nondetectLimit?: Float64Array;
   /** In-house limits from the QC history, used when the method asks for them. */
   inHouse?: InHouseLimits;
 }

@@ -638,3 +638,15 @@ describe('surrogates qualify their sample (issue 14, point 2)', () => {
     expect(r.verdict.headline.sentence).toBe('no control row was judged: the worklist has none, so nothing here checks the extraction; 1 sample is qualified by a surrogate outside its limits');
   });
 });
+
+describe('a blank not detected below a stated limit (issue 13)', () => {
+  // With the fixture defaults the sample concentration equals the extract's (tests/fixtures/qc/build.ts).
+  it.each([
+    ['< 0.2', ''], // 0.2 below the RL 0.5: clean
+    ['< 5', 'not judged: not detected, but only below a stated limit of 5 ng/mL in the sample, which is not below the blank\'s limit of 0.5 ng/mL'],
+  ])('%s', (cell, note) => {
+    const r = run([{ sample_id: 'MB', sample_type: 'blank', extract_conc: cell, reporting_limit: 0.5 }]);
+    expect(r.rowFlags[0]).toBe('NOT_DETECTED');
+    expect(r.notes.filter((n) => n.row === 0 && n.message.startsWith('not judged')).map((n) => n.message)).toEqual(note ? [note] : []);
+  });
+});
