@@ -65,8 +65,32 @@ function isGrouped(t: string, sep: string): boolean {
 
 const other = (m: DecimalMark): DecimalMark => (m === '.' ? ',' : '.');
 
+const NOTHING: Evidence = Object.freeze({});
+const POINT: Evidence = Object.freeze({ decimal: '.' as const });
+const COMMA: Evidence = Object.freeze({ decimal: ',' as const });
+
 /** What a text cell shows about the decimal mark and grouping, if anything. */
 export function evidenceOf(text: string): Evidence {
+  // Fast path for the common cell, digits with at most one mark ("24.29", "1000", "0,788"): one scan, no regex.
+  let marks = 0;
+  let at = -1;
+  let plain = text.length > 0;
+  for (let i = 0; i < text.length && plain; i++) {
+    const c = text.charCodeAt(i);
+    if (c === 46 || c === 44) {
+      marks++;
+      at = i;
+    } else if (c < 48 || c > 57) plain = false;
+  }
+  if (plain && marks <= 1) {
+    if (marks === 0) return NOTHING;
+    const before = at;
+    const after = text.length - at - 1;
+    // "1.234": a decimal mark, or thousands grouped; a leading 0 or another length of either part rules grouping out.
+    const couldGroup = after === 3 && before >= 1 && before <= 3 && text.charCodeAt(0) !== 48;
+    if (couldGroup) return NOTHING;
+    return text.charCodeAt(at) === 46 ? POINT : COMMA;
+  }
   const t = core(text);
   if (t === undefined) return {};
   const dots = t.split('.').length - 1;
@@ -193,6 +217,24 @@ function otherReadings(t: string, format: NumberFormat, mine?: number): string[]
   return out;
 }
 
+/** A text of digits with at most one mark, that mark `decimal`, as a number; undefined for anything else. */
+function plainDecimal(text: string, decimal: DecimalMark): number | undefined {
+  const n = text.length;
+  if (n === 0 || n > 20) return undefined;
+  let at = -1;
+  for (let i = 0; i < n; i++) {
+    const c = text.charCodeAt(i);
+    if (c >= 48 && c <= 57) continue;
+    if ((c === 46 || c === 44) && at < 0 && text[i] === decimal) {
+      at = i;
+      continue;
+    }
+    return undefined;
+  }
+  if (at === 0 && n === 1) return undefined;
+  return Number(at < 0 || decimal === '.' ? text : `${text.slice(0, at)}.${text.slice(at + 1)}`);
+}
+
 /** What to do about a refused cell, by how the format was reached. */
 function fixFor(format: NumberFormat): string {
   return format.basis === 'declared'
@@ -205,6 +247,12 @@ function fixFor(format: NumberFormat): string {
  * format": the caller says what it wanted there. The caller adds the cell's text.
  */
 export function readNumber(text: string, format: NumberFormat): NumberReading {
+  // Fast path for the common cell: digits, at most one mark and that one the file's decimal mark ("24.29"),
+  // read at once unless the mark was only a guess and the cell could be grouping ("1.234").
+  const fast = plainDecimal(text, format.decimal);
+  if (fast !== undefined && (format.basis !== 'delimiter' || evidenceOf(text).decimal !== undefined || !/[.,]/.test(text))) {
+    return { ok: true, value: fast };
+  }
   const t = text.trim();
   const mine = readAs(t, format.decimal, format.grouping);
   if (mine !== undefined) {

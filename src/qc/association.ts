@@ -76,13 +76,19 @@ export const NAMED_SOURCES = 10;
  */
 export function associate(ctx: QcContext, judged: Omit<JudgedRows, 'batchSamples' | 'sameSample'>): Array<{ row: number; code: FlagCode; finding: Finding }> {
   const samplesByKey = rowsByBatchAnalyte(ctx, 'sample');
-  // Rows by batch and sample id, once (a surrogate's targets; one shared list per sample).
-  const bySample = new Map<string, number[]>();
-  for (let r = 0; r < ctx.rowCount; r++) pushTo(bySample, `${ctx.batch[r]}\u0000${ctx.sampleId[r]}`, r);
+  // Rows by batch and sample id (a surrogate's targets; one shared list per sample), built only when a surrogate asks.
+  let bySample: Map<string, number[]> | undefined;
+  const sampleRows = (r: number) => {
+    if (!bySample) {
+      bySample = new Map();
+      for (let k = 0; k < ctx.rowCount; k++) pushTo(bySample, `${ctx.batch[k]}\u0000${ctx.sampleId[k]}`, k);
+    }
+    return bySample.get(`${ctx.batch[r]}\u0000${ctx.sampleId[r]}`) ?? [];
+  };
   const j: JudgedRows = {
     ...judged,
     batchSamples: (r) => samplesByKey.get(batchAnalyteKey(ctx, r)) ?? [],
-    sameSample: (r) => bySample.get(`${ctx.batch[r]}\u0000${ctx.sampleId[r]}`) ?? [],
+    sameSample: sampleRows,
   };
   const out: Array<{ row: number; code: FlagCode; finding: Finding }> = [];
   for (const rule of ASSOCIATION_RULES) {
