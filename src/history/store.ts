@@ -107,7 +107,13 @@ export async function openHistory(dbPath: string): Promise<HistorySession> {
     const session: HistorySession = {
       file: dbPath,
       rows,
-      stage: (result, run) => stageRun(db!, result, run, versionBefore),
+      stage: (result, run) => {
+        try {
+          return stageRun(db!, result, run, versionBefore);
+        } catch (err) {
+          throw sqliteStop(dbPath, err);
+        }
+      },
       commit: () => {
         try {
           db!.exec('COMMIT');
@@ -186,7 +192,7 @@ export async function recordRun(dbPath: string, result: RecalcResult, run: { tim
     summary = session.stage(result, run);
   } catch (err) {
     session.abandon();
-    throw sqliteStop(dbPath, err);
+    throw err;
   }
   session.commit();
   return summary;
