@@ -72,6 +72,16 @@ export async function verifyWorkbook(path: string, options: VerifyOptions = {}):
   }
   const format = marker.get(2)?.value;
   if (format !== WORKBOOK_FORMAT) {
+    // An earlier phasebook laid its sheets out otherwise: comparing them with this version's plan would call an
+    // untouched workbook changed, so it is refused with the way to check it instead.
+    if (typeof format === 'string' && /^phasebook-workbook \d+$/.test(format)) {
+      throw new StopError(
+        'input',
+        `was written in the format "${format}" by an earlier phasebook, whose sheets this version lays out differently; ` +
+          `this phasebook verifies "${WORKBOOK_FORMAT}": verify it with the phasebook version its Provenance sheet names`,
+        { file: path },
+      );
+    }
     throw notPhasebook(path, `it was written in the format ${showValue(format)}; this phasebook reads "${WORKBOOK_FORMAT}"`);
   }
   const results = stored.sheet(RESULTS_SHEET);

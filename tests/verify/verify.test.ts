@@ -194,9 +194,20 @@ describe('not a phasebook workbook', () => {
 
   it('a workbook whose Provenance sheet says something else stops', async () => {
     const path = await edited((wb) => {
-      wb.getWorksheet('Provenance')!.getCell('B1').value = 'phasebook-workbook 0';
+      wb.getWorksheet('Provenance')!.getCell('B1').value = 'spreadsheet of another kind';
     });
-    await expect(verifyWorkbook(path)).rejects.toThrow('is not a phasebook workbook: it was written in the format "phasebook-workbook 0"; this phasebook reads "phasebook-workbook 2"');
+    await expect(verifyWorkbook(path)).rejects.toThrow('is not a phasebook workbook: it was written in the format "spreadsheet of another kind"; this phasebook reads "phasebook-workbook 3"');
+  });
+
+  it('a workbook of an earlier layout is refused with the way to check it, never called changed', async () => {
+    // Found: a workbook written by the previous release verified with 967 differences though untouched.
+    const path = await edited((wb) => {
+      wb.getWorksheet('Provenance')!.getCell('B1').value = 'phasebook-workbook 2';
+    });
+    await expect(verifyWorkbook(path)).rejects.toThrow(
+      'was written in the format "phasebook-workbook 2" by an earlier phasebook, whose sheets this version lays out differently; ' +
+        'this phasebook verifies "phasebook-workbook 3": verify it with the phasebook version its Provenance sheet names',
+    );
   });
 });
 

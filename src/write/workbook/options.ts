@@ -31,4 +31,8 @@ export const DEFAULT_FORMULA_ROW_LIMIT = 100_000;
 export const DEFAULT_MAX_NOTES = 10_000;
 
 /** Identifies a phasebook workbook and the layout `verify` expects. */
-export const WORKBOOK_FORMAT = 'phasebook-workbook 2';
+/**
+ * Version 3: the Summary sheet's verdict sentence and failed-controls table, the calibrator type, the blank
+ * limits and the number format on the Provenance sheet. verify reads only the layout it writes.
+ */
+export const WORKBOOK_FORMAT = 'phasebook-workbook 3';
