@@ -31,6 +31,9 @@ export class NonDetectReader {
 
   /** A non-detect (with its stated limit, as written in the cell's units), or undefined. */
   read(text: string, format: NumberFormat): NonDetect {
+    // A cell that starts like a number ("24.29", "-0.02", ".5") is no word and no "<": not looked up.
+    const c = text.charCodeAt(0);
+    if ((c >= 48 && c <= 57) || c === 43 || c === 45 || c === 46) return undefined;
     const t = text.trim();
     if (t === '') return undefined;
     if (this.words.has(nonDetectKey(t))) return {};
