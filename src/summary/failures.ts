@@ -28,7 +28,6 @@ export interface FailureInput {
   rowCount: number;
   sampleType: readonly (SampleType | '')[];
   texts: ReadonlyMap<string, readonly string[]>;
-  rowError: Uint8Array;
   /** Sorted by row. */
   flags: readonly Flag[];
   status: readonly QcStatus[];

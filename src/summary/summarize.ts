@@ -217,7 +217,6 @@ export function summarize(input: SummaryInput): { groups: GroupSummary[]; overal
     rowCount: n,
     sampleType: input.sampleType,
     texts: input.texts,
-    rowError: input.rowError,
     flags: input.flags,
     status: input.qc.status,
     tolerated: (r) => toleratedRows.has(r),
