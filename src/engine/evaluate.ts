@@ -64,7 +64,45 @@ function compileMethodOnce(method: Method): CompiledMethod {
       column: 'formulas',
     });
   }
+  checkCalibration(method, formulas, byName);
   return { formulas, order };
+}
+
+/**
+ * The efficiency correction and the calibration must agree (issue 14): calibrators
+ * taken through the extraction already carry its losses, so pre_extraction_conc
+ * must not divide by the efficiency again; standards in solvent need it.
+ */
+function checkCalibration(method: Method, formulas: CompiledFormula[], byName: Map<string, number>): void {
+  const at = byName.get('pre_extraction_conc');
+  if (at === undefined) return;
+  const corrects = correctsForEfficiency(formulas, byName, at);
+  const def = method.formulas[at]!;
+  if (method.calibration.includesExtraction && corrects) {
+    throw new StopError(
+      'method',
+      `formula "pre_extraction_conc" divides by the extraction efficiency, but the method says the calibration includes the extraction (calibration: { includes_extraction: true }): the losses would be corrected twice; write it without the efficiency, e.g. extract_conc * dilution * final_volume / sample_volume, or remove includes_extraction`,
+      { file: method.file, line: def.line, column: `formulas[${at}].expr` },
+    );
+  }
+}
+
+/** Whether a formula reads the extraction efficiency, directly (extraction_efficiency()) or through another formula. */
+export function correctsForEfficiency(formulas: readonly CompiledFormula[], byName: ReadonlyMap<string, number>, start: number): boolean {
+  const seen = new Set<number>();
+  const stack = [start];
+  while (stack.length > 0) {
+    const i = stack.pop()!;
+    if (seen.has(i)) continue;
+    seen.add(i);
+    const f = formulas[i]!;
+    if (f.node.filter((n) => n.type === 'FunctionNode' && (n as unknown as { fn: { name: string } }).fn.name === 'extraction_efficiency').length > 0) return true;
+    for (const d of f.dependencies) {
+      const j = byName.get(d);
+      if (j !== undefined) stack.push(j);
+    }
+  }
+  return false;
 }
 
 export interface EvaluateInput {

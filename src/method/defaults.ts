@@ -1,4 +1,4 @@
-import type { LimitTable, QcOptions } from './types.js';
+import type { LimitTable, QcOptions, ReportingOptions } from './types.js';
 
 /**
  * Generic acceptance limits (DESIGN.md §5), used where a method names none.
@@ -24,4 +24,14 @@ export const GENERIC_QC: QcOptions = {
   runRule: 'auto',
   runRuleAll: 2 / 3,
   runRulePerLevel: 0.5,
+};
+
+/**
+ * Reporting: 3 significant figures (common practice), ties rounded half to even
+ * (ISO 80000-1:2009 Annex B, from memory), "> range" above the calibration range.
+ */
+export const GENERIC_REPORTING: ReportingOptions = {
+  significantFigures: 3,
+  rounding: 'half-even',
+  aboveRange: '> range',
 };

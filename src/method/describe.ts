@@ -13,8 +13,9 @@ import { parse } from 'yaml';
 import { neutralFraction } from '../chemistry/partition.js';
 import { CANONICAL_FIELDS, FIELD_SPECS, SAMPLE_TYPES, type CanonicalField, type SampleType } from '../columns/fields.js';
 import { methodUnit } from '../columns/map.js';
-import { DERIVED_COLUMNS, type CompiledMethod } from '../engine/evaluate.js';
+import { correctsForEfficiency, DERIVED_COLUMNS, type CompiledMethod } from '../engine/evaluate.js';
 import { formatRange, limitsFor } from '../qc/limits.js';
+import { calibrationSentence, reportingSentence } from './reporting.js';
 import type { AnalyteInfo, ControlKind, Method } from './types.js';
 
 /** Control types in the order a reader expects them. */
@@ -45,11 +46,24 @@ export function describeMethod(method: Method, compiled: CompiledMethod): string
     analytesSection(method),
     limitsSection(method),
     qcSection(method),
+    reportingSection(method),
     formulasSection(method, compiled),
   ];
   const warnings = judgingWarnings(method);
   if (warnings.length) sections.push(['Warnings: controls this method cannot judge', ...warnings.map((w) => `  ${w}`)]);
+  const calibration = calibrationWarnings(method, compiled);
+  if (calibration.length) sections.push(['Warning: calibration', ...calibration.map((w) => `  ${w}`)]);
   return sections.map((lines) => lines.join('\n')).join('\n\n') + '\n';
+}
+
+/** A method whose result is not corrected for the efficiency although its standards were not extracted. */
+export function calibrationWarnings(method: Method, compiled: CompiledMethod): string[] {
+  const byName = new Map(compiled.formulas.map((f, i) => [f.name, i]));
+  const at = byName.get('pre_extraction_conc');
+  if (at === undefined || method.calibration.includesExtraction || correctsForEfficiency(compiled.formulas, byName, at)) return [];
+  return [
+    'pre_extraction_conc: the formula does not correct for the extraction efficiency; if the calibrators were taken through the extraction, say so with calibration: { includes_extraction: true }, else divide by extraction_efficiency_pct / 100',
+  ];
 }
 
 /** What the method leaves controls without (they are then marked not judged, never passed silently). */
@@ -220,6 +234,10 @@ function qcSection(method: Method): string[] {
   const when = q.runRule === 'on' ? 'on' : q.runRule === 'off' ? 'off' : 'auto (applied where qc rows exist)';
   lines.push(`  run rule: ${when}${q.runRule === 'off' ? '' : `; ${rule}`}`);
   return lines;
+}
+
+function reportingSection(method: Method): string[] {
+  return ['Calibration and reporting', `  calibration: ${calibrationSentence(method)}`, `  ${reportingSentence(method)}`];
 }
 
 function formulasSection(method: Method, compiled: CompiledMethod): string[] {

@@ -83,5 +83,18 @@ export interface Method {
   defaults: { reporting_limit?: number };
   limits: LimitTable;
   qc: QcOptions;
+  /** How results are reported in reported_result (qc/reported.ts). */
+  reporting: ReportingOptions;
+  /** true when the calibrators went through the extraction: no efficiency correction (engine/evaluate.ts checks the formula). */
+  calibration: { includesExtraction: boolean };
   formulas: FormulaDef[];
+}
+
+export type Rounding = 'half-even' | 'half-away-from-zero';
+
+export interface ReportingOptions {
+  significantFigures: number;
+  rounding: Rounding;
+  /** The words for a result above the calibration range. */
+  aboveRange: string;
 }

@@ -3,6 +3,7 @@ import { associate } from './association.js';
 import { buildContext, fmt, toFlag, type Finding, type QcContext, type QcInput } from './context.js';
 import type { AppliedLimits } from './limits.js';
 import { findOutliers } from './outlier-rule.js';
+import { reportedResults } from './reported.js';
 import { ROW_RULES } from './row-rules.js';
 import { applyRunRule, type RunRuleOutcome } from './run-rule.js';
 
@@ -27,6 +28,8 @@ export interface QcResult {
   runRule: RunRuleOutcome[];
   /** Notes for the reviewer (e.g. an outlier group the method's test cannot decide); they change no status. */
   notes: Note[];
+  /** Per row, the result as the lab reports it (qc/reported.ts); '' where there is none. */
+  reported: string[];
 }
 
 /**
@@ -105,7 +108,7 @@ export function assessQc(input: QcInput): QcResult {
 
   const runRule = applyRunRule(ctx, (r) => status[r] === 'pass');
   flags.sort((a, b) => a.row - b.row);
-  return { flags, status, limits: ctx.limits, runRule, notes };
+  return { flags, status, limits: ctx.limits, runRule, notes, reported: reportedResults(ctx) };
 }
 
 /**
@@ -116,7 +119,8 @@ function statedLimitTooHigh(ctx: QcContext, r: number): string | undefined {
   const stated = ctx.input.nondetectLimit?.[r];
   if (stated === undefined || !Number.isFinite(stated)) return undefined;
   const num = (name: string) => ctx.input.numbers.get(name)?.[r] ?? NaN;
-  const e = (ctx.input.computed.get('extraction_efficiency_pct')?.[r] ?? NaN) / 100;
+  // Calibrators taken through the extraction: the stated limit is not corrected by the efficiency either.
+  const e = ctx.method.calibration.includesExtraction ? 1 : (ctx.input.computed.get('extraction_efficiency_pct')?.[r] ?? NaN) / 100;
   const inSample = (stated * num('dilution') * num('final_volume')) / (num('sample_volume') * e);
   const limit = ctx.reportingLimit[r]! * (ctx.limits[r]!.blankFraction ?? 1);
   if (!Number.isFinite(inSample) || inSample < limit) return undefined;

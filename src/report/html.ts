@@ -156,6 +156,11 @@ ${
 <h2>Summary</h2>
 ${summaryTable(groups)}
 </section>
+<section id="results">
+<h2>Results as reported</h2>
+<p class="note">Every row of this batch: the result rounded as the method reports it (${m.reporting.significantFigures} significant figures, in ${m.units.concentration}); the unrounded numbers are in the results CSV and the workbook.</p>
+${resultsTable(result, rows)}
+</section>
 <section id="flags">
 <h2>Flags</h2>
 ${flagsTable(result, flags)}
@@ -236,6 +241,18 @@ function recoveryText(s: GroupSummary['recoveries'][number]): string {
   const what = s.level ? `${s.type} ${s.level}` : s.type;
   if (s.n === 1) return `${what}: ${num(s.mean, 1)}${s.outside ? ' (outside limits)' : ''}`;
   return `${what}: mean ${num(s.mean, 1)}, ${num(s.min, 1)}–${num(s.max, 1)}, SD ${num(s.sd, 1)}, n ${s.n}${s.outside ? `, ${s.outside} outside limits` : ''}`;
+}
+
+function resultsTable(result: RecalcResult, rows: readonly number[]): Markup {
+  if (rows.length === 0) return html`<p class="note">No rows.</p>`;
+  return html`<table id="results-table">
+<thead><tr><th class="num">Row</th><th>Sample</th><th>Analyte</th><th>Type</th><th class="num">Reported result</th><th>Flags</th><th>QC status</th></tr></thead>
+<tbody>
+${rows.map(
+  (r) => html`<tr><td class="num">${result.raw.rowNumbers[r]}</td><td>${text(result, 'sample_id', r)}</td><td>${text(result, 'analyte', r)}</td><td>${result.table.sampleType[r] ?? ''}</td><td class="num">${result.qc.reported[r] ?? ''}</td><td class="mono">${result.rowFlags[r] ?? ''}</td><td>${result.qc.status[r] ?? ''}</td></tr>
+`,
+)}</tbody>
+</table>`;
 }
 
 function flagsTable(result: RecalcResult, flags: readonly Flag[]): Markup {

@@ -1,15 +1,16 @@
 import type { RecalcResult } from '../pipeline.js';
 import type { RawCell } from '../read/types.js';
+import type { Method } from '../method/types.js';
 
 /**
  * The columns every results output carries, in order (DESIGN.md §4): the input
  * columns verbatim, then the computed columns (a unit suffix on dimensioned
- * ones), then `flags` and `qc_status`.
+ * ones), then `flags`, `qc_status` and `reported_result`.
  */
 export type OutputColumn =
   | { role: 'input'; header: string; kind: 'text'; values: readonly RawCell[]; inputIndex: number }
   | { role: 'computed'; header: string; name: string; unit: string; kind: 'number'; values: Float64Array }
-  | { role: 'flags' | 'qc_status'; header: string; kind: 'text'; values: readonly string[] };
+  | { role: 'flags' | 'qc_status' | 'reported_result'; header: string; kind: 'text'; values: readonly string[] };
 
 export function outputColumns(result: RecalcResult): OutputColumn[] {
   const out: OutputColumn[] = result.raw.headers.map((header, i) => ({
@@ -31,10 +32,26 @@ export function outputColumns(result: RecalcResult): OutputColumn[] {
   }
   out.push({ role: 'flags', header: 'flags', kind: 'text', values: result.rowFlags });
   out.push({ role: 'qc_status', header: 'qc_status', kind: 'text', values: result.qc.status });
+  out.push({ role: 'reported_result', header: reportedHeader(result.method), kind: 'text', values: result.qc.reported });
   return out;
+}
+
+/** `reported_result [ug/L]`: text, in the method's concentration unit. */
+export function reportedHeader(method: Method): string {
+  return computedHeader('reported_result', method.units.concentration);
 }
 
 /** `pre_extraction_conc [ng/mL]`; percent and dimensionless columns carry no suffix (the name says _pct). */
 export function computedHeader(name: string, unit: string): string {
   return unit && unit !== '%' ? `${name} [${unit}]` : name;
+}
+
+/**
+ * Reported results with the CSV's decimal mark ("0,123", "< 0,05"), as its numbers
+ * are written; the method's own words for above the range are left as written.
+ */
+export function reportedWithMark(values: readonly string[], method: Method, decimal: '.' | ','): readonly string[] {
+  if (decimal === '.') return values;
+  const words = method.reporting.aboveRange;
+  return values.map((v) => (v.startsWith(words) ? v : v.replace('.', ',')));
 }

@@ -4,7 +4,7 @@ import { StopError, fsReason } from '../errors.js';
 import type { RecalcResult } from '../pipeline.js';
 import { commitAll, type WriteJob } from './atomic.js';
 import { COMMA_DIALECT, writeResultsCsv, type CsvDialect } from './csv.js';
-import { outputColumns } from './output-columns.js';
+import { outputColumns, reportedWithMark } from './output-columns.js';
 import type { RunInfo } from './workbook.js';
 import { VERSION } from '../version.js';
 import { htmlReportJobs } from '../report/html.js';
@@ -139,6 +139,7 @@ export async function writeOutputs(result: RecalcResult, options: WriteOptions):
   const report = (rows: number, partOfJob: number) =>
     options.onProgress?.({ stage: 'write', rows, totalRows: result.rowsOut, fraction: (jobsDone + partOfJob) / Math.max(1, jobs.length) });
   if (kinds.includes('csv')) {
+    const dialect = csvDialectOf(result, options.csvDialect);
     jobs.push({
       target: paths.csv,
       write: (tmp) =>
@@ -146,10 +147,14 @@ export async function writeOutputs(result: RecalcResult, options: WriteOptions):
           tmp,
           {
             headers: columns.map((c) => c.header),
-            columns: columns.map((c) => (c.kind === 'number' ? { kind: 'number', values: c.values } : { kind: 'text', values: c.values })),
+            columns: columns.map((c) =>
+              c.kind === 'number'
+                ? { kind: 'number', values: c.values }
+                : { kind: 'text', values: c.role === 'reported_result' ? reportedWithMark(c.values, result.method, dialect.decimal) : c.values },
+            ),
             rowCount: result.rowsOut,
           },
-          { onRows: options.onProgress && ((rows) => report(rows, rows / Math.max(1, result.rowsOut))), dialect: csvDialectOf(result, options.csvDialect) },
+          { onRows: options.onProgress && ((rows) => report(rows, rows / Math.max(1, result.rowsOut))), dialect },
         ),
     });
   }

@@ -86,9 +86,9 @@ describe('phasebook recalc over a worklist with every kind of QC failure', () =>
     expect(status).toBe(1);
   });
 
-  it('writes every row, in order, with flags and qc_status last', () => {
+  it('writes every row, in order, with flags, qc_status and reported_result last', () => {
     expect(rows.map((r) => [r.sample_id, r.analyte])).toEqual(EXPECTED.map(([id, a]) => [id, a]));
-    expect(headers.slice(-2)).toEqual(['flags', 'qc_status']);
+    expect(headers.slice(-3)).toEqual(['flags', 'qc_status', expect.stringMatching(/^reported_result \[.+\]$/)]);
   });
 
   it.each(EXPECTED.map((e, i) => [i + 2, ...e] as const))('row %i (%s, %s): flags "%s", qc_status "%s"', (rowNumber, _id, _a, flags, qcStatus) => {

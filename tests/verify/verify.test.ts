@@ -69,7 +69,7 @@ describe('each kind of edit is found and named', () => {
     const text = lines(report.differences);
     expect(text).toContain('Results!Q7, worklist row 7, sample "KB-03 Footbridge", sample_volume (as used) [mL] from column G: stored 1000, expected 900');
     expect(text.some((l) => l.startsWith('Results!AD7, worklist row 7, sample "KB-03 Footbridge", pre_extraction_conc [ug/L]: stored 0.3583'))).toBe(true);
-    expect(text.some((l) => l.startsWith('Results!AI7, worklist row 7, sample "KB-03 Footbridge", row check: stored "'))).toBe(true);
+    expect(text.some((l) => l.startsWith('Results!AJ7, worklist row 7, sample "KB-03 Footbridge", row check: stored "'))).toBe(true);
     expect(text.some((l) => l.startsWith('Provenance!B'))).toBe(true);
     expect(report.digestMatches).toBe(false);
   });
@@ -169,7 +169,7 @@ describe('each kind of edit is found and named', () => {
       ws.getCell('G9').value = 1000.5;
     });
     const text = lines((await verifyWorkbook(path)).differences);
-    expect(text.some((l) => l.startsWith('Results!AI9, worklist row 9, sample "KB-05 Ford", row check:'))).toBe(true);
+    expect(text.some((l) => l.startsWith('Results!AJ9, worklist row 9, sample "KB-05 Ford", row check:'))).toBe(true);
   });
 });
 

@@ -32,10 +32,10 @@ describe('a worklist longer than a sheet', () => {
     const result = {
       worklist: { path: join(outDir, 'huge.csv'), name: 'huge.csv', bytes: 0, sha256: '' },
       raw: { headers: [], columns: [] },
-      method: { formulas: [] },
+      method: { formulas: [], units: { concentration: 'ng/mL' } },
       computed: new Map(),
       rowFlags: [],
-      qc: { status: [] },
+      qc: { status: [], reported: [] },
       rowsOut: MAX_SHEET_ROWS + 5,
     } as unknown as RecalcResult;
     const written = await writeOutputs(result, { outDir, outputs: ['xlsx'], run: { timestamp: '2026-12-01T00:00:00Z', command: 'test', version: '0' } });

@@ -11,6 +11,7 @@
  */
 import { FIELD_SPECS, SAMPLE_TYPES, type CanonicalField } from '../../columns/fields.js';
 import { conversionFactor } from '../../columns/units.js';
+import { calibrationSentence, roundingWords } from '../../method/reporting.js';
 import type { ControlKind, LimitSet, LimitTable, Method } from '../../method/types.js';
 import type { RecalcResult } from '../../pipeline.js';
 import { COMPARISON_RULE } from '../../qc/compare.js';
@@ -268,6 +269,13 @@ export function planMethodSheet(result: RecalcResult, options: { formulaForms?: 
   b.keyValue('run rule: fraction of all qc rows that must pass', method.qc.runRuleAll);
   b.keyValue('run rule: fraction at each level that must pass', method.qc.runRulePerLevel);
   b.keyValue('comparison with limits', COMPARISON_RULE);
+  b.blank();
+
+  b.title('Calibration and reporting', 'section');
+  b.keyValue('calibration', cell(calibrationSentence(method), { style: 'wrap' }));
+  b.keyValue('significant figures', method.reporting.significantFigures);
+  b.keyValue('rounding of ties', roundingWords(method));
+  b.keyValue('above the calibration range', method.reporting.aboveRange);
   b.blank();
 
   b.title(METHOD_TEXT_TITLE, 'section');

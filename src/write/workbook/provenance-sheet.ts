@@ -10,6 +10,7 @@ import type { NumberFormat } from '../../columns/number-format.js';
  */
 import { FLAG_CODES } from '../../issues.js';
 import type { RecalcResult } from '../../pipeline.js';
+import { calibrationSentence, reportingSentence } from '../../method/reporting.js';
 import { COMPARISON_RULE } from '../../qc/compare.js';
 import type { RawTable } from '../../read/types.js';
 import { SheetBuilder } from './builder.js';
@@ -167,6 +168,8 @@ export function planProvenanceSheet(result: RecalcResult, facts: ProvenanceFacts
   b.keyValue('comparison with limits', COMPARISON_RULE);
   b.keyValue('results CSV', CSV_ESCAPING);
   b.keyValue('rounding', 'numbers are stored unrounded; number formats round the display only');
+  b.keyValue('reported results', cell(reportingSentence(result.method), { style: 'wrap' }));
+  b.keyValue('calibration', cell(calibrationSentence(result.method), { style: 'wrap' }));
   b.blank();
 
   b.title('Integrity', 'section');

@@ -8,6 +8,7 @@ import type { RecalcResult } from '../../pipeline.js';
 import { SheetBuilder } from './builder.js';
 import { cell, type CellValue, type Mark, type PlannedCell, type PlannedRow, type SheetPlan } from './cells.js';
 import { RESULTS_SHEET, type ResultsLayout } from './results-sheet.js';
+import { significantFormat } from './style.js';
 
 export const QC_SHEET = 'QC';
 
@@ -30,7 +31,7 @@ export function planQcSheet(
   const { flagsByRow } = options;
 
   /** A live reference to a Results cell (empty stays empty) in the given display format, or the value. */
-  const ref = (columnName: string, kind: 'as-used' | 'computed', numFmt: string) => {
+  const ref = (columnName: string, kind: 'as-used' | 'computed', format: string | ((v: number) => string)) => {
     const col = kind === 'as-used' ? layout.asUsed.get(columnName) : layout.computed.get(columnName);
     const values = kind === 'as-used' ? table.numbers.get(columnName) : result.computed.get(columnName);
     const sheetRef = col ? `${RESULTS_SHEET}!${col.letter}` : '';
@@ -38,13 +39,15 @@ export function planQcSheet(
     return (r: number): PlannedCell => {
       const v = values?.[r];
       const value = v !== undefined && Number.isFinite(v) ? v : null;
+      const numFmt = typeof format === 'string' ? format : format(value ?? NaN);
       if (!col || !options.live) return { value, numFmt };
       const a = `${sheetRef}${r + 2}`;
       return { value: value ?? '', formula: `IF(${a}="","",${a})`, numFmt };
     };
   };
+  const sig = method.reporting.significantFigures;
   const spikeCell = ref('spike_conc', 'as-used', '0.0###');
-  const resultCell = ref('pre_extraction_conc', 'computed', '0.0###');
+  const resultCell = ref('pre_extraction_conc', 'computed', (v) => significantFormat(v, sig));
   const recoveryCell = ref('spike_recovery_pct', 'computed', '0.0');
   const rpdCell = ref('rpd_pct', 'computed', '0.0');
   const sampleIds = texts.get('sample_id')!;

@@ -27,7 +27,7 @@ import { DERIVED_COLUMNS, compileMethod } from '../../engine/evaluate.js';
 import { FAILING_CODES, type Flag } from '../../issues.js';
 import type { RecalcResult } from '../../pipeline.js';
 import type { RawCell } from '../../read/types.js';
-import { computedHeader } from '../output-columns.js';
+import { computedHeader, reportedHeader } from '../output-columns.js';
 import { toSheetFormula } from '../sheet-formula.js';
 import {
   MAX_CELL_TEXT,
@@ -42,13 +42,13 @@ import {
 } from './cells.js';
 import type { MethodRefs } from './method-sheet.js';
 import { asUsedPlanner } from './as-used.js';
-import { displayFormat, fitWidth, strongerMark } from './style.js';
+import { displayFormat, fitWidth, significantFormat, strongerMark } from './style.js';
 
 export const RESULTS_SHEET = 'Results';
 export const WORKLIST_ROW_HEADER = 'worklist row';
 export const ROW_CHECK_HEADER = 'row check';
 
-export type ResultsColumnKind = 'input' | 'worklist-row' | 'as-used' | 'computed' | 'flags' | 'qc-status' | 'row-check';
+export type ResultsColumnKind = 'input' | 'worklist-row' | 'as-used' | 'computed' | 'flags' | 'qc-status' | 'reported' | 'row-check';
 
 export interface ResultsColumn {
   kind: ResultsColumnKind;
@@ -73,6 +73,7 @@ export interface ResultsLayout {
   worklistRow: ResultsColumn;
   flags: ResultsColumn;
   qcStatus: ResultsColumn;
+  reported: ResultsColumn;
   rowCheck: ResultsColumn;
 }
 
@@ -135,6 +136,7 @@ export function resultsLayout(result: RecalcResult): ResultsLayout {
   }
   const flags = push({ kind: 'flags', header: 'flags' });
   const qcStatus = push({ kind: 'qc-status', header: 'qc_status' });
+  const reported = push({ kind: 'reported', header: reportedHeader(result.method) });
   const rowCheck = push({ kind: 'row-check', header: ROW_CHECK_HEADER });
   return {
     columns,
@@ -145,6 +147,7 @@ export function resultsLayout(result: RecalcResult): ResultsLayout {
     worklistRow,
     flags,
     qcStatus,
+    reported,
     rowCheck,
   };
 }
@@ -322,6 +325,7 @@ export function planResultsSheet(result: RecalcResult, options: ResultsOptions):
     }
     if (col.kind === 'flags') return fitWidth([col.header, ...result.rowFlags.slice(0, 500)], { min: 10, max: 40 });
     if (col.kind === 'row-check') return 18;
+    if (col.kind === 'reported') return fitWidth([col.header, ...result.qc.reported.slice(0, 500)], { min: 10, max: 40 });
     return fitWidth([col.header, '0.000000000'], { min: 10, max: 30 });
   });
 
@@ -351,8 +355,11 @@ export function planResultsSheet(result: RecalcResult, options: ResultsOptions):
   const sampleIds = table.texts.get('sample_id')!;
   const computedColumns = result.method.formulas.map((def) => {
     const col = layout.computed.get(def.name)!;
-    return { index: col.column - 1, values: result.computed.get(def.name)!, numFmt: numFmt.get(col.column) };
+    // Numbers that are not percentages show the method's significant figures, cell by cell (issue 14).
+    const bySignificance = !(def.unit === '%' || def.name.endsWith('_pct'));
+    return { index: col.column - 1, values: result.computed.get(def.name)!, numFmt: numFmt.get(col.column), bySignificance };
   });
+  const sig = result.method.reporting.significantFigures;
   const row = (index: number): PlannedRow => {
     if (index === 0) return headerRow;
     const r = index - 1;
@@ -381,8 +388,9 @@ export function planResultsSheet(result: RecalcResult, options: ResultsOptions):
     const parentRow = result.links.parentRow[r]!;
     const pairRow = result.links.pairRow[r]!;
     for (let i = 0; i < computedColumns.length; i++) {
-      const { index, values, numFmt: fmt } = computedColumns[i]!;
+      const { index, values, bySignificance } = computedColumns[i]!;
       const v = values[r]!;
+      const fmt = bySignificance && Number.isFinite(v) ? significantFormat(v, sig) : computedColumns[i]!.numFmt;
       const value = Number.isFinite(v) ? v : null;
       if (error) {
         cells[index] = { value: null, numFmt: fmt };
@@ -402,6 +410,8 @@ export function planResultsSheet(result: RecalcResult, options: ResultsOptions):
     const status = result.qc.status[r]!;
     cells[layout.flags.column - 1] = cell(flags === '' ? null : flags);
     cells[layout.qcStatus.column - 1] = cell(status === '' ? null : status);
+    const reported = result.qc.reported[r]!;
+    cells[layout.reported.column - 1] = cell(reported === '' ? null : reported);
     cells[layout.rowCheck.column - 1] = cell(rowCheck(inputs));
 
     // Marks: each flag on its cell, all of the row's flags on the flags cell.

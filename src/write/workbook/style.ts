@@ -103,6 +103,22 @@ export function displayFormat(values: ArrayLike<number>, options: { percent?: bo
   return decimals === 0 ? '0' : `0.${'0'.repeat(decimals)}`;
 }
 
+const FIXED_FORMATS = Array.from({ length: 16 }, (_, d) => (d === 0 ? '0' : `0.${'0'.repeat(d)}`));
+
+/**
+ * The display format that shows x with `sig` significant figures (issue 14): 0.00461
+ * as 0.00461, 6.19 as 6.19, 152.656853 as 153, 15234 as 15234 (a format cannot round
+ * left of the point); scientific below 1e-4 and from 1e9. Display only: the stored
+ * value stays exact, and reported_result holds the rounded text.
+ */
+export function significantFormat(x: number, sig: number): string {
+  if (!Number.isFinite(x) || x === 0) return 'General';
+  const rounded = Math.abs(Number(x.toPrecision(sig))); // 9.996 at 3 figures is 10.0: its own power of ten
+  const e = Math.floor(Math.log10(rounded) + 1e-12);
+  if (e < -4 || e >= 9) return sig === 1 ? '0E+00' : `0.${'0'.repeat(sig - 1)}E+00`;
+  return FIXED_FORMATS[Math.min(15, Math.max(0, sig - 1 - e))]!;
+}
+
 /** A width (characters) that fits the longest of the texts, within limits. */
 export function fitWidth(texts: Iterable<string>, options: { min?: number; max?: number } = {}): number {
   const min = options.min ?? 8;

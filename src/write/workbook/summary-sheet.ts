@@ -9,7 +9,7 @@ import { FAILING_CODES, FLAG_CODES, type FlagCode } from '../../issues.js';
 import type { RecalcResult } from '../../pipeline.js';
 import { SheetBuilder } from './builder.js';
 import { cell, type CellValue, type Mark, type SheetPlan } from './cells.js';
-import { MARK_MEANINGS } from './style.js';
+import { MARK_MEANINGS, significantFormat } from './style.js';
 import type { RunInfo } from './options.js';
 
 export const SUMMARY_SHEET = 'Summary';
@@ -148,10 +148,12 @@ export function planSummarySheet(
   const precision = result.groups.flatMap((g) => g.precision.map((p) => ({ g, p })));
   if (precision.length > 0) {
     const u = result.method.units.concentration;
+    const sig = result.method.reporting.significantFigures;
+    const bySignificance = (x: number) => cell(pct(x), { numFmt: significantFormat(x, sig) });
     b.title('Precision of the qc levels', 'section');
     b.table(
       ['batch', 'analyte', 'qc level', 'n', `mean [${u}]`, `SD [${u}]`, 'CV %'],
-      precision.map(({ g, p }) => [g.batch || '(one batch)', g.analyte, p.level, p.n, pct(p.meanConc), pct(p.sdConc), cell(pct(p.cvPct), { numFmt: '0.0' })]),
+      precision.map(({ g, p }) => [g.batch || '(one batch)', g.analyte, p.level, p.n, bySignificance(p.meanConc), bySignificance(p.sdConc), cell(pct(p.cvPct), { numFmt: '0.0' })]),
     );
     b.blank();
   }

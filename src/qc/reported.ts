@@ -1,0 +1,74 @@
+import { Decimal } from 'decimal.js';
+import type { Rounding } from '../method/types.js';
+import { fmt, type QcContext } from './context.js';
+import { ROW_RULES } from './row-rules.js';
+
+/**
+ * The result as a lab reports it (DESIGN.md §4, `reported_result`), one text per
+ * row, in the method's concentration unit:
+ * - a sample, duplicate or blank below its reporting limit, or not detected:
+ *   `< RL` with the limit ("< 0.1"); not detected with no limit known: "not detected";
+ * - any row whose extract is above the calibration range (the OVER_RANGE rule):
+ *   the method's words ("> range") and the whole dilution that brings the extract
+ *   into range ("> range (needs dilution ≥ 3)");
+ * - otherwise the pre-extraction concentration rounded to the method's significant
+ *   figures, trailing zeros kept ("0.0500", "153", "15200");
+ * - empty where there is no result (input error, calibrator, unknown type).
+ * Spiked controls (lcs, ms, qc, surrogates …) report their number even below the
+ * RL: their recovery is what is judged (common practice).
+ */
+export function reportedResults(ctx: QcContext): string[] {
+  const { significantFigures: sig, rounding, aboveRange } = ctx.method.reporting;
+  const dilution = ctx.input.numbers.get('dilution');
+  const out = new Array<string>(ctx.rowCount).fill('');
+  for (let r = 0; r < ctx.rowCount; r++) {
+    const t = ctx.type[r];
+    if (ctx.input.rowError[r] || !t || t === 'calibrator') continue;
+    const over = OVER_RANGE.check(ctx, r);
+    if (over && typeof over.value === 'number' && typeof over.limit === 'number') {
+      const d = dilution && Number.isFinite(dilution[r]!) ? dilution[r]! : 1;
+      out[r] = `${aboveRange} (needs dilution ≥ ${dilutionToRange(d, over.value, over.limit)})`;
+      continue;
+    }
+    const censored = (t === 'sample' || t === 'dup' || t === 'blank') && !ctx.isSurrogate(r);
+    const rl = ctx.reportingLimit[r]!;
+    const x = ctx.result[r]!;
+    if (ctx.nondetect[r]) {
+      out[r] = Number.isFinite(rl) ? `< ${fmt(rl)}` : 'not detected';
+    } else if (censored && Number.isFinite(rl) && Number.isFinite(x) && x < rl) {
+      out[r] = `< ${fmt(rl)}`;
+    } else if (Number.isFinite(x)) {
+      out[r] = roundToSignificant(x, sig, rounding);
+    }
+  }
+  return out;
+}
+
+const OVER_RANGE = ROW_RULES.find((rule) => rule.code === 'OVER_RANGE')!;
+
+/**
+ * The smallest whole dilution factor that brings an extract into range: the
+ * dilution used × extract / top of the range, rounded up (a ratio a hair above
+ * a whole number from floating point stays that number).
+ */
+export function dilutionToRange(dilution: number, extract: number, top: number): number {
+  const need = (dilution * extract) / top;
+  const whole = Math.round(need);
+  return Math.abs(need - whole) <= 1e-9 * whole ? Math.max(whole, 1) : Math.ceil(need);
+}
+
+/**
+ * x rounded to `sig` significant figures, as text with its trailing zeros
+ * (0.00461 → "0.00461", 6.19 → "6.19", 2 → "2.00", 15234 → "15200"). The value
+ * rounded is x as a spreadsheet keeps it, at 15 significant digits, so that
+ * 0.1 + 0.2 is 0.3 and a decimal tie such as 2.665 is a tie; ties go half to
+ * even or half away from zero as the method says.
+ */
+export function roundToSignificant(x: number, sig: number, rounding: Rounding): string {
+  if (!Number.isFinite(x)) return '';
+  if (x === 0) return '0';
+  const mode = rounding === 'half-even' ? Decimal.ROUND_HALF_EVEN : Decimal.ROUND_HALF_UP; // decimal.js: HALF_UP is away from zero
+  const d = new Decimal(x.toPrecision(15)).toSignificantDigits(sig, mode);
+  const exponent = d.e; // the power of ten of the first significant digit
+  return exponent >= sig - 1 ? d.toFixed(0) : d.toFixed(sig - 1 - exponent);
+}
