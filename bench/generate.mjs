@@ -23,9 +23,10 @@ import { finished } from 'node:stream/promises';
 import { pathToFileURL } from 'node:url';
 import { CANONICAL_FIELDS } from '../dist/columns/fields.js';
 
-// Every canonical field but log_k (from the build: the bench runs the built CLI anyway), then two free-text columns
-// a lab's export would carry.
-export const HEADERS = [...CANONICAL_FIELDS.filter((f) => f !== 'log_k'), 'instrument', 'note'];
+// Every canonical field but log_k and istd_response (from the build: the bench runs the built CLI anyway; the
+// floor computes no internal-standard judgement, and the bench worklist keeps its shape), then two free-text
+// columns a lab's export would carry.
+export const HEADERS = [...CANONICAL_FIELDS.filter((f) => f !== 'log_k' && f !== 'istd_response'), 'instrument', 'note'];
 
 /** Invented analytes: K of the neutral form, pKa and type, a typical level in ng/mL. */
 export const ANALYTES = [

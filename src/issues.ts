@@ -13,6 +13,7 @@ export const FLAG_CODES = [
   'BLANK_HIT',
   'BELOW_RL',
   'OVER_RANGE',
+  'ISTD_RESPONSE',
   'OUTLIER',
   'NOT_DETECTED',
   'LCS_ASSOC',
@@ -22,8 +23,8 @@ export const FLAG_CODES = [
 ] as const;
 export type FlagCode = (typeof FLAG_CODES)[number];
 
-/** Codes that fail a control row (DESIGN.md §5); OUTLIER alone only informs. */
-export const FAILING_CODES: ReadonlySet<FlagCode> = new Set(['REC_LOW', 'REC_HIGH', 'RPD_HIGH', 'BLANK_HIT', 'NO_PARENT']);
+/** Codes that fail a control row (DESIGN.md §5; ISTD_RESPONSE, issue 14); OUTLIER alone only informs. */
+export const FAILING_CODES: ReadonlySet<FlagCode> = new Set(['REC_LOW', 'REC_HIGH', 'RPD_HIGH', 'BLANK_HIT', 'NO_PARENT', 'ISTD_RESPONSE']);
 
 export interface Flag {
   /** 0-based data row. */

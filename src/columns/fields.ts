@@ -33,6 +33,7 @@ export const CANONICAL_FIELDS = [
   'spike_conc',
   'qc_level',
   'reporting_limit',
+  'istd_response',
 ] as const;
 
 export type CanonicalField = (typeof CANONICAL_FIELDS)[number];
@@ -57,6 +58,7 @@ const specs: Omit<FieldSpec, 'name'>[] = [
   { kind: 'number', dimension: 'concentration', required: false, description: 'Spike added (sample units) or a QC nominal' },
   { kind: 'text', dimension: 'none', required: false, description: 'Level of a qc row, e.g. lloq, low, mid, high' },
   { kind: 'number', dimension: 'concentration', required: false, description: 'Reporting limit for this row (sample units)' },
+  { kind: 'number', dimension: 'none', required: false, description: "Internal-standard response of the row (peak area or height), judged against the run's mean" },
 ];
 
 export const FIELD_SPECS: ReadonlyMap<CanonicalField, FieldSpec> = new Map(

@@ -55,6 +55,7 @@ const NUMERIC_CHECKS: Partial<Record<CanonicalField, { test: (x: number) => bool
   ph: { test: (x) => x >= 0 && x <= 14, want: 'a pH from 0 to 14' },
   spike_conc: { test: (x) => x >= 0, want: 'a spike concentration of 0 or more' },
   reporting_limit: { test: (x) => x >= 0, want: 'a reporting limit of 0 or more' },
+  istd_response: { test: (x) => x >= 0, want: 'an internal-standard response of 0 or more' },
 };
 
 /** Build the work table: parse, convert, fill defaults, and record row errors as data. */

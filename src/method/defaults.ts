@@ -1,4 +1,5 @@
-import type { LimitTable, QcOptions, ReportingOptions } from './types.js';
+import type { SampleType } from '../columns/fields.js';
+import type { LimitTable, QcOptions, Range, ReportingOptions } from './types.js';
 
 /**
  * Generic acceptance limits (DESIGN.md §5), used where a method names none.
@@ -34,4 +35,13 @@ export const GENERIC_REPORTING: ReportingOptions = {
   significantFigures: 3,
   rounding: 'half-even',
   aboveRange: '> range',
+};
+
+/**
+ * Internal-standard response within 50–150 % of the mean response of the run's
+ * calibrators and QCs: common practice in bioanalysis (no single published source).
+ */
+export const GENERIC_INTERNAL_STANDARD: { window: Range; reference: readonly SampleType[] } = {
+  window: [50, 150],
+  reference: ['calibrator', 'qc'],
 };

@@ -105,6 +105,7 @@ const KNOWN_NAMES: Record<CanonicalField, readonly string[]> = {
   spike_conc: ['spike', 'spike conc', 'spike concentration', 'spike added', 'spike amount', 'spike level', 'added', 'nominal', 'nominal conc', 'nominal concentration', 'fortification', 'fortification level', 'true value', 'expected'],
   qc_level: ['level', 'concentration level'],
   reporting_limit: ['rl', 'mrl', 'loq', 'limit of quantitation', 'limit of quantification'],
+  istd_response: ['is response', 'istd response', 'is area', 'istd area', 'internal standard response', 'internal standard area', 'is peak area', 'istd peak area'],
 };
 
 /** Telling words, tried in this order on headers no name matched. */

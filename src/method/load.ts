@@ -7,9 +7,9 @@ import { LineCounter, parseDocument, isNode, isScalar, visit, type Document } fr
 import { StopError, fsReason } from '../errors.js';
 import { parseAcidBase } from '../chemistry/partition.js';
 import { FIELD_SPECS, isCanonicalField, type CanonicalField, type Dimension, type SampleType } from '../columns/fields.js';
-import { GENERIC_LIMITS, GENERIC_QC, GENERIC_REPORTING } from './defaults.js';
+import { GENERIC_INTERNAL_STANDARD, GENERIC_LIMITS, GENERIC_QC, GENERIC_REPORTING } from './defaults.js';
 import { methodSchemaValidator } from './schema-validator.js';
-import type { AnalyteInfo, FieldConfig, FormulaDef, LimitTable, Method, Rounding } from './types.js';
+import type { AnalyteInfo, FieldConfig, FormulaDef, LimitTable, Method, Range, Rounding } from './types.js';
 
 /** Significance levels of the Dixon's Q table phasebook carries (Rorabacher, Anal. Chem. 1991). */
 const DIXON_ALPHAS = [0.1, 0.05, 0.04, 0.02, 0.01];
@@ -247,6 +247,10 @@ export function parseMethod(text: string, options: { file: string }): Method {
       runRuleAll: raw.qc?.run_rule_all ?? GENERIC_QC.runRuleAll,
       runRulePerLevel: raw.qc?.run_rule_per_level ?? GENERIC_QC.runRulePerLevel,
     },
+    internalStandard: {
+      window: (raw.internal_standard?.window as Range | undefined) ?? GENERIC_INTERNAL_STANDARD.window,
+      reference: raw.internal_standard?.reference ?? GENERIC_INTERNAL_STANDARD.reference,
+    },
     reporting: {
       significantFigures: raw.reporting?.significant_figures ?? GENERIC_REPORTING.significantFigures,
       rounding: raw.reporting?.rounding ?? GENERIC_REPORTING.rounding,
@@ -364,6 +368,7 @@ interface RawMethod {
     run_rule_all?: number;
     run_rule_per_level?: number;
   };
+  internal_standard?: { window?: number[]; reference?: SampleType[] };
   reporting?: { significant_figures?: number; rounding?: Rounding; above_range?: string };
   calibration?: { includes_extraction?: boolean };
   formulas: Array<{ name: string; expr: string; unit?: string; description?: string }>;

@@ -83,6 +83,8 @@ export interface Method {
   defaults: { reporting_limit?: number };
   limits: LimitTable;
   qc: QcOptions;
+  /** How the istd_response field is judged (qc/row-rules.ts, ISTD_RESPONSE). */
+  internalStandard: { window: Range; reference: readonly SampleType[] };
   /** How results are reported in reported_result (qc/reported.ts). */
   reporting: ReportingOptions;
   /** true when the calibrators went through the extraction: no efficiency correction (engine/evaluate.ts checks the formula). */

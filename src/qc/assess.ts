@@ -80,6 +80,21 @@ export function assessQc(input: QcInput): QcResult {
     }
     if (why) notJudged.push({ row: r, column: t === 'dup' ? 'rpd_pct' : t === 'blank' ? 'pre_extraction_conc' : 'spike_recovery_pct', message: `not judged: ${why}` });
   }
+  // An internal-standard response with nothing to compare it with is not judged, and the note says so.
+  for (let r = 0; r < n; r++) {
+    const t = ctx.type[r];
+    if (input.rowError[r] || !t || t === 'calibrator' || !Number.isFinite(ctx.istdResponse[r]!)) continue;
+    const ref = ctx.istdReference[r]!;
+    if (Number.isFinite(ref) && ref > 0) continue;
+    const kinds = ctx.method.internalStandard.reference.join(' or ');
+    notJudged.push({
+      row: r,
+      column: 'istd_response',
+      message: Number.isFinite(ref)
+        ? `internal-standard response not judged: the mean response of this batch's ${kinds} rows is 0`
+        : `internal-standard response not judged: no ${kinds} row of this batch and analyte has a response to compare it with`,
+    });
+  }
   const outlierTest = findOutliers(ctx);
   for (const o of outlierTest.outliers) add(o.row, 'OUTLIER', o.finding);
   const notes: Note[] = [...notJudged, ...outlierTest.undecided.map((u) => ({ row: u.row, column: 'spike_recovery_pct', message: u.text }))];

@@ -55,6 +55,10 @@ export interface QcContext {
   isSurrogate(row: number): boolean;
   /** Divide an engine extract_conc by this to get it in the extract unit (the calibration range's unit). */
   extractUnitFactor: number;
+  /** istd_response as read (NaN when none). */
+  istdResponse: Float64Array;
+  /** Per row, the mean istd_response of its batch and analyte's reference rows (NaN when none). */
+  istdReference: Float64Array;
 }
 
 /** A rule's finding on one row, before it becomes a Flag. */
@@ -102,7 +106,38 @@ export function buildContext(input: QcInput): QcContext {
     isSurrogate: (r) => analyteOf(r)?.surrogate === true,
     // Calibration ranges are written in the extract unit; extract_conc is held in the sample unit (columns/map.ts).
     extractUnitFactor: conversionFactor(method.units.extract_concentration, method.units.concentration),
+    istdResponse: col('istd_response'),
+    istdReference: istdReference(input, col('istd_response'), text('batch_id'), analyteNames),
   };
+}
+
+/**
+ * The reference an internal-standard response is compared with: the mean response of
+ * the reference rows (calibrators and qc rows unless the method names others) of the
+ * same batch and analyte, over those with a response and no input error.
+ */
+function istdReference(input: QcInput, response: Float64Array, batch: readonly string[], analyte: readonly string[]): Float64Array {
+  const n = input.rowCount;
+  const out = new Float64Array(n).fill(NaN);
+  let any = false;
+  for (let r = 0; r < n && !any; r++) any = Number.isFinite(response[r]!);
+  if (!any) return out;
+  const reference = new Set<string>(input.method.internalStandard.reference);
+  const sums = new Map<string, { sum: number; n: number }>();
+  const key = (r: number) => `${batch[r]}\u0000${analyte[r]}`;
+  for (let r = 0; r < n; r++) {
+    const t = input.sampleType[r]!;
+    if (!reference.has(t) || input.rowError[r] || !Number.isFinite(response[r]!)) continue;
+    const s = sums.get(key(r)) ?? { sum: 0, n: 0 };
+    s.sum += response[r]!;
+    s.n += 1;
+    sums.set(key(r), s);
+  }
+  for (let r = 0; r < n; r++) {
+    const s = sums.get(key(r));
+    if (s) out[r] = s.sum / s.n;
+  }
+  return out;
 }
 
 export function toFlag(ctx: QcContext, row: number, code: FlagCode, f: Finding): Flag {

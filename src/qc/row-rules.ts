@@ -99,6 +99,24 @@ export const ROW_RULES: readonly RowRule[] = [
     },
   },
   {
+    code: 'ISTD_RESPONSE',
+    description: "internal-standard response outside the method's window (default 50–150 %) of the mean response of the batch and analyte's calibrators and qc rows, limits inclusive",
+    check(ctx, r) {
+      const x = ctx.istdResponse[r]!;
+      const ref = ctx.istdReference[r]!;
+      if (!finite(x) || !finite(ref) || ref <= 0) return undefined; // no response, or nothing to compare with (a note says so)
+      const pct = (x / ref) * 100;
+      const window = ctx.method.internalStandard.window;
+      if (!isBelow(pct, window[0]) && !isAbove(pct, window[1])) return undefined;
+      return {
+        column: 'istd_response',
+        text: `internal-standard response ${fmt(x)} is ${fmt(pct)} % of the mean ${fmt(ref)} of this batch's ${ctx.method.internalStandard.reference.join(' and ')} rows: expected ${formatRange(window)}`,
+        value: pct,
+        limit: formatRange(window),
+      };
+    },
+  },
+  {
     code: 'NO_PARENT',
     description: 'an ms, msd or dup whose parent_id names no sample row of its analyte; its recovery or RPD stays empty',
     check(ctx, r) {

@@ -90,12 +90,17 @@ export interface Headline {
  */
 export function headline(
   verdict: 'pass' | 'fail',
-  counts: { controls: number; failed: number; tolerated: number; inputErrors: number; surrogateSamples?: number },
+  counts: { controls: number; failed: number; tolerated: number; inputErrors: number; surrogateSamples?: number; istdSamples?: number },
 ): Headline {
   const h = headlineOf(verdict, counts);
   // A surrogate outside its limits qualifies its sample without failing anything: still said, never hidden behind "passed".
+  // So does a sample row whose internal-standard response is outside the window.
   const s = counts.surrogateSamples ?? 0;
-  return s > 0 ? { ...h, sentence: `${h.sentence}; ${s.toLocaleString('en-US')} sample${s === 1 ? ' is' : 's are'} qualified by a surrogate outside its limits` } : h;
+  const i = counts.istdSamples ?? 0;
+  let sentence = h.sentence;
+  if (s > 0) sentence += `; ${s.toLocaleString('en-US')} sample${s === 1 ? ' is' : 's are'} qualified by a surrogate outside its limits`;
+  if (i > 0) sentence += `; ${i.toLocaleString('en-US')} sample result${i === 1 ? ' has' : 's have'} an internal-standard response outside its window`;
+  return sentence === h.sentence ? h : { ...h, sentence };
 }
 
 function headlineOf(verdict: 'pass' | 'fail', counts: { controls: number; failed: number; tolerated: number; inputErrors: number }): Headline {

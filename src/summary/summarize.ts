@@ -222,10 +222,10 @@ export function summarize(input: SummaryInput): { groups: GroupSummary[]; overal
     tolerated: (r) => toleratedRows.has(r),
   });
   // Counts per batch ('' for a worklist without batch ids) and over the whole worklist.
-  const countsOf = new Map<string, { controls: number; failed: number; tolerated: number; inputErrors: number; surrogateSamples: number }>();
+  const countsOf = new Map<string, { controls: number; failed: number; tolerated: number; inputErrors: number; surrogateSamples: number; istdSamples: number }>();
   const countFor = (b: string) => {
     let c = countsOf.get(b);
-    if (!c) countsOf.set(b, (c = { controls: 0, failed: 0, tolerated: 0, inputErrors: 0, surrogateSamples: 0 }));
+    if (!c) countsOf.set(b, (c = { controls: 0, failed: 0, tolerated: 0, inputErrors: 0, surrogateSamples: 0, istdSamples: 0 }));
     return c;
   };
   // Samples (batch and sample id) qualified by a surrogate, each counted once.
@@ -238,6 +238,7 @@ export function summarize(input: SummaryInput): { groups: GroupSummary[]; overal
   }
   for (let r = 0; r < n; r++) {
     const c = countFor(batch[r]!);
+    if (input.qc.status[r] === '' && has(r, 'ISTD_RESPONSE')) c.istdSamples++;
     if (input.qc.status[r] !== '') c.controls++;
     if (input.rowError[r]) c.inputErrors++;
   }
@@ -246,7 +247,7 @@ export function summarize(input: SummaryInput): { groups: GroupSummary[]; overal
     c.failed++;
     if (f.tolerated) c.tolerated++;
   }
-  const total = { controls: 0, failed: 0, tolerated: 0, inputErrors: 0, surrogateSamples: 0 };
+  const total = { controls: 0, failed: 0, tolerated: 0, inputErrors: 0, surrogateSamples: 0, istdSamples: 0 };
   for (const c of countsOf.values()) for (const k of Object.keys(total) as (keyof typeof total)[]) total[k] += c[k];
 
   const batches: BatchVerdict[] = [];

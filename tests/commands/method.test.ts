@@ -83,7 +83,7 @@ describe('method draft', () => {
     expect(r.stdout).toMatch(/^# yaml-language-server: \$schema=templates\/method\.schema\.json$/m); // relative to the working folder
     expect(r.stderr).toBe(
       [
-        'phasebook: placed 11 of 14 headers on canonical fields',
+        'phasebook: placed 12 of 15 headers on canonical fields',
         '  not placed: "Well", "Inj Vol [µL]", "Comment"',
         '  sample-type codes: 4 found, 2 guessed',
         '  analytes: 2 found, their data to fill in',

@@ -15,4 +15,4 @@ export function rawTable(headers: string[], rows: RawCell[][], options: { decima
 }
 
 /** The canonical fields a typical canonical worklist carries (all but log_k, qc_level and reporting_limit). */
-export const CANONICAL_HEADERS: string[] = CANONICAL_FIELDS.filter((f) => f !== 'log_k' && f !== 'qc_level' && f !== 'reporting_limit');
+export const CANONICAL_HEADERS: string[] = CANONICAL_FIELDS.filter((f) => f !== 'log_k' && f !== 'qc_level' && f !== 'reporting_limit' && f !== 'istd_response');

@@ -22,6 +22,7 @@ export const FLAG_MEANINGS: Record<FlagCode, string> = {
   BLANK_HIT: 'a blank at or above the reporting limit',
   BELOW_RL: 'a sample result below the reporting limit',
   OVER_RANGE: "the extract concentration is above the analyte's calibration range",
+  ISTD_RESPONSE: "the internal-standard response is outside the method's window around the mean response of the batch's calibrators and qc rows (common practice: 50–150 %); it fails a control and qualifies a sample",
   OUTLIER: "a statistical outlier among the recoveries of its group (Grubbs' or Dixon's test)",
   NOT_DETECTED: 'the instrument reported the result as not detected (ND, n.d., BLQ, < 0.5, …): no concentration is computed; a blank so is clean, a spiked control has recovered nothing, a sample is below its reporting limit',
   NO_PARENT: 'an ms, msd or dup whose parent_id names no sample row of its analyte',
