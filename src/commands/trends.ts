@@ -50,7 +50,8 @@ async function runTrends(opts: TrendsCliOptions): Promise<string> {
 
 function describeSeries(s: TrendSeries): string {
   const l = s.limits;
-  const lines = [`${s.analyte}, ${s.sampleType || '(no sample type)'}: n ${l.n}, mean ${pct(l.mean)}, SD ${pct(l.sd)}`];
+  const level = s.level ? ` level ${s.level}` : '';
+  const lines = [`${s.analyte}, ${s.sampleType || '(no sample type)'}${level}: n ${l.n}, mean ${pct(l.mean)}, SD ${pct(l.sd)}`];
   if (!l.sufficient) {
     lines.push(`  no in-house limits yet: ${MIN_POINTS} recoveries needed, ${l.n} recorded`);
   } else {
@@ -60,7 +61,9 @@ function describeSeries(s: TrendSeries): string {
     else {
       lines.push('  Westgard rules:');
       for (const v of s.violations) {
-        lines.push(`    ${v.rule}${v.severity === 'warning' ? ' (warning)' : ''} at batch "${v.batchId}", recovery ${pct(v.value)}`);
+        const p = s.points[v.index]!;
+        const where = `run ${p.runId} (${p.worklistName}, ${p.runTime}), batch "${v.batchId}", sample "${p.sampleId}"${s.level ? `, level ${s.level}` : ''}`;
+        lines.push(`    ${v.rule}${v.severity === 'warning' ? ' (warning)' : ''} at ${where}, recovery ${pct(v.value)}`);
       }
     }
   }

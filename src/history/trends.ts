@@ -5,7 +5,8 @@
  * Which points: every recorded control row of that analyte and sample type with
  * a recovery (blanks and duplicates carry none), from every run in the history,
  * in run order (run time, then the order the runs were recorded, then worklist
- * row). qc rows of all levels form one series. Limits use all of them, and only
+ * row). Each QC level is a series of its own (issue 14: a low QC and a high QC
+ * are different controls), as is any control type whose rows carry a level. Limits use all of them, and only
  * from 20 points on (US EPA SW-846 Method 8000 practice; REFERENCES.md §2);
  * below that the series has mean and SD but no limits, and no rule is judged.
  * The rules run over the whole series against those limits.
@@ -37,6 +38,8 @@ export interface TrendPoint {
 export interface TrendSeries {
   analyte: string;
   sampleType: string;
+  /** The QC level (lower case; '' for a series without levels). */
+  level: string;
   /** In run order. */
   points: TrendPoint[];
   limits: RecoveryLimits;
@@ -53,6 +56,7 @@ export interface TrendOptions {
 export interface TrendJson {
   analyte: string;
   sample_type: string;
+  qc_level: string | null;
   n: number;
   mean: number | null;
   sd: number | null;
@@ -60,14 +64,24 @@ export interface TrendJson {
   warning_high: number | null;
   control_low: number | null;
   control_high: number | null;
-  rules: Array<{ rule: WestgardRule; batch_id: string; value: number }>;
+  rules: Array<{ rule: WestgardRule; run: number; run_time: string; worklist: string; batch_id: string; sample_id: string; row: number; qc_level: string | null; value: number }>;
 }
 
 /** What a series needs of a history row. */
 export type TrendRow = Pick<
   HistoryRow,
-  'runId' | 'runTime' | 'worklistName' | 'worklistSha256' | 'batchId' | 'sampleId' | 'rowNumber' | 'analyte' | 'sampleType' | 'recoveryPct'
+  'runId' | 'runTime' | 'worklistName' | 'worklistSha256' | 'batchId' | 'sampleId' | 'rowNumber' | 'analyte' | 'sampleType' | 'qcLevel' | 'recoveryPct'
 >;
+
+/** A level as a series keys it: trimmed, lower case. */
+export const levelKey = (level: string): string => level.trim().toLowerCase();
+
+/** QC levels in concentration order, then any other level by name ('' first). */
+const LEVEL_ORDER = ['lloq', 'low', 'mid', 'medium', 'high', 'uloq'];
+export function compareLevels(a: string, b: string): number {
+  const rank = (l: string) => (l === '' ? -1 : LEVEL_ORDER.includes(l) ? LEVEL_ORDER.indexOf(l) : LEVEL_ORDER.length);
+  return rank(a) - rank(b) || (a < b ? -1 : a > b ? 1 : 0);
+}
 
 /**
  * Series per analyte and sample type from history rows (already in run order).
@@ -75,12 +89,13 @@ export type TrendRow = Pick<
  */
 export function buildTrends(rows: readonly TrendRow[], options: TrendOptions = {}): TrendSeries[] {
   const minPoints = options.minPoints ?? MIN_POINTS;
-  const byKey = new Map<string, { analyte: string; sampleType: string; points: TrendPoint[] }>();
+  const byKey = new Map<string, { analyte: string; sampleType: string; level: string; points: TrendPoint[] }>();
   for (const row of rows) {
     if (!Number.isFinite(row.recoveryPct)) continue;
-    const key = `${row.analyte}\u0000${row.sampleType}`;
+    const level = levelKey(row.qcLevel);
+    const key = `${row.analyte}\u0000${row.sampleType}\u0000${level}`;
     let s = byKey.get(key);
-    if (!s) byKey.set(key, (s = { analyte: row.analyte, sampleType: row.sampleType, points: [] }));
+    if (!s) byKey.set(key, (s = { analyte: row.analyte, sampleType: row.sampleType, level, points: [] }));
     s.points.push({
       runId: row.runId,
       runTime: row.runTime,
@@ -112,7 +127,11 @@ export function buildTrends(rows: readonly TrendRow[], options: TrendOptions = {
     return i < 0 ? SAMPLE_TYPES.length : i;
   };
   return series.sort((a, b) =>
-    a.analyte < b.analyte ? -1 : a.analyte > b.analyte ? 1 : typeRank(a.sampleType) - typeRank(b.sampleType) || (a.sampleType < b.sampleType ? -1 : 1),
+    a.analyte < b.analyte
+      ? -1
+      : a.analyte > b.analyte
+        ? 1
+        : typeRank(a.sampleType) - typeRank(b.sampleType) || (a.sampleType < b.sampleType ? -1 : a.sampleType > b.sampleType ? 1 : compareLevels(a.level, b.level)),
   );
 }
 
@@ -161,6 +180,7 @@ export function trendsJson(series: readonly TrendSeries[]): TrendJson[] {
     return {
       analyte: s.analyte,
       sample_type: s.sampleType,
+      qc_level: s.level || null,
       n: s.limits.n,
       mean: finiteOrNull(s.limits.mean),
       sd: finiteOrNull(s.limits.sd),
@@ -168,7 +188,10 @@ export function trendsJson(series: readonly TrendSeries[]): TrendJson[] {
       warning_high: ok ? finiteOrNull(s.limits.warningHigh) : null,
       control_low: ok ? finiteOrNull(s.limits.controlLow) : null,
       control_high: ok ? finiteOrNull(s.limits.controlHigh) : null,
-      rules: s.violations.map((v) => ({ rule: v.rule, batch_id: v.batchId, value: v.value })),
+      rules: s.violations.map((v) => {
+        const p = s.points[v.index]!;
+        return { rule: v.rule, run: p.runId, run_time: p.runTime, worklist: p.worklistName, batch_id: v.batchId, sample_id: p.sampleId, row: p.rowNumber, qc_level: s.level || null, value: v.value };
+      }),
     };
   });
 }
@@ -191,7 +214,7 @@ export function inHouseLimitsOf(rows: readonly HistoryRow[], options: TrendOptio
   const out = new Map<string, { low: number; high: number; n: number }>();
   for (const series of buildTrends(rows, options)) {
     const l = series.limits;
-    if (l.sufficient) out.set(inHouseKey(series.analyte, series.sampleType), { low: l.controlLow, high: l.controlHigh, n: l.n });
+    if (l.sufficient) out.set(inHouseKey(series.analyte, series.sampleType, series.level), { low: l.controlLow, high: l.controlHigh, n: l.n });
   }
   return out;
 }

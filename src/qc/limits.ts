@@ -8,8 +8,9 @@ import type { AnalyteInfo, ControlKind, LimitSet, Method, Range } from '../metho
  */
 export type InHouseLimits = ReadonlyMap<string, { low: number; high: number; n: number }>;
 
-export function inHouseKey(analyte: string, sampleType: string): string {
-  return `${analyte.trim().toLowerCase()}\u0000${sampleType}`;
+/** Per analyte, control type and QC level ('' for rows without a level): each level has limits of its own. */
+export function inHouseKey(analyte: string, sampleType: string, level = ''): string {
+  return `${analyte.trim().toLowerCase()}\u0000${sampleType}\u0000${level.trim().toLowerCase()}`;
 }
 
 export interface AppliedLimits {
@@ -70,10 +71,11 @@ export function limitsFor(
   // A method that asks for in-house limits gets them where the history holds enough points.
   const name = row.analyte?.name ?? row.analyteName;
   if (method.qc.limitsSource === 'in_house' && inHouse && name !== undefined && out.recovery) {
-    const own = inHouse.get(inHouseKey(name, row.sampleType));
+    const own = inHouse.get(inHouseKey(name, row.sampleType, row.qcLevel));
     if (own) {
       out.recovery = [own.low, own.high];
-      origins[0] = `recovery from in-house control limits (mean ± 3s of ${own.n} ${row.sampleType} points in the QC history)`;
+      const level = row.qcLevel.trim() ? ` ${row.qcLevel.trim().toLowerCase()}` : '';
+      origins[0] = `recovery from in-house control limits (mean ± 3s of ${own.n} ${row.sampleType}${level} points in the QC history)`;
     }
   }
   out.origin = origins.join('; ') || 'none';

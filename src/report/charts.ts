@@ -140,7 +140,7 @@ export function controlChartSpec(series: TrendSeries, options: { isCurrent: (ind
     width: Math.min(900, Math.max(320, 14 * n)),
     height: 220,
     config: CONFIG,
-    description: `Control chart of ${series.analyte} ${series.sampleType} recoveries in run order`,
+    description: `Control chart of ${series.analyte} ${series.sampleType}${series.level ? ` level ${series.level}` : ""} recoveries in run order`,
     layer: [
       {
         name: CONTROL_LAYERS.lines,

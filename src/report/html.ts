@@ -311,8 +311,8 @@ async function historySection(result: RecalcResult, batch: string, history: read
       ? `n ${l.n}, mean ${num(l.mean, 2)} %, SD ${num(l.sd, 2)} %; warning limits ${num(l.warningLow, 1)}–${num(l.warningHigh, 1)} %, control limits ${num(l.controlLow, 1)}–${num(l.controlHigh, 1)} %; ${s.violations.length} rule violation${s.violations.length === 1 ? '' : 's'}.`
       : `n ${l.n}${Number.isFinite(l.mean) ? `, mean ${num(l.mean, 2)} %` : ''}${Number.isFinite(l.sd) ? `, SD ${num(l.sd, 2)} %` : ''}; no in-house limits yet: ${MIN_POINTS} points needed, so no rule is judged.`;
     const marked = new Set(s.violations.map((v) => v.index)).size;
-    return html`<h3>${analyte}, ${s.sampleType}</h3>
-<figure class="chart" data-chart="control" data-analyte="${analyte}" data-sample-type="${s.sampleType}" data-points="${s.points.length}" data-violations="${marked}" data-layer="${CONTROL_LAYERS.points}">
+    return html`<h3>${analyte}, ${s.sampleType}${s.level ? `, level ${s.level}` : ''}</h3>
+<figure class="chart" data-chart="control" data-analyte="${analyte}" data-sample-type="${s.sampleType}" data-qc-level="${s.level}" data-points="${s.points.length}" data-violations="${marked}" data-layer="${CONTROL_LAYERS.points}">
 ${trusted(svg)}
 <figcaption>${caption}</figcaption>
 </figure>
@@ -323,11 +323,11 @@ ${s.violations.length ? violationsTable(s, isCurrent) : ''}`;
 
 function violationsTable(s: TrendSeries, isCurrent: (i: number) => boolean): Markup {
   return html`<table class="violations">
-<thead><tr><th>Rule</th><th>Kind</th><th>Batch</th><th>Sample</th><th>Worklist</th><th class="num">Point</th><th class="num">Recovery (%)</th></tr></thead>
+<thead><tr><th>Rule</th><th>Kind</th><th class="num">Run</th><th>Batch</th><th>Sample</th><th>Level</th><th>Worklist</th><th class="num">Point</th><th class="num">Recovery (%)</th></tr></thead>
 <tbody>
 ${s.violations.map((v) => {
   const p = s.points[v.index]!;
-  return html`<tr class="${isCurrent(v.index) ? 'current' : ''}"><td class="mono">${v.rule}</td><td class="${v.severity === 'reject' ? 'fail' : ''}">${v.severity === 'reject' ? 'rejection' : 'warning'}</td><td>${p.batchId}</td><td>${p.sampleId}</td><td>${p.worklistName}</td><td class="num">${v.index + 1}</td><td class="num">${num(v.value, 1)}</td></tr>
+  return html`<tr class="${isCurrent(v.index) ? 'current' : ''}"><td class="mono">${v.rule}</td><td class="${v.severity === 'reject' ? 'fail' : ''}">${v.severity === 'reject' ? 'rejection' : 'warning'}</td><td class="num">${p.runId}</td><td>${p.batchId}</td><td>${p.sampleId}</td><td>${s.level}</td><td>${p.worklistName}</td><td class="num">${v.index + 1}</td><td class="num">${num(v.value, 1)}</td></tr>
 `;
 })}</tbody>
 </table>`;

@@ -22,6 +22,7 @@ const at = (header: (typeof POINT_HEADERS)[number]): number => POINT_HEADERS.ind
 const FIELD = {
   analyte: at('analyte'),
   sampleType: at('sample type'),
+  qcLevel: at('qc level'),
   runId: at('run'),
   runTime: at('run time'),
   worklistName: at('worklist'),
@@ -59,6 +60,7 @@ export function storedTrends(sheet: StoredSheet, options: { defaultMinPoints: nu
       rows.push({
         analyte: text(v[FIELD.analyte]!),
         sampleType: text(v[FIELD.sampleType]!),
+        qcLevel: text(v[FIELD.qcLevel]!),
         runId: number(v[FIELD.runId]!),
         runTime: text(v[FIELD.runTime]!),
         worklistName: text(v[FIELD.worklistName]!),

@@ -253,14 +253,14 @@ function storedInHouseLimits(sheet: StoredSheet): InHouseLimits | undefined {
   for (let r = title + 2; r <= sheet.lastRow; r++) {
     const cells = sheet.row(r);
     if (cells.size === 0) break;
-    const [analyte, type, low, high, n] = [1, 2, 3, 4, 5].map((c) => cells.get(c)?.value);
+    const [analyte, type, level, low, high, n] = [1, 2, 3, 4, 5, 6].map((c) => cells.get(c)?.value);
     if (typeof low !== 'number' || typeof high !== 'number') continue;
-    out.set(inHouseKey(String(analyte ?? ''), String(type ?? '')), { low, high, n: typeof n === 'number' ? n : 0 });
+    out.set(inHouseKey(String(analyte ?? ''), String(type ?? ''), String(level ?? '')), { low, high, n: typeof n === 'number' ? n : 0 });
   }
   return out;
 }
 
-/** The stored acceptance limits table (six columns) and in-house limits table (five), for the digest. */
+/** The stored acceptance limits table and in-house limits table (six columns each), for the digest. */
 function storedLimits(sheet: StoredSheet): CellValue[][] {
   const rows: CellValue[][] = [];
   const table = (title: string, width: number) => {
@@ -273,7 +273,7 @@ function storedLimits(sheet: StoredSheet): CellValue[][] {
     }
   };
   table(LIMITS_TITLE, 6);
-  table(IN_HOUSE_TITLE, 5);
+  table(IN_HOUSE_TITLE, 6);
   return rows;
 }
 

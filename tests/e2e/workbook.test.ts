@@ -63,11 +63,15 @@ describe('recalc writes the workbook', () => {
     const path = join(out, 'tarnmoor-tmr204-run07.xlsx');
     const trends = (await readBook(path)).getWorksheet('Trends')!;
     expect(valueByKey(trends, 'QC history')).toBe('qc-history.db');
-    // The plasma demo's qc rows (all levels) form one series.
-    const header = rowWith(trends, 'Series: one per analyte and control type') + 1;
-    expect(plain(trends.getCell(`A${header + 1}`))).toBe('Amitriptyline');
-    expect(plain(trends.getCell(`B${header + 1}`))).toBe('qc');
-    expect(plain(trends.getCell(`C${header + 1}`))).toBeGreaterThan(0);
+    // The plasma demo's qc rows: one series per level, in concentration order (issue 14).
+    const header = rowWith(trends, 'Series: one per analyte, control type and QC level') + 1;
+    const series = [1, 2, 3, 4].map((i) => [1, 2, 3, 4].map((c) => plain(trends.getCell(header + i, c))));
+    expect(series).toEqual([
+      ['Amitriptyline', 'qc', 'lloq', 3],
+      ['Amitriptyline', 'qc', 'low', 3],
+      ['Amitriptyline', 'qc', 'mid', 3],
+      ['Amitriptyline', 'qc', 'high', 3],
+    ]);
     const v = runCli(['verify', path]);
     expect(v.code, v.stdout + v.stderr).toBe(0);
   });

@@ -9,10 +9,11 @@ import { runCommand } from '../helpers/command.js';
 import { StopError } from '../../src/errors.js';
 import type { HistoryRow } from '../../src/history/records.js';
 import { recordRun } from '../../src/history/store.js';
-import { buildTrends, readTrends, trendsIncludingRun, trendsJson, type TrendJson } from '../../src/history/trends.js';
+import { buildTrends, inHouseLimitsOf, readTrends, trendsIncludingRun, trendsJson, type TrendJson } from '../../src/history/trends.js';
+import { inHouseKey } from '../../src/qc/limits.js';
 import { REFERENCE_LCS, lcsRun, recalcRows, runTime } from '../report/fixtures.js';
 
-const JSON_KEYS = ['analyte', 'sample_type', 'n', 'mean', 'sd', 'warning_low', 'warning_high', 'control_low', 'control_high', 'rules'];
+const JSON_KEYS = ['analyte', 'sample_type', 'qc_level', 'n', 'mean', 'sd', 'warning_low', 'warning_high', 'control_low', 'control_high', 'rules'];
 
 let dir: string;
 /** 20 runs, LCS recoveries REFERENCE_LCS in run order. */
@@ -64,6 +65,7 @@ describe('trends from a recorded history', () => {
     expect(lcs).toEqual({
       analyte: 'Atrazine',
       sample_type: 'lcs',
+      qc_level: null,
       n: 19,
       mean: expect.closeTo(98.21052631578948, 9),
       sd: expect.closeTo(3.8669388893889964, 9),
@@ -83,10 +85,10 @@ describe('trends from a recorded history', () => {
     expect(lcs!.sd).toBeCloseTo(5.541070582790225, 9);
     expect(lcs!.warning_high).toBeCloseTo(110.76395934739864, 9);
     expect(lcs!.control_high).toBeCloseTo(116.30502993018887, 9);
-    expect(lcs!.rules).toEqual([
-      { rule: '1-2s', batch_id: 'B21', value: expect.closeTo(112, 9) },
-      { rule: '1-2s', batch_id: 'B22', value: expect.closeTo(113, 9) },
-      { rule: '2-2s', batch_id: 'B22', value: expect.closeTo(113, 9) },
+    expect(lcs!.rules.map((r) => ({ rule: r.rule, run: r.run, batch_id: r.batch_id, value: r.value, qc_level: r.qc_level }))).toEqual([
+      { rule: '1-2s', run: 21, batch_id: 'B21', value: expect.closeTo(112, 9), qc_level: null },
+      { rule: '1-2s', run: 22, batch_id: 'B22', value: expect.closeTo(113, 9), qc_level: null },
+      { rule: '2-2s', run: 22, batch_id: 'B22', value: expect.closeTo(113, 9), qc_level: null },
     ]);
   });
 });
@@ -117,21 +119,38 @@ function row(over: Partial<HistoryRow>): HistoryRow {
 }
 
 describe('buildTrends', () => {
-  it('makes one series per analyte and sample type, sorted by analyte then type, skipping rows without a recovery', () => {
+  it('makes one series per analyte, sample type and QC level, sorted by analyte, type, then level in concentration order, skipping rows without a recovery', () => {
     const series = buildTrends([
       row({ analyte: 'Simazine', sampleType: 'ms' }),
-      row({ analyte: 'Atrazine', sampleType: 'qc', qcLevel: 'low' }),
       row({ analyte: 'Atrazine', sampleType: 'qc', qcLevel: 'high' }),
+      row({ analyte: 'Atrazine', sampleType: 'qc', qcLevel: 'Low' }),
+      row({ analyte: 'Atrazine', sampleType: 'qc', qcLevel: 'low ' }),
+      row({ analyte: 'Atrazine', sampleType: 'qc', qcLevel: 'LLOQ' }),
       row({ analyte: 'Atrazine', sampleType: 'lcs' }),
       row({ analyte: 'Atrazine', sampleType: 'blank', recoveryPct: NaN }),
       row({ analyte: 'Atrazine', sampleType: 'dup', recoveryPct: NaN, rpdPct: 4 }),
     ]);
-    // qc rows of every level form one series (README-history.md).
-    expect(series.map((s) => [s.analyte, s.sampleType, s.points.length])).toEqual([
-      ['Atrazine', 'lcs', 1],
-      ['Atrazine', 'qc', 2],
-      ['Simazine', 'ms', 1],
+    // Each QC level is its own series (issue 14), levels compared without case or spaces.
+    expect(series.map((s) => [s.analyte, s.sampleType, s.level, s.points.length])).toEqual([
+      ['Atrazine', 'lcs', '', 1],
+      ['Atrazine', 'qc', 'lloq', 1],
+      ['Atrazine', 'qc', 'low', 2],
+      ['Atrazine', 'qc', 'high', 1],
+      ['Simazine', 'ms', '', 1],
     ]);
+  });
+
+  it('gives each QC level in-house limits of its own', () => {
+    // REFERENCES.md §2's 20 LCS recoveries as the low QC, and the same shifted up by 10 as the high QC:
+    // mean 98.40 and 108.40, the same s 3.8580, so control limits 86.83–109.97 and 96.83–119.97.
+    const rows = REFERENCE_LCS.flatMap((v, i) => [
+      row({ sampleType: 'qc', qcLevel: 'Low', recoveryPct: v, runId: i + 1, batchId: `B${i}` }),
+      row({ sampleType: 'qc', qcLevel: 'high', recoveryPct: v + 10, runId: i + 1, batchId: `B${i}` }),
+    ]);
+    const limits = inHouseLimitsOf(rows);
+    expect(limits.get(inHouseKey('Atrazine', 'qc', 'low'))).toMatchObject({ low: expect.closeTo(86.83, 2), high: expect.closeTo(109.97, 2), n: 20 });
+    expect(limits.get(inHouseKey('Atrazine', 'qc', 'HIGH'))).toMatchObject({ low: expect.closeTo(96.83, 2), high: expect.closeTo(119.97, 2), n: 20 });
+    expect(limits.get(inHouseKey('Atrazine', 'qc'))).toBeUndefined();
   });
 
   it('honours a smaller minimum for limits when asked', () => {
@@ -147,7 +166,7 @@ describe('buildTrends', () => {
     const same = [...base, row({ recoveryPct: 112, runId: 30, batchId: 'B9' }), row({ recoveryPct: 88, runId: 30, batchId: 'B9' })];
     const apart = [...base, row({ recoveryPct: 112, runId: 30, batchId: 'B9' }), row({ recoveryPct: 88, runId: 31, batchId: 'B9' })];
     const r4 = (rows: HistoryRow[]) => trendsJson(buildTrends(rows))[0]!.rules.filter((r) => r.rule === 'R-4s');
-    expect(r4(same)).toEqual([{ rule: 'R-4s', batch_id: 'B9', value: 88 }]);
+    expect(r4(same)).toEqual([{ rule: 'R-4s', run: 30, run_time: runTime(1), worklist: 'w.csv', batch_id: 'B9', sample_id: 'S', row: 2, qc_level: null, value: 88 }]);
     expect(r4(apart)).toEqual([]);
   });
 });
@@ -197,9 +216,9 @@ describe('the trends command', () => {
     const json = JSON.parse(out) as TrendJson[];
     expect(json.map((o) => Object.keys(o))).toEqual([JSON_KEYS]);
     expect(json[0]!.rules.map((r) => Object.keys(r))).toEqual([
-      ['rule', 'batch_id', 'value'],
-      ['rule', 'batch_id', 'value'],
-      ['rule', 'batch_id', 'value'],
+      ['rule', 'run', 'run_time', 'worklist', 'batch_id', 'sample_id', 'row', 'qc_level', 'value'],
+      ['rule', 'run', 'run_time', 'worklist', 'batch_id', 'sample_id', 'row', 'qc_level', 'value'],
+      ['rule', 'run', 'run_time', 'worklist', 'batch_id', 'sample_id', 'row', 'qc_level', 'value'],
     ]);
   });
 
@@ -211,9 +230,9 @@ describe('the trends command', () => {
         '  warning limits 88.60 % to 110.76 % (mean ± 2s)',
         '  control limits 83.06 % to 116.31 % (mean ± 3s)',
         '  Westgard rules:',
-        '    1-2s (warning) at batch "B21", recovery 112.00 %',
-        '    1-2s (warning) at batch "B22", recovery 113.00 %',
-        '    2-2s at batch "B22", recovery 113.00 %',
+        '    1-2s (warning) at run 21 (run-21.csv, 2026-01-21T10:00:00.000Z), batch "B21", sample "B21-LCS", recovery 112.00 %',
+        '    1-2s (warning) at run 22 (run-22.csv, 2026-01-22T10:00:00.000Z), batch "B22", sample "B22-LCS", recovery 113.00 %',
+        '    2-2s at run 22 (run-22.csv, 2026-01-22T10:00:00.000Z), batch "B22", sample "B22-LCS", recovery 113.00 %',
         '',
       ].join('\n'),
     );

@@ -108,8 +108,8 @@ describe('renderReport', () => {
     // mean 99.68, s 5.541 (Python statistics over the 22 values) → ±2s 88.6–110.8, ±3s 83.1–116.3.
     expect(fig).toContain('n 22, mean 99.68 %, SD 5.54 %; warning limits 88.6–110.8 %, control limits 83.1–116.3 %; 3 rule violations.');
     const table = reportB22.slice(reportB22.indexOf('<table class="violations">'));
-    expect(table).toContain('<tr class=""><td class="mono">1-2s</td><td class="">warning</td><td>B21</td>');
-    expect(table).toContain('<tr class="current"><td class="mono">2-2s</td><td class="fail">rejection</td><td>B22</td><td>B22-LCS</td><td>current.csv</td><td class="num">22</td><td class="num">113.0</td></tr>');
+    expect(table).toContain('<tr class=""><td class="mono">1-2s</td><td class="">warning</td><td class="num">21</td><td>B21</td><td>B21-LCS</td>');
+    expect(table).toContain('<tr class="current"><td class="mono">2-2s</td><td class="fail">rejection</td><td class="num">22</td><td>B22</td><td>B22-LCS</td><td></td><td>current.csv</td><td class="num">22</td><td class="num">113.0</td></tr>');
   });
 
   it('says when a series has too few points for limits, and draws the mean only', () => {

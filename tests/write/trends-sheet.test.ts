@@ -73,9 +73,10 @@ describe('planTrendsSheet', () => {
     json.forEach((s, i) => {
       const c = shown[i]!.cells.map(value);
       const blank = (x: number | null) => x ?? '';
-      expect(c.slice(0, 9), `${s.analyte} ${s.sample_type}`).toEqual([
+      expect(c.slice(0, 10), `${s.analyte} ${s.sample_type}`).toEqual([
         s.analyte,
         s.sample_type,
+        s.qc_level ?? null,
         s.n,
         s.mean,
         blank(s.sd),
@@ -84,7 +85,7 @@ describe('planTrendsSheet', () => {
         blank(s.control_low),
         blank(s.control_high),
       ]);
-      expect(c[9]).toBe(s.rules.length);
+      expect(c[10]).toBe(s.rules.length);
     });
   });
 
@@ -93,18 +94,18 @@ describe('planTrendsSheet', () => {
     const shown = seriesRows(all);
     history.forEach((s, i) => {
       const { row, cells } = shown[i]!;
-      const m = /^COUNT\(K(\d+):K(\d+)\)$/.exec(cells[2]!.formula ?? '');
-      expect(m, cells[2]!.formula).not.toBeNull();
+      const m = /^COUNT\(L(\d+):L(\d+)\)$/.exec(cells[3]!.formula ?? '');
+      expect(m, cells[3]!.formula).not.toBeNull();
       const [first, last] = [Number(m![1]), Number(m![2])];
       expect(last - first + 1).toBe(s.points.length);
       for (let r = first; r <= last; r++) {
         const p = all[r - 1]!;
-        expect([value(p[0]), value(p[1]), value(p[2]), value(p[10])]).toEqual([s.analyte, s.sampleType, r - first + 1, s.points[r - first]!.value]);
+        expect([value(p[0]), value(p[1]), value(p[2]), value(p[3]), value(p[11])]).toEqual([s.analyte, s.sampleType, s.level || null, r - first + 1, s.points[r - first]!.value]);
       }
-      expect(cells[3]!.formula).toBe(`AVERAGE(K${first}:K${last})`);
-      expect(cells[4]!.formula).toBe(`IF(C${row}>=2,STDEV(K${first}:K${last}),"")`);
-      expect(cells[5]!.formula).toBe(`IF(C${row}>=$B$3,D${row}-2*E${row},"")`);
-      expect(cells[8]!.formula).toBe(`IF(C${row}>=$B$3,D${row}+3*E${row},"")`);
+      expect(cells[4]!.formula).toBe(`AVERAGE(L${first}:L${last})`);
+      expect(cells[5]!.formula).toBe(`IF(D${row}>=2,STDEV(L${first}:L${last}),"")`);
+      expect(cells[6]!.formula).toBe(`IF(D${row}>=$B$3,E${row}-2*F${row},"")`);
+      expect(cells[9]!.formula).toBe(`IF(D${row}>=$B$3,E${row}+3*F${row},"")`);
     });
     expect(all[2]!.map(value).slice(0, 2)).toEqual(['points needed for limits', 20]);
   });
@@ -114,21 +115,21 @@ describe('planTrendsSheet', () => {
     const start = rowOf(all, POINTS_TITLE) + 2;
     const lcs = all.slice(start - 1).filter((r) => r[0]?.value === 'Atrazine' && r[1]?.value === 'lcs');
     expect(lcs).toHaveLength(22);
-    const b21 = lcs.find((r) => r[7]?.value === 'B21')!;
-    expect(b21[10]!.mark).toBe('inform');
-    expect(b21[10]!.value as number).toBeCloseTo(112, 9);
-    expect(b21[10]!.note).toContain('1-2s (warning): one point beyond mean ± 2s');
-    expect(value(b21[12])).toBe('1-2s (warning)');
-    expect(value(b21[11])).toBeNull();
-    const b22 = lcs.find((r) => r[7]?.value === 'B22')!;
-    expect(b22[10]!.mark).toBe('fail');
-    expect(b22[10]!.value as number).toBeCloseTo(113, 9);
-    expect(value(b22[12])).toBe('1-2s (warning), 2-2s');
-    expect(value(b22[11])).toBe('yes');
-    expect(lcs.filter((r) => r[10]?.mark !== undefined)).toHaveLength(2);
+    const b21 = lcs.find((r) => r[8]?.value === 'B21')!;
+    expect(b21[11]!.mark).toBe('inform');
+    expect(b21[11]!.value as number).toBeCloseTo(112, 9);
+    expect(b21[11]!.note).toContain('1-2s (warning): one point beyond mean ± 2s');
+    expect(value(b21[13])).toBe('1-2s (warning)');
+    expect(value(b21[12])).toBeNull();
+    const b22 = lcs.find((r) => r[8]?.value === 'B22')!;
+    expect(b22[11]!.mark).toBe('fail');
+    expect(b22[11]!.value as number).toBeCloseTo(113, 9);
+    expect(value(b22[13])).toBe('1-2s (warning), 2-2s');
+    expect(value(b22[12])).toBe('yes');
+    expect(lcs.filter((r) => r[11]?.mark !== undefined)).toHaveLength(2);
     const series = seriesRows(all).find((s) => s.cells[0]?.value === 'Atrazine' && s.cells[1]?.value === 'lcs')!;
-    expect(series.cells[9]).toMatchObject({ value: 3, mark: 'fail' });
-    expect(value(series.cells[10])).toBe('1-2s (warning) ×2, 2-2s ×1');
+    expect(series.cells[10]).toMatchObject({ value: 3, mark: 'fail' });
+    expect(value(series.cells[11])).toBe('1-2s (warning) ×2, 2-2s ×1');
   });
 
   // REFERENCES.md §2, constructed numeric check: 20 LCS recoveries → mean 98.40, s (n − 1) 3.8580,
@@ -147,24 +148,25 @@ describe('planTrendsSheet', () => {
       rowNumber: 3,
       analyte: 'Atrazine',
       sampleType: 'lcs',
+      qcLevel: '',
       recoveryPct: v,
     }));
     const series = buildTrends(points);
     const all = rows(planTrendsSheet(current, { history: { file: 'h.db', series }, minPoints: 20 }).plan);
     const c = seriesRows(all)[0]!.cells.map(value);
-    expect(c[2]).toBe(n);
+    expect(c[3]).toBe(n);
     if (expected === null) {
-      expect(c.slice(5, 9)).toEqual(['', '', '', '']);
-      expect(c[10]).toBe('no limits yet: 19 of the points needed');
+      expect(c.slice(6, 10)).toEqual(['', '', '', '']);
+      expect(c[11]).toBe('no limits yet: 19 of the points needed');
       return;
     }
     const [mean, sd, lwl, uwl, lcl, ucl] = expected;
-    expect(c[3] as number).toBeCloseTo(mean!, 2);
-    expect(c[4] as number).toBeCloseTo(sd!, 4);
-    expect(c[5] as number).toBeCloseTo(lwl!, 2);
-    expect(c[6] as number).toBeCloseTo(uwl!, 2);
-    expect(c[7] as number).toBeCloseTo(lcl!, 2);
-    expect(c[8] as number).toBeCloseTo(ucl!, 2);
+    expect(c[4] as number).toBeCloseTo(mean!, 2);
+    expect(c[5] as number).toBeCloseTo(sd!, 4);
+    expect(c[6] as number).toBeCloseTo(lwl!, 2);
+    expect(c[7] as number).toBeCloseTo(uwl!, 2);
+    expect(c[8] as number).toBeCloseTo(lcl!, 2);
+    expect(c[9] as number).toBeCloseTo(ucl!, 2);
   });
 
   it('says so when the run was given no history, or the history holds no recoveries', () => {
@@ -191,13 +193,13 @@ describe('the written Trends sheet', () => {
     await editCopy(workbook, edited, (wb) => {
       const ws = wb.getWorksheet(TRENDS_SHEET)!;
       at = rowWith(ws, POINTS_TITLE) + 2; // the first point
-      ws.getCell(`K${at}`).value = 250;
+      ws.getCell(`L${at}`).value = 250;
     });
     const report = await verifyWorkbook(edited);
     expect(report.digestMatches).toBe(false);
     const trends = report.differences.filter((d) => d.sheet === TRENDS_SHEET);
     // The point's series (the first one) no longer has the mean the sheet shows.
-    expect(trends.map((d) => d.address)).toContain('D10');
+    expect(trends.map((d) => d.address)).toContain('E10');
   });
 
   it('verify names a statistic changed by hand', async () => {
@@ -205,13 +207,13 @@ describe('the written Trends sheet', () => {
     await editCopy(workbook, edited, (wb) => {
       const ws = wb.getWorksheet(TRENDS_SHEET)!;
       const row = rowWith(ws, SERIES_TITLE) + 2;
-      const c = ws.getCell(`D${row}`);
-      c.value = { formula: 'AVERAGE(K1:K2)', result: 50 } as ExcelJS.CellFormulaValue;
+      const c = ws.getCell(`E${row}`);
+      c.value = { formula: 'AVERAGE(L1:L2)', result: 50 } as ExcelJS.CellFormulaValue;
     });
     const report = await verifyWorkbook(edited);
     const d = report.differences.filter((x) => x.sheet === TRENDS_SHEET);
     expect(d.length).toBeGreaterThan(0);
-    expect(d[0]).toMatchObject({ address: 'D10' });
+    expect(d[0]).toMatchObject({ address: 'E10' });
   });
 
   it.skipIf(skipWithout('LibreOffice', isLibreOfficeAvailable()))(
@@ -232,12 +234,12 @@ describe('the written Trends sheet', () => {
       const json = trendsJson(history);
       json.forEach((s, i) => {
         const r = ws.getRow(first + i);
-        const got = [3, 4, 5, 6, 7, 8, 9].map((c) => plain(r.getCell(c)));
+        const got = [4, 5, 6, 7, 8, 9, 10].map((c) => plain(r.getCell(c)));
         const want = [s.n, s.mean, s.sd, s.warning_low, s.warning_high, s.control_low, s.control_high];
         got.forEach((g, k) => {
           const w = want[k];
-          if (w === null) expect(g === null || g === '', `${s.analyte} ${s.sample_type} ${SERIES_HEADERS[k + 2]}`).toBe(true);
-          else expect(close(g as number, w), `${s.analyte} ${s.sample_type} ${SERIES_HEADERS[k + 2]}: ${g} vs ${w}`).toBe(true);
+          if (w === null) expect(g === null || g === '', `${s.analyte} ${s.sample_type} ${SERIES_HEADERS[k + 3]}`).toBe(true);
+          else expect(close(g as number, w), `${s.analyte} ${s.sample_type} ${SERIES_HEADERS[k + 3]}: ${g} vs ${w}`).toBe(true);
         });
       });
     },

@@ -26,17 +26,24 @@ export const LINE_ENDS_KEY = 'line ends of the method file';
 export const IN_HOUSE_TITLE = 'In-house recovery limits applied (from the QC history)';
 
 /** The in-house limits that judged this run's controls, one per (analyte, control type), from the rows they judged. */
-export function inHouseApplied(result: RecalcResult): { analyte: string; type: string; low: number; high: number; n: number }[] {
-  const seen = new Map<string, { analyte: string; type: string; low: number; high: number; n: number }>();
+export function inHouseApplied(result: RecalcResult): { analyte: string; type: string; level: string; low: number; high: number; n: number }[] {
+  const seen = new Map<string, { analyte: string; type: string; level: string; low: number; high: number; n: number }>();
   const analyte = result.table.texts.get('analyte')!;
+  const qcLevel = result.table.texts.get('qc_level')!;
   result.qc.limits.forEach((lim, r) => {
     const m = /in-house control limits \(mean \u00b1 3s of (\d+) /.exec(lim?.origin ?? '');
     if (!m || !lim.recovery) return;
     const type = result.table.sampleType[r]!;
-    const key = `${analyte[r]!.trim().toLowerCase()}\u0000${type}`;
-    if (!seen.has(key)) seen.set(key, { analyte: analyte[r]!, type, low: lim.recovery[0], high: lim.recovery[1], n: Number(m[1]) });
+    const level = qcLevel[r]!.trim().toLowerCase();
+    const key = `${analyte[r]!.trim().toLowerCase()}\u0000${type}\u0000${level}`;
+    if (!seen.has(key)) seen.set(key, { analyte: analyte[r]!, type, level, low: lim.recovery[0], high: lim.recovery[1], n: Number(m[1]) });
   });
   return [...seen.values()];
+}
+
+/** The in-house limits table's rows, as the Method sheet writes them and the integrity digest takes them. */
+export function inHouseRows(result: RecalcResult): CellValue[][] {
+  return inHouseApplied(result).map((e) => [e.analyte, e.type, e.level || null, e.low, e.high, e.n]);
 }
 
 const LINE_END_TEXT: Record<string, string> = { '\n': 'LF', '\r\n': 'CRLF', '\r': 'CR' };
@@ -242,8 +249,8 @@ export function planMethodSheet(result: RecalcResult, options: { formulaForms?: 
   if (method.qc.limitsSource === 'in_house') {
     b.title(IN_HOUSE_TITLE, 'section');
     b.table(
-      ['analyte', 'control type', 'recovery low %', 'recovery high %', 'points'],
-      inHouseApplied(result).map((e) => [e.analyte, e.type, e.low, e.high, e.n]),
+      ['analyte', 'control type', 'qc level', 'recovery low %', 'recovery high %', 'points'],
+      inHouseRows(result),
     );
     b.blank();
   }

@@ -9,7 +9,7 @@ import type { RecalcResult } from '../../pipeline.js';
 import type { CellValue, SheetPlan } from './cells.js';
 import { sha256Text } from './digest.js';
 import { planFlagsSheet } from './flags-sheet.js';
-import { inHouseApplied, lineEndOf, lineEnds, limitRows, methodLines, planMethodSheet } from './method-sheet.js';
+import { inHouseRows, lineEndOf, lineEnds, limitRows, methodLines, planMethodSheet } from './method-sheet.js';
 import { DEFAULT_FORMULA_ROW_LIMIT, DEFAULT_MAX_NOTES, type RunInfo } from './options.js';
 import { describeFormat, planProvenanceSheet } from './provenance-sheet.js';
 import { planQcSheet } from './qc-sheet.js';
@@ -77,7 +77,7 @@ export function planWorkbook(result: RecalcResult, options: PlanOptions): Workbo
     methodTextSha: sha256Text(sheetTextOfMethod),
     limits: [
       ...limitRows(result.method),
-      ...(result.method.qc.limitsSource === 'in_house' ? inHouseApplied(result).map((e) => [e.analyte, e.type, e.low, e.high, e.n]) : []),
+      ...(result.method.qc.limitsSource === 'in_house' ? inHouseRows(result) : []),
     ],
     provenance: (digest) =>
       planProvenanceSheet(result, {

@@ -34,12 +34,13 @@ export const TRENDS_KEYS = {
 /** Column B of the history line when the run was given no history. */
 export const NO_HISTORY = 'none: this run was not given one (recalc --history FILE records runs and fills this sheet)';
 
-export const SERIES_TITLE = 'Series: one per analyte and control type';
+export const SERIES_TITLE = 'Series: one per analyte, control type and QC level';
 export const POINTS_TITLE = 'Points: every recovery of each series, in run order';
 
 export const SERIES_HEADERS = [
   'analyte',
   'sample type',
+  'qc level',
   'n',
   'mean %',
   'SD %',
@@ -55,6 +56,7 @@ export const SERIES_HEADERS = [
 export const POINT_HEADERS = [
   'analyte',
   'sample type',
+  'qc level',
   'point',
   'run',
   'run time',
@@ -92,7 +94,7 @@ export function planTrendsSheet(result: RecalcResult, options: { history?: Trend
   const minRow = b.keyValue(TRENDS_KEYS.minPoints, minPoints, [
     'below this many points a series has n, mean and SD but no limits, and no rule is judged (US EPA SW-846 Method 8000 practice)',
   ]);
-  b.keyValue('which points', 'every recorded recovery of the analyte and control type, this run included, in run order (run time, then order recorded, then worklist row); all are used');
+  b.keyValue('which points', 'every recorded recovery of the analyte, control type and QC level, this run included, in run order (run time, then order recorded, then worklist row); all are used');
   b.keyValue('limits', 'warning: mean ± 2s; control: mean ± 3s; s the sample SD (n − 1)');
   b.keyValue(
     'rules',
@@ -133,6 +135,7 @@ export function planTrendsSheet(result: RecalcResult, options: { history?: Trend
       const values: CellValue[] = [
         s.analyte,
         s.sampleType,
+        s.level || null,
         i + 1,
         p.runId,
         p.runTime,
@@ -167,20 +170,23 @@ function seriesRow(s: TrendSeries, at: { row: number; range: { first: number; la
   const r = at.row;
   const k = columnLetter(RECOVERY_COLUMN);
   const span = `${k}${at.range.first}:${k}${at.range.last}`;
-  const enough = `C${r}>=$B$${at.minRow}`;
+  // The series table's own columns, by header: n, mean and SD.
+  const [N, MEAN, SD] = (['n', 'mean %', 'SD %'] as const).map((h) => `${columnLetter(SERIES_HEADERS.indexOf(h) + 1)}${r}`);
+  const enough = `${N}>=$B$${at.minRow}`;
   const live = (formula: string, value: number, shown: boolean): PlannedCell =>
     cell(shown && Number.isFinite(value) ? value : '', { formula, numFmt: '0.00' });
   const rejections = s.violations.filter((v) => v.severity === 'reject').length;
   return [
     s.analyte,
     s.sampleType || null,
+    s.level || null,
     cell(l.n, { formula: `COUNT(${span})` }),
     live(`AVERAGE(${span})`, l.mean, true),
-    live(`IF(C${r}>=2,STDEV(${span}),"")`, l.sd, l.n >= 2),
-    live(`IF(${enough},D${r}-2*E${r},"")`, l.warningLow, l.sufficient),
-    live(`IF(${enough},D${r}+2*E${r},"")`, l.warningHigh, l.sufficient),
-    live(`IF(${enough},D${r}-3*E${r},"")`, l.controlLow, l.sufficient),
-    live(`IF(${enough},D${r}+3*E${r},"")`, l.controlHigh, l.sufficient),
+    live(`IF(${N}>=2,STDEV(${span}),"")`, l.sd, l.n >= 2),
+    live(`IF(${enough},${MEAN}-2*${SD},"")`, l.warningLow, l.sufficient),
+    live(`IF(${enough},${MEAN}+2*${SD},"")`, l.warningHigh, l.sufficient),
+    live(`IF(${enough},${MEAN}-3*${SD},"")`, l.controlLow, l.sufficient),
+    live(`IF(${enough},${MEAN}+3*${SD},"")`, l.controlHigh, l.sufficient),
     cell(s.violations.length, rejections > 0 ? { mark: 'fail' } : s.violations.length > 0 ? { mark: 'inform' } : {}),
     l.sufficient ? ruleCounts(s.violations) || 'none' : `no limits yet: ${l.n} of the points needed`,
     `rows ${at.range.first}–${at.range.last}`,
