@@ -260,7 +260,7 @@ function storedInHouseLimits(sheet: StoredSheet): InHouseLimits | undefined {
   return out;
 }
 
-/** The stored acceptance limits table and in-house limits table (six columns each), for the digest. */
+/** The stored acceptance limits table (seven columns) and in-house limits table (six), for the digest. */
 function storedLimits(sheet: StoredSheet): CellValue[][] {
   const rows: CellValue[][] = [];
   const table = (title: string, width: number) => {
@@ -272,7 +272,7 @@ function storedLimits(sheet: StoredSheet): CellValue[][] {
       rows.push(Array.from({ length: width }, (_, i) => cells.get(i + 1)?.value ?? null));
     }
   };
-  table(LIMITS_TITLE, 6);
+  table(LIMITS_TITLE, 7);
   table(IN_HOUSE_TITLE, 6);
   return rows;
 }

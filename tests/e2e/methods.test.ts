@@ -82,6 +82,27 @@ describe('every demo worklist runs end to end with its method', { timeout: 180_0
       expect(num(row.spike_recovery_pct)).toBeLessThanOrEqual(hi);
     }
     expect(new Set(qcs.map((row) => row['QC Level']))).toEqual(new Set(['LLOQ', 'Low', 'Mid', 'High']));
+
+    // Internal standard (issue 14): one sample at 38 % of the run's mean QC response is flagged; no QC is.
+    // The reference is recomputed here from the worklist's own IS areas, QC rows of the analyte.
+    const istd = rows.filter((row) => row.flags.includes('ISTD_RESPONSE'));
+    expect(istd.map((row) => [row.Sample, row.Analyte, row.qc_status])).toEqual([['TMR204-0127-06h', 'Amitriptyline', '']]);
+    const qcAreas = qcs.filter((x) => x.Analyte === 'Amitriptyline').map((x) => num(x['IS Area']));
+    const mean = qcAreas.reduce((a, b) => a + b, 0) / qcAreas.length;
+    expect((100 * num(istd[0]!['IS Area'])) / mean).toBeLessThan(50);
+    expect(r.stderr).toContain('1 sample result has an internal-standard response outside its window');
+
+    // Reported results (issue 14): three significant figures, half away from zero; "< 1" below the LLOQ of 1 ng/mL.
+    const reported = (id: string, analyte: string) => rows.find((x) => x.Sample === id && x.Analyte === analyte)!['reported_result [ng/mL]'];
+    const sig3 = (x: number) => Number(x.toPrecision(3)); // ECMA-262 Number.prototype.toPrecision, for values that are no decimal tie
+    for (const row of rows.filter((x) => x.Type === 'Unknown')) {
+      const c = num(row['pre_extraction_conc [ng/mL]']);
+      const shown = row['reported_result [ng/mL]']!;
+      if (c < 1) expect(shown).toBe('< 1');
+      else expect(Number(shown)).toBe(sig3(c));
+    }
+    expect(reported('DB-01', 'Amitriptyline')).toBe('< 1');
+    expect(reported('QC-LLOQ-3', 'Nortriptyline')).toBe('0.967'); // a spiked control reports its number below the LLOQ
   });
 
   it('fruit juice: decimal commas, acidic extraction, fortified-sample recovery re-derived by hand', () => {

@@ -241,7 +241,7 @@ export function planMethodSheet(result: RecalcResult, options: { formulaForms?: 
 
   // Limits.
   b.title(LIMITS_TITLE, 'section');
-  b.table(['scope', 'control type', 'qc level', 'recovery low %', 'recovery high %', 'RPD max %'], limitRows(method));
+  b.table(['scope', 'control type', 'qc level', 'recovery low %', 'recovery high %', 'RPD max %', 'blank: part of the RL'], limitRows(method));
   b.blank();
 
   // In-house limits: where the method judges recovery by the QC history's limits, the
@@ -313,7 +313,7 @@ export function planMethodSheet(result: RecalcResult, options: { formulaForms?: 
   };
 }
 
-const KINDS: readonly ControlKind[] = ['lcs', 'lcsd', 'ms', 'msd', 'dup', 'qc', 'surrogate'];
+const KINDS: readonly ControlKind[] = ['blank', 'lcs', 'lcsd', 'ms', 'msd', 'dup', 'qc', 'surrogate'];
 
 /** One row per (scope, control type, qc level) that sets a limit. */
 export function limitRows(method: Method): CellValue[][] {
@@ -323,8 +323,8 @@ export function limitRows(method: Method): CellValue[][] {
       const set = table[kind];
       if (!set) continue;
       const push = (level: string, s: LimitSet) => {
-        if (!s.recovery && s.rpd_max === undefined) return;
-        rows.push([scope, kind, level || null, s.recovery?.[0] ?? null, s.recovery?.[1] ?? null, s.rpd_max ?? null]);
+        if (!s.recovery && s.rpd_max === undefined && s.max_fraction_of_rl === undefined) return;
+        rows.push([scope, kind, level || null, s.recovery?.[0] ?? null, s.recovery?.[1] ?? null, s.rpd_max ?? null, s.max_fraction_of_rl ?? null]);
       };
       push('', set);
       for (const [level, s] of Object.entries(set.levels ?? {})) push(level, s);
