@@ -73,6 +73,17 @@ export const FIELD_SPECS: ReadonlyMap<CanonicalField, FieldSpec> = new Map(
 export const SAMPLE_TYPES = ['sample', 'blank', 'lcs', 'lcsd', 'ms', 'msd', 'dup', 'qc', 'calibrator'] as const;
 export type SampleType = (typeof SAMPLE_TYPES)[number];
 
+/** QC levels in concentration order (common practice); compareLevels puts any other level after them, by name. */
+const LEVEL_ORDER = ['lloq', 'low', 'mid', 'medium', 'high', 'uloq'];
+
+/** Order of two QC levels: none first, then lloq, low, mid, high, uloq, then others by name; case and spaces ignored. */
+export function compareLevels(a: string, b: string): number {
+  const x = a.trim().toLowerCase();
+  const y = b.trim().toLowerCase();
+  const rank = (l: string) => (l === '' ? -1 : LEVEL_ORDER.includes(l) ? LEVEL_ORDER.indexOf(l) : LEVEL_ORDER.length);
+  return rank(x) - rank(y) || (x < y ? -1 : x > y ? 1 : 0);
+}
+
 export function isCanonicalField(name: string): name is CanonicalField {
   return FIELD_SPECS.has(name as CanonicalField);
 }

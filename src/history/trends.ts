@@ -13,7 +13,7 @@
  */
 import { inHouseKey, type InHouseLimits } from '../qc/limits.js';
 import { existsSync } from 'node:fs';
-import { SAMPLE_TYPES } from '../columns/fields.js';
+import { compareLevels, SAMPLE_TYPES } from '../columns/fields.js';
 import type { RecalcResult } from '../pipeline.js';
 import { inHouseLimits, type RecoveryLimits } from './inhouse-limits.js';
 import { controlRecords, runRecord, type HistoryRow } from './records.js';
@@ -75,13 +75,6 @@ export type TrendRow = Pick<
 
 /** A level as a series keys it: trimmed, lower case. */
 export const levelKey = (level: string): string => level.trim().toLowerCase();
-
-/** QC levels in concentration order, then any other level by name ('' first). */
-const LEVEL_ORDER = ['lloq', 'low', 'mid', 'medium', 'high', 'uloq'];
-export function compareLevels(a: string, b: string): number {
-  const rank = (l: string) => (l === '' ? -1 : LEVEL_ORDER.includes(l) ? LEVEL_ORDER.indexOf(l) : LEVEL_ORDER.length);
-  return rank(a) - rank(b) || (a < b ? -1 : a > b ? 1 : 0);
-}
 
 /**
  * Series per analyte and sample type from history rows (already in run order).

@@ -57,7 +57,7 @@ export function recoveryChartSpec(points: readonly RecoveryPoint[], options: { a
         (hasLimits ? `, limits ${p.low}–${p.high} %` : ''),
     };
   });
-  const x = { field: 'label', type: 'nominal', sort: null, title: 'Control', axis: { labelAngle: -35, labelLimit: 140 } } as const;
+  const x = { field: 'label', type: 'nominal', sort: null, title: 'Control', axis: { labelAngle: -35, labelLimit: 0 } } as const; // labels are whole: html.ts shortens long ids itself, keeping both ends
   return {
     width: Math.min(900, Math.max(220, 36 * values.length)),
     height: 200,

@@ -267,6 +267,19 @@ ${flags.map(
 </table>`;
 }
 
+/** Longest axis label drawn whole; a longer one keeps its start and its end, where MS and MSD differ. */
+export const AXIS_LABEL_MAX = 28;
+
+/**
+ * A chart's axis label for a sample id: whole up to AXIS_LABEL_MAX characters, else its first
+ * 12 and last 15 around "…", so two controls never read the same (labels are never cut by the
+ * chart itself). The chart's points carry the whole id in their description.
+ */
+export function axisLabel(id: string): string {
+  const chars = [...id];
+  return chars.length <= AXIS_LABEL_MAX ? id : `${chars.slice(0, 12).join('')}…${chars.slice(-15).join('')}`;
+}
+
 async function recoverySection(result: RecalcResult, rows: readonly number[], analyte: string): Promise<Markup> {
   const recovery = result.computed.get('spike_recovery_pct');
   const points: RecoveryPoint[] = [];
@@ -275,7 +288,7 @@ async function recoverySection(result: RecalcResult, rows: readonly number[], an
     if (text(result, 'analyte', r) !== analyte || result.qc.status[r] === '' || !recovery || !Number.isFinite(recovery[r]!)) continue;
     const sampleId = text(result, 'sample_id', r);
     const rowNumber = result.raw.rowNumbers[r]!;
-    let label = sampleId || `row ${rowNumber}`;
+    let label = axisLabel(sampleId || `row ${rowNumber}`);
     if (labels.has(label)) label = `${label} (row ${rowNumber})`;
     labels.add(label);
     const lim = result.qc.limits[r]?.recovery;

@@ -1,5 +1,5 @@
 import { pushTo } from '../group.js';
-import { SAMPLE_TYPES, type SampleType } from '../columns/fields.js';
+import { compareLevels, SAMPLE_TYPES, type SampleType } from '../columns/fields.js';
 import { FAILING_CODES, type Flag, type FlagCode } from '../issues.js';
 import type { QcResult, QcStatus, RunRuleOutcome } from '../qc/assess.js';
 import { mean, minMax, rsdPct, sampleSd } from '../qc/stats.js';
@@ -164,7 +164,7 @@ export function summarize(input: SummaryInput): { groups: GroupSummary[]; overal
         const xs = rs.map((r) => conc[r]!);
         return { level: lv, n: xs.length, meanConc: mean(xs), sdConc: sampleSd(xs), cvPct: rsdPct(xs) };
       })
-      .sort((x, y) => x.level.localeCompare(y.level));
+      .sort((x, y) => compareLevels(x.level, y.level));
 
     const rpds = rows.map((r) => rpd[r]!).filter(Number.isFinite);
     const blanks = rows.filter((r) => input.sampleType[r] === 'blank');
@@ -279,7 +279,7 @@ function analyteLabel(a: string): string {
 }
 
 function byTypeThenLevel(x: RecoveryStats, y: RecoveryStats): number {
-  return SAMPLE_TYPES.indexOf(x.type) - SAMPLE_TYPES.indexOf(y.type) || x.level.localeCompare(y.level);
+  return SAMPLE_TYPES.indexOf(x.type) - SAMPLE_TYPES.indexOf(y.type) || compareLevels(x.level, y.level);
 }
 
 export type { QcStatus };

@@ -5,7 +5,7 @@ import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import type { TrendSeries } from '../../src/history/trends.js';
 import type { RecalcResult } from '../../src/pipeline.js';
 import { escapeHtml, html, trusted } from '../../src/report/markup.js';
-import { htmlReportJobs, htmlReportPaths, renderReport, reportBatches } from '../../src/report/html.js';
+import { AXIS_LABEL_MAX, axisLabel, htmlReportJobs, htmlReportPaths, renderReport, reportBatches } from '../../src/report/html.js';
 import { commitAll } from '../../src/write/atomic.js';
 import { EVIL_ANALYTE, EVIL_BATCH, EVIL_SAMPLE, REPORT_RUN, reportScenario } from './fixtures.js';
 
@@ -171,5 +171,17 @@ describe('report files', () => {
     expect(readFileSync(jobs[0]!.target, 'utf8')).toBe(reportB22);
     // A second commit without force stops before writing anything.
     await expect(commitAll(htmlReportJobs(current, { outDir, stem: 'current', history, run: RUN }))).rejects.toThrow('2 outputs already exist');
+  });
+});
+
+describe('axis labels (issue 15: two controls never read the same)', () => {
+  it.each([
+    ['KB-03 Footbridge MS', 'KB-03 Footbridge MS'],
+    ['KB-03 Footbridge MSD', 'KB-03 Footbridge MSD'],
+    ['Millbrook-intake-2026-11-30-weir-MS', 'Millbrook-in…6-11-30-weir-MS'],
+    ['Millbrook-intake-2026-11-30-weir-MSD', 'Millbrook-in…-11-30-weir-MSD'],
+  ])('%s → %s', (id, label) => {
+    expect(axisLabel(id)).toBe(label);
+    expect([...axisLabel(id)].length).toBeLessThanOrEqual(AXIS_LABEL_MAX);
   });
 });

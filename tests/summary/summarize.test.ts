@@ -47,22 +47,22 @@ describe('one batch and analyte with every kind of row', () => {
     expect(g.counts).toEqual({ sample: 2, blank: 1, lcs: 1, lcsd: 1, ms: 0, msd: 0, dup: 1, qc: 5, calibrator: 0 });
   });
 
-  it('splits qc recoveries by level and counts those outside limits', () => {
+  it('splits qc recoveries by level, in concentration order, and counts those outside limits', () => {
     expect(g.recoveries.map((s) => [s.type, s.level, s.n, s.outside])).toEqual([
       ['lcs', '', 1, 1],
       ['lcsd', '', 1, 0],
-      ['qc', 'high', 2, 1],
       ['qc', 'low', 3, 0],
+      ['qc', 'high', 2, 1],
     ]);
     const low = g.recoveries.find((s) => s.level === 'low')!;
     expect([low.mean, low.sd, low.min, low.max]).toEqual([100, 10, 90, 110]);
     expect(g.recoveries[0]!.sd).toBeNaN(); // one value has no SD
   });
 
-  it('gives precision (%CV of concentrations) per qc level (ICH M10 within-run precision)', () => {
+  it('gives precision (%CV of concentrations) per qc level, in concentration order (ICH M10 within-run precision)', () => {
     expect(g.precision).toEqual([
-      { level: 'high', n: 2, meanConc: 90, sdConc: Math.sqrt(200), cvPct: (100 * Math.sqrt(200)) / 90 },
       { level: 'low', n: 3, meanConc: 10, sdConc: 1, cvPct: 10 },
+      { level: 'high', n: 2, meanConc: 90, sdConc: Math.sqrt(200), cvPct: (100 * Math.sqrt(200)) / 90 },
     ]);
   });
 
