@@ -21,7 +21,7 @@ import { createWriteStream } from 'node:fs';
 import { once } from 'node:events';
 import { finished } from 'node:stream/promises';
 import { pathToFileURL } from 'node:url';
-import { CANONICAL_FIELDS } from '../dist/columns/fields.js';
+import { CANONICAL_FIELDS } from '../dist/domain/fields.js';
 
 // Every canonical field but log_k and istd_response (from the build: the bench runs the built CLI anyway; the
 // floor computes no internal-standard judgement, and the bench worklist keeps its shape), then two free-text

@@ -28,22 +28,19 @@
  * It also runs the hostile inputs of bench/hostile.mjs once each (a huge batch of failing
  * blanks, a method of 40,000 codes, ...) and judges them against their time and memory ceilings.
  */
-import { spawn } from 'node:child_process';
 import { existsSync, mkdirSync, readFileSync, readdirSync, rmSync, statSync, createReadStream, writeFileSync } from 'node:fs';
 import { cpus, loadavg, tmpdir, totalmem } from 'node:os';
 import { dirname, join, resolve } from 'node:path';
 import { fileURLToPath } from 'node:url';
-import { performance } from 'node:perf_hooks';
 import Papa from 'papaparse';
 import { writeWorklist } from './generate.mjs';
 import { FLOOR_COLUMNS } from './floor-columns.mjs';
 import { HOSTILE_CASES, xlsxHostileCases } from './hostile.mjs';
+import { measure } from './measure.mjs';
 
 const ROOT = resolve(dirname(fileURLToPath(import.meta.url)), '..');
 const CLI = join(ROOT, 'dist', 'cli.js');
 const METHOD = join(ROOT, 'templates', 'generic-lle.yaml');
-/** GNU time for peak memory; PHASEBOOK_BENCH_TIME=none uses the process's own accounting instead. */
-const TIME = process.env.PHASEBOOK_BENCH_TIME ?? '/usr/bin/time';
 
 const DEFAULT_SIZES = [10_000, 50_000, 200_000, 1_000_000];
 
@@ -87,47 +84,6 @@ function positive(s, name) {
 /** Default measured runs per size: fewer for the long ones. */
 function runsFor(size) {
   return size <= 50_000 ? 5 : size <= 200_000 ? 3 : 3;
-}
-
-/** Run one process; wall time from here, CPU and peak memory from /usr/bin/time -v (or the probe). */
-export async function measure(cmd, args, options = {}) {
-  const haveTime = existsSync(TIME);
-  const stats = join(options.scratch ?? tmpdir(), `stats-${process.pid}-${Math.random().toString(36).slice(2)}.txt`);
-  const argv = haveTime ? ['-v', '-o', stats, cmd, ...args] : ['--import', join(ROOT, 'bench', 'rss-probe.mjs'), ...args];
-  const exe = haveTime ? TIME : cmd;
-  const env = { ...process.env, NO_COLOR: '1', PHASEBOOK_BENCH_PROBE: stats };
-  const t0 = performance.now();
-  const { code, stdout, stderr } = await new Promise((res, rej) => {
-    const child = spawn(exe, argv, { cwd: ROOT, env, stdio: ['ignore', 'pipe', 'pipe'] });
-    let out = '';
-    let err = '';
-    child.stdout.on('data', (d) => (out += d));
-    child.stderr.on('data', (d) => (err += d));
-    child.on('error', rej);
-    child.on('close', (c) => res({ code: c, stdout: out, stderr: err }));
-  });
-  const wallS = (performance.now() - t0) / 1000;
-  let peakMb = NaN;
-  let cpuS = NaN;
-  if (existsSync(stats)) {
-    const text = readFileSync(stats, 'utf8');
-    rmSync(stats, { force: true });
-    if (haveTime) {
-      const kb = /Maximum resident set size \(kbytes\): (\d+)/.exec(text);
-      const user = /User time \(seconds\): ([\d.]+)/.exec(text);
-      const sys = /System time \(seconds\): ([\d.]+)/.exec(text);
-      if (kb) peakMb = Number(kb[1]) / 1024;
-      if (user && sys) cpuS = Number(user[1]) + Number(sys[1]);
-    } else {
-      const j = JSON.parse(text);
-      peakMb = j.maxRssKb / 1024;
-      cpuS = j.userS + j.sysS;
-    }
-  }
-  // phasebook exits 1 when the batch has QC findings: that is a finished run.
-  const ok = options.okCodes ? options.okCodes.includes(code) : code === 0;
-  if (!ok) throw new Error(`${cmd} ${args.join(' ')} exited with ${code}\n${stderr.slice(-2000)}`);
-  return { wallS, cpuS, peakMb, stdout, code };
 }
 
 function variantsOf(opts, worklist, outDir) {

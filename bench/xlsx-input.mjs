@@ -20,7 +20,7 @@ import { createInterface } from 'node:readline';
 import Papa from 'papaparse';
 import ExcelJS from 'exceljs';
 import { writeWorklist } from './generate.mjs';
-import { measure } from './run.mjs';
+import { measure } from './measure.mjs';
 import { writeHostile } from './xlsx-hostile.mjs';
 
 const ROOT = resolve(dirname(fileURLToPath(import.meta.url)), '..');

@@ -20,7 +20,7 @@ import { recalcJson, stopJson } from './commands/recalc-json.js';
 import { STDIN_LABEL, spoolStdin } from './read/stdin.js';
 import { VERSION } from './version.js';
 import { installInterruptCleanup } from './write/atomic.js';
-import { CSV_DIALECTS, OUTPUT_KINDS, type CsvDialectChoice, type OutputKind } from './write/outputs.js';
+import { CSV_DIALECTS, OUTPUT_KINDS, type CsvDialectChoice, type OutputKind } from './outputs.js';
 import { createProgress, type ProgressLine } from './progress.js';
 import { prepareChartWorker, stopChartWorker } from './report/draw.js';
 

@@ -1,7 +1,7 @@
 /**
  * The composition root (STYLE.md habit 1): the only file that knows the order of
  * the stages. read → map columns & units → validate → links → formulas → QC →
- * summary. Writing is the caller's choice (see write/outputs.ts); recalculate()
+ * summary. Writing is the caller's choice (see outputs.ts); recalculate()
  * prints nothing and never exits.
  */
 import { createHash } from 'node:crypto';
@@ -14,7 +14,7 @@ import { compileMethod, evaluateFormulas } from './engine/evaluate.js';
 import { FLAG_CODES, type Flag, type Note } from './issues.js';
 import { loadMethod } from './method/load.js';
 import type { OnProgress } from './progress.js';
-import type { Method } from './method/types.js';
+import type { Method } from './domain/method.js';
 import { assessQc, type QcResult } from './qc/assess.js';
 import type { InHouseLimits } from './qc/limits.js';
 import { readWorklist, withSheetHint } from './read/worklist.js';

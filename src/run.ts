@@ -19,7 +19,7 @@ import { StopError } from './errors.js';
 import { loadMethod } from './method/load.js';
 import { recalculate, type RecalcResult } from './pipeline.js';
 import type { OnProgress } from './progress.js';
-import { OUTPUT_KINDS, workbookDeclined, writeOutputs, type CsvDialectChoice, type OutputKind } from './write/outputs.js';
+import { OUTPUT_KINDS, workbookDeclined, writeOutputs, type CsvDialectChoice, type OutputKind } from './outputs.js';
 
 export interface RecalcRunOptions {
   /** Method file. */

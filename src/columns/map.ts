@@ -1,7 +1,7 @@
 import { StopError } from '../errors.js';
-import type { Method } from '../method/types.js';
+import type { Method } from '../domain/method.js';
 import type { RawTable } from '../read/types.js';
-import { CANONICAL_FIELDS, FIELD_SPECS, headerKey, type CanonicalField, type Dimension } from './fields.js';
+import { CANONICAL_FIELDS, FIELD_SPECS, headerKey, type CanonicalField, type Dimension } from '../domain/fields.js';
 import { conversionFactor, splitHeaderUnit, unitKind } from './units.js';
 
 /** Where a canonical field comes from in the worklist, and its unit. */

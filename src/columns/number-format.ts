@@ -20,23 +20,9 @@
  * Pure functions; the columns stage applies them (table.ts).
  */
 
-export type DecimalMark = '.' | ',';
-/** What groups thousands: nothing, or a point, comma, space (no-break spaces too) or apostrophe. */
-export type Grouping = 'none' | '.' | ',' | ' ' | "'";
-/** How the decimal mark was reached. */
-export type FormatBasis = 'declared' | 'cells' | 'delimiter';
+import type { DecimalMark, FormatBasis, Grouping, NumberFormat } from '../domain/number-format.js';
 
-export interface NumberFormat {
-  decimal: DecimalMark;
-  grouping: Grouping;
-  basis: FormatBasis;
-  /** True when the method declared the grouping: grouped numbers are then read by it, never refused. */
-  groupingKnown: boolean;
-  /** How the format was reached, in words (Provenance, the terminal). */
-  how: string;
-  /** The format in a few words, for messages: "decimal comma, thousands grouped by points". */
-  short: string;
-}
+export type { DecimalMark, FormatBasis, Grouping, NumberFormat } from '../domain/number-format.js';
 
 export interface FormatDeclaration {
   decimal_mark?: DecimalMark;

@@ -1,8 +1,8 @@
 import { parseAcidBase, type AcidBase } from '../chemistry/partition.js';
 import { rowMessage, type Flag, type Note } from '../issues.js';
-import type { AnalyteInfo, Method } from '../method/types.js';
+import type { AnalyteInfo, Method } from '../domain/method.js';
 import type { RawTable } from '../read/types.js';
-import { FIELD_SPECS, SAMPLE_TYPES, type CanonicalField, type SampleType } from './fields.js';
+import { FIELD_SPECS, SAMPLE_TYPES, type CanonicalField, type SampleType } from '../domain/fields.js';
 import type { ColumnMap, FieldSource } from './map.js';
 import { cellText, parseNumberCell, type NumberCell } from './numbers.js';
 import { decideFormat, type NumberFormat } from './number-format.js';

@@ -14,15 +14,15 @@ import { InvalidArgumentError, type Command } from 'commander';
 import { compileMethod } from '../engine/evaluate.js';
 import { StopError } from '../errors.js';
 import { EXIT, type CommandIo } from './io.js';
-import { describeMethod } from '../method/describe.js';
-import { draftMethod, type DraftResult } from '../method/draft.js';
+import { describeMethod } from './method/describe.js';
+import { draftMethod, type DraftResult } from './method/draft.js';
 import { loadMethod, parseMethod } from '../method/load.js';
 import { readWorklist } from '../read/worklist.js';
 import { writeFileAtomic } from '../write/atomic.js';
 import { delimiter } from 'node:path';
 import { listMethods, methodFolders, SHIPPED_METHODS } from '../method/find.js';
 import { methodJson, stopJson } from './recalc-json.js';
-import { describeFeeds } from '../method/feeds.js';
+import { describeFeeds } from './method/feeds.js';
 import { mapColumns } from '../columns/map.js';
 
 

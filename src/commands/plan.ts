@@ -7,12 +7,12 @@
  * - how many portions of the given solvent volume, repeated, reach the target;
  * - the pH at which the analyte is at least 99 % neutral, beside the common-practice
  *   rule of thumb of 2 pH units past the pKa.
- * The arithmetic is chemistry/plan.ts; this module reads options and chooses words.
+ * The arithmetic is chemistry/extraction-plan.ts; this module reads options and chooses words.
  */
 import { significant } from '../format.js';
 import { InvalidArgumentError, Option, type Command } from 'commander';
 import { distributionRatio, neutralFraction } from '../chemistry/partition.js';
-import { efficiencyTable, neutralPh, portionsFor, solventVolumeFor } from '../chemistry/plan.js';
+import { efficiencyTable, neutralPh, portionsFor, solventVolumeFor } from '../chemistry/extraction-plan.js';
 import { StopError } from '../errors.js';
 import { EXIT, type CommandIo } from './io.js';
 

@@ -6,7 +6,7 @@
  */
 import type { StopError } from '../errors.js';
 import type { Flag } from '../issues.js';
-import type { Method } from '../method/types.js';
+import type { Method } from '../domain/method.js';
 import type { RecalcRunOutcome } from '../run.js';
 import { VERSION } from '../version.js';
 

@@ -1,7 +1,7 @@
-import { FIELD_SPECS } from '../columns/fields.js';
+import { FIELD_SPECS } from '../domain/fields.js';
 import { StopError } from '../errors.js';
 import type { Note } from '../issues.js';
-import type { FormulaDef, Method } from '../method/types.js';
+import type { FormulaDef, Method } from '../domain/method.js';
 import { compileFormula, FormulaError, type CompiledFormula, type EvalContext, type SymbolKind } from './formula.js';
 import { dependencyOrder } from './order.js';
 

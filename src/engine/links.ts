@@ -1,5 +1,5 @@
 import { groupBy, pushTo } from '../group.js';
-import type { SampleType } from '../columns/fields.js';
+import type { SampleType } from '../domain/fields.js';
 
 /**
  * Cross-row links, found once from the text columns before any formula runs:

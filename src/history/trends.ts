@@ -13,7 +13,7 @@
  */
 import { inHouseKey, type InHouseLimits } from '../qc/limits.js';
 import { existsSync } from 'node:fs';
-import { compareLevels, SAMPLE_TYPES } from '../columns/fields.js';
+import { compareLevels, SAMPLE_TYPES } from '../domain/fields.js';
 import type { RecalcResult } from '../pipeline.js';
 import { inHouseLimits, type RecoveryLimits } from './inhouse-limits.js';
 import { controlRecords, runRecord, type HistoryRow } from './records.js';

@@ -1,5 +1,5 @@
-import type { SampleType } from '../columns/fields.js';
-import type { LimitTable, QcOptions, Range, ReportingOptions } from './types.js';
+import type { SampleType } from '../domain/fields.js';
+import type { LimitTable, QcOptions, Range, ReportingOptions } from '../domain/method.js';
 
 /**
  * Generic acceptance limits (DESIGN.md §5), used where a method names none.

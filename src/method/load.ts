@@ -6,10 +6,10 @@ import { normaliseUnitText, unitKind } from '../columns/units.js';
 import { LineCounter, parseDocument, isNode, isScalar, visit, type Document } from 'yaml';
 import { StopError, fsReason } from '../errors.js';
 import { parseAcidBase } from '../chemistry/partition.js';
-import { FIELD_SPECS, isCanonicalField, type CanonicalField, type Dimension, type SampleType } from '../columns/fields.js';
+import { FIELD_SPECS, isCanonicalField, type CanonicalField, type Dimension, type SampleType } from '../domain/fields.js';
 import { GENERIC_INTERNAL_STANDARD, GENERIC_LIMITS, GENERIC_QC, GENERIC_REPORTING } from './defaults.js';
 import { methodSchemaValidator } from './schema-validator.js';
-import type { AnalyteInfo, FieldConfig, FormulaDef, LimitTable, Method, Range, Rounding } from './types.js';
+import type { AnalyteInfo, FieldConfig, FormulaDef, LimitTable, Method, Range, Rounding } from '../domain/method.js';
 
 /** Significance levels of the Dixon's Q table phasebook carries (Rorabacher, Anal. Chem. 1991). */
 const DIXON_ALPHAS = [0.1, 0.05, 0.04, 0.02, 0.01];

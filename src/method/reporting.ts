@@ -1,4 +1,4 @@
-import type { Method } from './types.js';
+import type { Method } from '../domain/method.js';
 
 /**
  * What a method says about its calibration and its reported results, in the

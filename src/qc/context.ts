@@ -1,10 +1,10 @@
 import { pushTo } from '../group.js';
-import type { SampleType } from '../columns/fields.js';
+import type { SampleType } from '../domain/fields.js';
 import { significant } from '../format.js';
 import { conversionFactor } from '../columns/units.js';
 import type { Links } from '../engine/links.js';
 import { rowMessage, type Flag, type FlagCode } from '../issues.js';
-import type { AnalyteInfo, Method } from '../method/types.js';
+import type { AnalyteInfo, Method } from '../domain/method.js';
 import { limitsFor, type AppliedLimits, type InHouseLimits } from './limits.js';
 
 /** What QC reads: finished columns, nothing else (it never reaches back). */

@@ -1,5 +1,5 @@
-import type { SampleType } from '../columns/fields.js';
-import type { AnalyteInfo, ControlKind, LimitSet, Method, Range } from '../method/types.js';
+import type { SampleType } from '../domain/fields.js';
+import type { AnalyteInfo, ControlKind, LimitSet, Method, Range } from '../domain/method.js';
 
 /**
  * In-house recovery control limits from the QC history, by analyte and control

@@ -1,5 +1,5 @@
 import { Decimal } from 'decimal.js';
-import type { Rounding } from '../method/types.js';
+import type { Rounding } from '../domain/method.js';
 import { fmt, type QcContext } from './context.js';
 import { ROW_RULES } from './row-rules.js';
 

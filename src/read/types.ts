@@ -1,4 +1,4 @@
-import type { NumberFormat } from '../columns/number-format.js';
+import type { NumberFormat } from '../domain/number-format.js';
 /**
  * What a reader hands forward: the worklist exactly as written, column by column.
  *

@@ -6,6 +6,7 @@
  * .csv .txt .tsv → CSV; .xlsx .xlsm → XLSX; any other extension → sniffed
  * (zip signature → XLSX, otherwise CSV, whose reader refuses binary content).
  */
+import { otherSheets } from './sheets.js';
 import { extname } from 'node:path';
 import { StopError } from '../errors.js';
 import { checkInputFile, readCsv, readHead, type CsvDelimiter } from './csv.js';
@@ -38,16 +39,6 @@ export function sniffContent(head: Buffer): WorklistContent {
   const ole = [0xd0, 0xcf, 0x11, 0xe0, 0xa1, 0xb1, 0x1a, 0xe1];
   if (head.length >= 8 && ole.every((b, i) => head[i] === b)) return 'ole';
   return 'other';
-}
-
-/**
- * Words to add to a message about a sheet read by default (the first) when the
- * workbook has others: `; the workbook's sheets are "Notes", "Worklist" (choose
- * one with --sheet)`, or "" when it has one sheet.
- */
-export function otherSheets(sheets: readonly string[] | undefined): string {
-  if (sheets === undefined || sheets.length < 2) return '';
-  return `; the workbook's sheets are ${sheets.map((n) => `"${n}"`).join(', ')} (choose one with --sheet)`;
 }
 
 /**

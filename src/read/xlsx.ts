@@ -35,7 +35,7 @@ import { rowMessage } from '../issues.js';
 import { checkInputFile } from './csv.js';
 import { ColumnBuilder } from './column-builder.js';
 import type { RawCell, RawTable, RowProblem } from './types.js';
-import { otherSheets } from './worklist.js';
+import { otherSheets } from './sheets.js';
 import { XlsxPackage } from './xlsx-package.js';
 import {
   decodeEscapes,

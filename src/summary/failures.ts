@@ -5,7 +5,7 @@
  * cannot disagree, and a run the run rule accepts with failed qc rows is said to be
  * exactly that.
  */
-import type { SampleType } from '../columns/fields.js';
+import type { SampleType } from '../domain/fields.js';
 import { FAILING_CODES, type Flag } from '../issues.js';
 import type { QcStatus } from '../qc/assess.js';
 

@@ -1,5 +1,5 @@
 import { pushTo } from '../group.js';
-import { compareLevels, SAMPLE_TYPES, type SampleType } from '../columns/fields.js';
+import { compareLevels, SAMPLE_TYPES, type SampleType } from '../domain/fields.js';
 import { FAILING_CODES, type Flag, type FlagCode } from '../issues.js';
 import type { QcResult, QcStatus, RunRuleOutcome } from '../qc/assess.js';
 import { mean, minMax, rsdPct, sampleSd } from '../qc/stats.js';

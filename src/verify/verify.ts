@@ -17,7 +17,7 @@
  */
 import { StopError } from '../errors.js';
 import { parseMethod } from '../method/load.js';
-import type { Method } from '../method/types.js';
+import type { Method } from '../domain/method.js';
 import { recalculateTable, type RecalcResult } from '../pipeline.js';
 import type { RawCell, RawTable, RowProblem } from '../read/types.js';
 import type { CellValue, RowContext } from '../write/workbook/cells.js';
@@ -26,7 +26,7 @@ import { FLAGS_SHEET } from '../write/workbook/flags-sheet.js';
 import { IN_HOUSE_TITLE, LIMITS_TITLE, LINE_ENDS_KEY, METHOD_SHEET, METHOD_TEXT_TITLE, lineEndOf } from '../write/workbook/method-sheet.js';
 import { inHouseKey, type InHouseLimits } from '../qc/limits.js';
 import { WORKBOOK_FORMAT } from '../write/workbook/options.js';
-import { SHEET_ORDER, planWorkbook } from '../write/workbook/plan.js';
+import { SHEET_ORDER, planWorkbook } from '../write/workbook/workbook-plan.js';
 import {
   FORMULAS_LIVE,
   KEYS,

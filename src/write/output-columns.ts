@@ -1,6 +1,6 @@
 import type { RecalcResult } from '../pipeline.js';
 import type { RawCell } from '../read/types.js';
-import type { Method } from '../method/types.js';
+import type { Method } from '../domain/method.js';
 
 /**
  * The columns every results output carries, in order (DESIGN.md §4): the input

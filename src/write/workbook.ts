@@ -4,19 +4,19 @@
  * values each formula reads "as used", and the computed columns as live formulas
  * with the engine's values cached; flagged cells are filled and carry a note.
  *
- * The sheets are planned as data first (write/workbook/plan.ts) and then streamed
+ * The sheets are planned as data first (write/workbook/workbook-plan.ts) and then streamed
  * to disk (write/workbook/write.ts); `phasebook verify` plans the same workbook
  * from a recomputation and compares it with what is stored.
  */
 import type { RecalcResult } from '../pipeline.js';
-import { planWorkbook } from './workbook/plan.js';
+import { planWorkbook } from './workbook/workbook-plan.js';
 import { writePlannedWorkbook } from './workbook/write.js';
 import type { RunInfo, WorkbookOptions } from './workbook/options.js';
 
 export type { RunInfo, WorkbookOptions } from './workbook/options.js';
 export { DEFAULT_FORMULA_ROW_LIMIT, DEFAULT_MAX_NOTES } from './workbook/options.js';
 
-/** Write the workbook to `path` (a new file; write/outputs.ts renames it into place). */
+/** Write the workbook to `path` (a new file; outputs.ts renames it into place). */
 export async function writeWorkbook(path: string, result: RecalcResult, options: WorkbookOptions): Promise<void> {
   const run: RunInfo = { ...options.run, node: options.run.node ?? process.version };
   const plan = planWorkbook(result, { run, formulaRowLimit: options.formulaRowLimit, maxNotes: options.maxNotes, history: options.history });

@@ -2,7 +2,7 @@ import Papa from 'papaparse';
 import { describe, expect, it } from 'vitest';
 // @ts-expect-error: the bench generator is plain JavaScript (bench/generate.mjs)
 import { ANALYTES, HEADERS, ROWS_PER_BATCH, worklistLines } from '../../bench/generate.mjs';
-import { CANONICAL_FIELDS } from '../../src/columns/fields.js';
+import { CANONICAL_FIELDS } from '../../src/domain/fields.js';
 
 function table(rows: number, seed?: number): Record<string, string>[] {
   const text = [...worklistLines(rows, { seed })].join('\n');

@@ -1,7 +1,7 @@
 import { readFileSync } from 'node:fs';
 import { describe, expect, it } from 'vitest';
 import { compileMethod } from '../../src/engine/evaluate.js';
-import { describeMethod } from '../../src/method/describe.js';
+import { describeMethod } from '../../src/commands/method/describe.js';
 import { parseMethod } from '../../src/method/load.js';
 import { recalculateData } from '../../src/index.js';
 

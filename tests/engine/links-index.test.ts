@@ -1,6 +1,6 @@
 import fc from 'fast-check';
 import { describe, expect, it } from 'vitest';
-import type { SampleType } from '../../src/columns/fields.js';
+import type { SampleType } from '../../src/domain/fields.js';
 import { findLinks, type LinkInput } from '../../src/engine/links.js';
 
 /**

@@ -1,5 +1,5 @@
 import { describe, expect, it } from 'vitest';
-import type { SampleType } from '../../src/columns/fields.js';
+import type { SampleType } from '../../src/domain/fields.js';
 import { findLinks } from '../../src/engine/links.js';
 
 function table(rows: Array<[id: string, type: SampleType, parent: string, analyte: string, batch: string]>) {

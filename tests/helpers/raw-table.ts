@@ -1,4 +1,4 @@
-import { CANONICAL_FIELDS } from '../../src/columns/fields.js';
+import { CANONICAL_FIELDS } from '../../src/domain/fields.js';
 import type { RawCell, RawTable } from '../../src/read/types.js';
 
 /** A RawTable from a header and row arrays, as the CSV reader would give it. */

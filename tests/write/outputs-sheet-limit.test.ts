@@ -2,7 +2,7 @@ import { existsSync, readdirSync } from 'node:fs';
 import { join } from 'node:path';
 import { describe, expect, it } from 'vitest';
 import type { RecalcResult } from '../../src/pipeline.js';
-import { MAX_SHEET_ROWS, workbookDeclined, writeOutputs } from '../../src/write/outputs.js';
+import { MAX_SHEET_ROWS, workbookDeclined, writeOutputs } from '../../src/outputs.js';
 import { tempDir } from '../helpers/cli.js';
 
 /**

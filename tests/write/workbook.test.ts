@@ -18,7 +18,7 @@ import { verifyWorkbook } from '../../src/verify/verify.js';
 import { outputColumns } from '../../src/write/output-columns.js';
 import { writeWorkbook } from '../../src/write/workbook.js';
 import { COLOURS } from '../../src/write/workbook/style.js';
-import { planWorkbook } from '../../src/write/workbook/plan.js';
+import { planWorkbook } from '../../src/write/workbook/workbook-plan.js';
 import { directRowWriterAvailable, writePlannedWorkbook } from '../../src/write/workbook/write.js';
 import { CAUTIONS } from '../../src/write/workbook/provenance-sheet.js';
 import { resultsLayout } from '../../src/write/workbook/results-sheet.js';

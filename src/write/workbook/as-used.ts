@@ -13,12 +13,12 @@
  * as text in an XLSX) gets the engine's value and a note saying so. Rows with an input
  * error, and a values-only sheet, get the engine's values.
  */
-import { FIELD_SPECS, SAMPLE_TYPES, type CanonicalField } from '../../columns/fields.js';
+import { FIELD_SPECS, SAMPLE_TYPES, type CanonicalField } from '../../domain/fields.js';
 import { parseAcidBase } from '../../chemistry/partition.js';
 import type { RecalcResult } from '../../pipeline.js';
 import { cell, formulaNumber, formulaText, type CellValue, type PlannedCell } from './cells.js';
 import { METHOD_SHEET, rowFactor, type MethodRefs } from './method-sheet.js';
-import type { ResultsColumn, ResultsLayout } from './results-sheet.js';
+import type { ResultsColumn, ResultsLayout } from './results-layout.js';
 
 export interface AsUsedContext {
   col: ResultsColumn;

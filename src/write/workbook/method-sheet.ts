@@ -9,10 +9,10 @@
  * Cells the Results formulas reference (analyte data, field defaults, look-up
  * ranges) are handed back as absolute references in MethodRefs.
  */
-import { FIELD_SPECS, SAMPLE_TYPES, type CanonicalField } from '../../columns/fields.js';
+import { FIELD_SPECS, SAMPLE_TYPES, type CanonicalField } from '../../domain/fields.js';
 import { conversionFactor } from '../../columns/units.js';
 import { calibrationSentence, roundingWords } from '../../method/reporting.js';
-import type { ControlKind, LimitSet, LimitTable, Method } from '../../method/types.js';
+import type { ControlKind, LimitSet, LimitTable, Method } from '../../domain/method.js';
 import type { RecalcResult } from '../../pipeline.js';
 import { COMPARISON_RULE } from '../../qc/compare.js';
 import { ACID_WORDS, BASE_WORDS, NEUTRAL_WORDS } from '../sheet-formula.js';

@@ -4,7 +4,7 @@
  * recovery statistics, RPD, blanks and mean extraction efficiency, the legend of
  * the marks used on the other sheets, and what each flag code means.
  */
-import { SAMPLE_TYPES } from '../../columns/fields.js';
+import { SAMPLE_TYPES } from '../../domain/fields.js';
 import { FAILING_CODES, FLAG_CODES, type FlagCode } from '../../issues.js';
 import type { RecalcResult } from '../../pipeline.js';
 import { SheetBuilder } from './builder.js';

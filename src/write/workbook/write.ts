@@ -25,7 +25,7 @@ import WorkbookWriter from 'exceljs/lib/stream/xlsx/workbook-writer.js';
 import enums from 'exceljs/lib/doc/enums.js';
 import { columnLetter, escapeForXlsx, sheetText, type CellValue, type PlannedCell, type PlannedRow, type SheetPlan } from './cells.js';
 import { IntegrityDigest } from './digest.js';
-import type { WorkbookPlan } from './plan.js';
+import type { WorkbookPlan } from './workbook-plan.js';
 import { styleFor } from './style.js';
 import type { RunInfo } from './options.js';
 

@@ -1,7 +1,7 @@
 import { join } from 'node:path';
 import { describe, expect, it } from 'vitest';
 import { compileMethod } from '../../src/engine/evaluate.js';
-import { describeMethod, judgingWarnings } from '../../src/method/describe.js';
+import { describeMethod, judgingWarnings } from '../../src/commands/method/describe.js';
 import { loadMethod, parseMethod } from '../../src/method/load.js';
 
 const ROOT = join(import.meta.dirname, '../..');

@@ -7,16 +7,16 @@
  *
  * It reads a loaded, compiled method and returns text; it prints nothing.
  */
-import { significant } from '../format.js';
+import { significant } from '../../format.js';
 import type { MathNode } from 'mathjs';
 import { parse } from 'yaml';
-import { neutralFraction } from '../chemistry/partition.js';
-import { CANONICAL_FIELDS, FIELD_SPECS, SAMPLE_TYPES, type CanonicalField, type SampleType } from '../columns/fields.js';
-import { methodUnit } from '../columns/map.js';
-import { correctsForEfficiency, DERIVED_COLUMNS, type CompiledMethod } from '../engine/evaluate.js';
-import { formatRange, limitsFor } from '../qc/limits.js';
-import { calibrationSentence, reportingSentence } from './reporting.js';
-import type { AnalyteInfo, ControlKind, Method } from './types.js';
+import { neutralFraction } from '../../chemistry/partition.js';
+import { CANONICAL_FIELDS, FIELD_SPECS, SAMPLE_TYPES, type CanonicalField, type SampleType } from '../../domain/fields.js';
+import { methodUnit } from '../../columns/map.js';
+import { correctsForEfficiency, DERIVED_COLUMNS, type CompiledMethod } from '../../engine/evaluate.js';
+import { formatRange, limitsFor } from '../../qc/limits.js';
+import { calibrationSentence, reportingSentence } from '../../method/reporting.js';
+import type { AnalyteInfo, ControlKind, Method } from '../../domain/method.js';
 
 /** Control types in the order a reader expects them. */
 const CONTROL_KINDS: readonly ControlKind[] = ['lcs', 'lcsd', 'ms', 'msd', 'dup', 'qc'];

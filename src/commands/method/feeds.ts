@@ -4,11 +4,11 @@
  * which headers are carried unused, so that nothing the analyst put in is silently left
  * out and no field silently defaults.
  */
-import { CANONICAL_FIELDS, FIELD_SPECS, type CanonicalField } from '../columns/fields.js';
-import type { ColumnMap } from '../columns/map.js';
-import { canonicalUnitText } from '../columns/units.js';
-import type { RawTable } from '../read/types.js';
-import type { AnalyteInfo, Method } from './types.js';
+import { CANONICAL_FIELDS, FIELD_SPECS, type CanonicalField } from '../../domain/fields.js';
+import type { ColumnMap } from '../../columns/map.js';
+import { canonicalUnitText } from '../../columns/units.js';
+import type { RawTable } from '../../read/types.js';
+import type { AnalyteInfo, Method } from '../../domain/method.js';
 
 /** Analyte data that stands in for a missing column. */
 const ANALYTE_DATA: Partial<Record<CanonicalField, keyof AnalyteInfo>> = {

@@ -8,7 +8,7 @@ import {
   neutralPh,
   portionsFor,
   solventVolumeFor,
-} from '../../src/chemistry/plan.js';
+} from '../../src/chemistry/extraction-plan.js';
 
 // Worked examples E1–E5, E9 are from REFERENCES.md §1, attributed there as noted beside each check.
 

@@ -1,4 +1,4 @@
-import type { CanonicalField, SampleType } from '../columns/fields.js';
+import type { CanonicalField, SampleType } from './fields.js';
 import type { AcidBase } from '../chemistry/partition.js';
 
 export type Range = readonly [number, number];

@@ -1,10 +1,10 @@
 import { join } from 'node:path';
 import { parse } from 'yaml';
 import { describe, expect, it } from 'vitest';
-import { CANONICAL_FIELDS } from '../../src/columns/fields.js';
+import { CANONICAL_FIELDS } from '../../src/domain/fields.js';
 import { mapColumns } from '../../src/columns/map.js';
 import { compileMethod } from '../../src/engine/evaluate.js';
-import { draftMethod, recogniseHeader } from '../../src/method/draft.js';
+import { draftMethod, recogniseHeader } from '../../src/commands/method/draft.js';
 import { loadMethod, parseMethod } from '../../src/method/load.js';
 import { readWorklist } from '../../src/read/worklist.js';
 import { rawTable } from '../helpers/raw-table.js';

@@ -19,15 +19,15 @@
 import { readFileSync } from 'node:fs';
 import { basename, extname } from 'node:path';
 import { parseDocument, isMap, isScalar } from 'yaml';
-import { CANONICAL_FIELDS, FIELD_SPECS, SAMPLE_TYPES, headerKey, type CanonicalField, type Dimension, type SampleType } from '../columns/fields.js';
-import { splitHeaderUnit, unitKind, type UnitKind } from '../columns/units.js';
-import { cellText } from '../columns/numbers.js';
-import type { RawTable } from '../read/types.js';
-import { GENERIC_LIMITS, GENERIC_QC } from './defaults.js';
-import { normaliseUnitText } from '../columns/units.js';
-import type { ControlKind, LimitSet } from './types.js';
+import { CANONICAL_FIELDS, FIELD_SPECS, SAMPLE_TYPES, headerKey, type CanonicalField, type Dimension, type SampleType } from '../../domain/fields.js';
+import { splitHeaderUnit, unitKind, type UnitKind } from '../../columns/units.js';
+import { cellText } from '../../columns/numbers.js';
+import type { RawTable } from '../../read/types.js';
+import { GENERIC_LIMITS, GENERIC_QC } from '../../method/defaults.js';
+import { normaliseUnitText } from '../../columns/units.js';
+import type { ControlKind, LimitSet } from '../../domain/method.js';
 
-const GENERIC_METHOD_URL = new URL('../../templates/generic-lle.yaml', import.meta.url);
+const GENERIC_METHOD_URL = new URL('../../../templates/generic-lle.yaml', import.meta.url);
 
 /** How a header was recognised, strongest first. */
 export type PlacementHow = 'canonical name' | 'known name' | 'word';
