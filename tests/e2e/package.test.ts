@@ -131,7 +131,7 @@ describe('the packed and installed package', () => {
   it.each(['check.ts', 'check.mts'])('type-checks from TypeScript with module nodenext (%s)', (file) => {
     writeFileSync(
       join(app, file),
-      "import { recalculate, type RecalcResult } from 'phasebook';\nexport async function verdictOf(file: string): Promise<RecalcResult['verdict']['verdict']> {\n  return (await recalculate(file, { method: 'surface-water' })).verdict.verdict;\n}\n",
+      "import { recalculate, type RecalcResult } from 'phasebook';\nexport async function verdictOf(file: string): Promise<RecalcResult['verdict']['verdict']> {\n  return (await recalculate(file, { method: 'surface-water' })).verdict.verdict;\n}\nexport const rowsNamed = (r: RecalcResult): number[] => r.flags.map((f) => f.spreadsheetRow);\n",
     );
     writeFileSync(join(app, 'tsconfig.json'), JSON.stringify({ compilerOptions: { module: 'nodenext', moduleResolution: 'nodenext', target: 'es2022', strict: true, noEmit: true, types: [] }, files: [file] }));
     const tsc = spawnSync(process.execPath, [join(ROOT, 'node_modules', 'typescript', 'bin', 'tsc'), '-p', 'tsconfig.json'], { cwd: app, encoding: 'utf8' });
