@@ -1,6 +1,7 @@
 import { evaluate as referenceEvaluate } from 'mathjs';
 import { describe, expect, it } from 'vitest';
-import { compileFormula, FormulaError, recoveryPct, rpdPct, type EvalContext, type SymbolKind } from '../../src/engine/formula.js';
+import { compileFormula, FormulaError, type EvalContext, type SymbolKind } from '../../src/engine/formula.js';
+import { recoveryPct, rpdPct } from '../../src/formula-functions.js';
 
 const symbols = new Map<string, SymbolKind>([
   ['a', 'number'],
