@@ -32,6 +32,10 @@
  *
  * Cells should hold numbers as numbers; a number stored as text ("12.5") is converted by the
  * arithmetic, but one with a decimal comma is not.
+ *
+ * Functions are the registry's (src/formula-functions.ts): each entry's argument counts, its rule
+ * for empty inputs (which cells `strict` tests) and its spreadsheet form, written with the SheetKit
+ * this translator hands it. Operators, comparisons and conditions are translated here.
  */
 import { ACID_WORDS, BASE_WORDS, NEUTRAL_WORDS } from '../chemistry/partition.js';
 import { argumentCountProblem, formulaFunction, type FormulaFunction, type SheetKit } from '../formula-functions.js';
