@@ -172,12 +172,11 @@ export function recalculateTable(
 }
 
 /**
- * Give each flag or note the row a spreadsheet user counts (the reader's row number of
- * its data row). In place: the same objects are the QC result's and the verdict's.
+ * Each flag or note with the row a spreadsheet user counts (the reader's row number of its
+ * data row); copies, so that the stages' own results stay as those stages made them.
  */
 function atSpreadsheetRows<T extends { row: number }>(items: T[], rowNumbers: ArrayLike<number>): Array<T & SpreadsheetRow> {
-  for (const item of items) (item as T & SpreadsheetRow).spreadsheetRow = rowNumbers[item.row]!;
-  return items as Array<T & SpreadsheetRow>;
+  return items.map((item) => ({ ...item, spreadsheetRow: rowNumbers[item.row]! }));
 }
 
 function joinRowFlags(n: number, flags: readonly Flag[]): string[] {
