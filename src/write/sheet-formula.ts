@@ -239,7 +239,7 @@ function naturalKind(node: MathNode, ctx: SheetFormulaContext): Kind | undefined
     case 'FunctionNode': {
       const f = node as FunctionNode;
       const name = f.fn?.name;
-      if (!(name !== undefined && formulaFunction(name)?.crossRow)) return 'number';
+      if (!formulaFunction(name ?? '')?.crossRow) return 'number';
       const arg = f.args[0];
       return arg?.type === 'SymbolNode' ? naturalKind(arg, ctx) : undefined;
     }
