@@ -3,7 +3,7 @@
 // dist/chart-bundle.js (src/report/chart-worker.ts with vega and vega-lite)
 // through V8's code cache (see bundle-loader.mjs).
 import { setPriority } from 'node:os';
-import { runBundle } from './bundle-loader.js';
+import { runBundle } from './bundle-loader.cjs';
 
 // The charts are wanted only once the main thread has read, evaluated and written
 // the CSV and the workbook, so this thread is background work: it lowers its own

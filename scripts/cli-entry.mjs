@@ -3,7 +3,7 @@
 // it runs the bundle dist/cli-bundle.js (the whole command line but the chart
 // drawing, in one file) through V8's code cache (see bundle-loader.mjs).
 import { Worker } from 'node:worker_threads';
-import { runBundle } from './bundle-loader.js';
+import { runBundle } from './bundle-loader.cjs';
 
 // Node warns about `Buffer()` (DEP0005) only when the caller is outside
 // node_modules. Bundled dependency code is (exceljs's zip writer calls

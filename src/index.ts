@@ -13,7 +13,7 @@ export { writeOutputs, outputPaths } from './outputs.js';
 export type { WriteOptions, OutputKind } from './outputs.js';
 export { StopError } from './errors.js';
 export type { StopKind, StopLocation } from './errors.js';
-export type { Flag, FlagCode, Note } from './issues.js';
+export type { Flag, FlagCode, Note, ResultFlag, ResultNote, SpreadsheetRow } from './issues.js';
 export { FLAG_CODES } from './issues.js';
 export type { QcResult, QcStatus } from './qc/assess.js';
 export type { GroupSummary, Verdict } from './summary/summarize.js';

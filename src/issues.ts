@@ -27,7 +27,11 @@ export type FlagCode = (typeof FLAG_CODES)[number];
 export const FAILING_CODES: ReadonlySet<FlagCode> = new Set(['REC_LOW', 'REC_HIGH', 'RPD_HIGH', 'BLANK_HIT', 'NO_PARENT', 'ISTD_RESPONSE']);
 
 export interface Flag {
-  /** 0-based data row. */
+  /**
+   * 0-based index of the data row (the first row under the header is 0): an index into
+   * a result's rows and columns. Not the row a spreadsheet user counts: in a result, that
+   * is `spreadsheetRow` (ResultFlag).
+   */
   row: number;
   code: FlagCode;
   /** The column the flag is about (canonical or computed name), for marking the cell. */
@@ -44,10 +48,22 @@ export interface Flag {
  * appear in the flags column): e.g. "no partition coefficient: E taken as 100 %".
  */
 export interface Note {
+  /** 0-based index of the data row, as Flag's `row`; in a result, `spreadsheetRow` is the row a spreadsheet user counts. */
   row: number;
   column?: string;
   message: string;
 }
+
+/** The row a spreadsheet user counts, which src/pipeline.ts gives every flag and note of a result. */
+export interface SpreadsheetRow {
+  /** The worklist row as a spreadsheet user counts it (the header is row 1), the row every message names. */
+  spreadsheetRow: number;
+}
+
+/** A flag of a recalculation's result: `row` indexes the result's rows, `spreadsheetRow` is the one a user counts. */
+export type ResultFlag = Flag & SpreadsheetRow;
+/** A note of a recalculation's result, located as a ResultFlag is. */
+export type ResultNote = Note & SpreadsheetRow;
 
 /** Build the message grammar of STYLE.md habit 7: `row 14, column "x": ...`. */
 export function rowMessage(spreadsheetRow: number, column: string | undefined, text: string): string {

@@ -11,7 +11,7 @@ import { mapColumns, type ColumnMap } from './columns/map.js';
 import { buildTable, type WorkTable } from './columns/table.js';
 import { findLinks, type Links } from './engine/links.js';
 import { compileMethod, evaluateFormulas } from './engine/evaluate.js';
-import { FLAG_CODES, type Flag, type Note } from './issues.js';
+import { FLAG_CODES, type Flag, type ResultFlag, type ResultNote, type SpreadsheetRow } from './issues.js';
 import { loadMethod } from './method/load.js';
 import type { OnProgress } from './progress.js';
 import type { Method } from './domain/method.js';
@@ -53,9 +53,10 @@ export interface RecalcResult {
   links: Links;
   /** Computed columns by name, in the method's order. */
   computed: Map<string, Float64Array>;
-  /** Input errors and QC flags, sorted by row. */
-  flags: Flag[];
-  notes: Note[];
+  /** Input errors and QC flags, sorted by row; each with its `spreadsheetRow`. */
+  flags: ResultFlag[];
+  /** Notes for the reviewer, sorted by row; each with its `spreadsheetRow`. */
+  notes: ResultNote[];
   /** Per row, the flag codes `;`-joined (each code once, in the order of FLAG_CODES). */
   rowFlags: string[];
   qc: QcResult;
@@ -139,7 +140,7 @@ export function recalculateTable(
     inHouse: ctx.inHouse,
   });
   stageDone(4);
-  const flags = [...table.errors, ...qc.flags].sort((a, b) => a.row - b.row);
+  const flags = atSpreadsheetRows([...table.errors, ...qc.flags].sort((a, b) => a.row - b.row), raw.rowNumbers);
   const { groups, overall } = summarize({
     rowCount: table.rowCount,
     sampleType: table.sampleType,
@@ -149,7 +150,7 @@ export function recalculateTable(
     flags,
     qc,
   });
-  const notes = [...table.notes, ...evaluated.notes, ...qc.notes].sort((a, b) => a.row - b.row);
+  const notes = atSpreadsheetRows([...table.notes, ...evaluated.notes, ...qc.notes].sort((a, b) => a.row - b.row), raw.rowNumbers);
   stageDone(5);
   return {
     worklist: ctx.worklist,
@@ -170,6 +171,13 @@ export function recalculateTable(
   };
 }
 
+/**
+ * Each flag or note with the row a spreadsheet user counts (the reader's row number of its
+ * data row); copies, so that the stages' own results stay as those stages made them.
+ */
+function atSpreadsheetRows<T extends { row: number }>(items: T[], rowNumbers: ArrayLike<number>): Array<T & SpreadsheetRow> {
+  return items.map((item) => ({ ...item, spreadsheetRow: rowNumbers[item.row]! }));
+}
 
 function joinRowFlags(n: number, flags: readonly Flag[]): string[] {
   // Sets only for rows that have a flag: most rows have none.

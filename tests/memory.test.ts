@@ -40,3 +40,31 @@ describe('recalculateData (issue 18, point 4)', () => {
     expect(err.describe()).toBe('worklist.csv, row 1: missing the required column "sample_id" (or "Sample Name")');
   });
 });
+
+describe("a result's flags and notes carry the row a spreadsheet user counts (issue 18, point 4)", () => {
+  // A blank line still counts as a row (README, "It accepts"), so spreadsheetRow is not row + 2 past it.
+  const csv = [
+    'sample_id,sample_type,analyte,extract_conc,sample_volume,solvent_volume',
+    'W-01,sample,atrazine,12.5,100,10',
+    '',
+    'W-02,sample,atrazine,ten,100,10',
+    'W-03,sample,atrazine,5,0,10',
+  ].join('\n');
+
+  it.each([
+    // [0-based data row, spreadsheet row, column, message]: the message grammar of DEVELOPERS.md counts the header as row 1
+    [1, 4, 'extract_conc', 'row 4, column "extract_conc": expected a number, got "ten"'],
+    [2, 5, 'sample_volume', 'row 5, column "sample_volume": expected a volume above 0, got "0"'],
+  ])('data row %i is spreadsheet row %i, as its message says', async (row, spreadsheetRow, column, message) => {
+    const result = await recalculateData(csv, { method: 'templates/generic-lle.yaml' });
+    const flag = result.flags.find((f) => f.row === row && f.code === 'INPUT_ERROR');
+    expect(flag).toMatchObject({ row, spreadsheetRow, column, message });
+  });
+
+  it('gives every note its spreadsheet row too', async () => {
+    const result = await recalculateData(csv, { method: 'templates/generic-lle.yaml' });
+    expect(result.notes.length).toBeGreaterThan(0);
+    for (const note of result.notes) expect(note.spreadsheetRow).toBe(result.raw.rowNumbers[note.row]);
+    expect(result.notes.find((n) => n.row === 0)?.spreadsheetRow).toBe(2);
+  });
+});

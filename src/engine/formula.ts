@@ -1,17 +1,18 @@
 import type { MathNode } from 'mathjs';
-import { distributionRatio, extractionEfficiency, parseAcidBase } from '../chemistry/partition.js';
+import { argumentCountProblem, emptinessTest, formulaFunction, type Value } from '../formula-functions.js';
 import { parseFormula } from './sandbox.js';
 
 /**
  * Formula compilation: mathjs parses, we check the tree against an allow-list and
  * turn it into a tree of closures evaluated row by row over finished columns.
  * Nothing in a formula can define, load or evaluate code: only the node types
- * and functions listed here exist (DESIGN.md §3; LIBRARY-NOTES.md §1).
+ * listed here and the functions of ../formula-functions.ts exist (DESIGN.md §3;
+ * LIBRARY-NOTES.md §1).
  *
  * Values are numbers or text. NaN is "empty": arithmetic on it gives NaN, a
  * comparison with it gives NaN, a conditional on it gives NaN.
  */
-export type Value = number | string;
+export type { Value };
 export type RowFn = (row: number) => Value;
 
 /** What the evaluator can read while a formula runs. */
@@ -52,80 +53,18 @@ export const MAX_EXPR_CHARS = 10_000;
 /** Constants a formula may name. */
 const CONSTANTS: Record<string, number> = { pi: Math.PI, e: Math.E, NaN: NaN };
 
-interface FnSpec {
-  args: [min: number, max: number];
-  /** Argument positions that take a column name for a cross-row look-up. */
-  crossRow?: 'parent' | 'pair';
-  call?: (a: Value[]) => Value;
-}
-
 const num = (v: Value): number => (typeof v === 'number' ? v : NaN);
-
-/** The functions a formula may call, with the trade's names for our own. */
-export const FUNCTIONS: Record<string, FnSpec> = {
-  abs: { args: [1, 1], call: (a) => Math.abs(num(a[0]!)) },
-  sqrt: { args: [1, 1], call: (a) => Math.sqrt(num(a[0]!)) },
-  exp: { args: [1, 1], call: (a) => Math.exp(num(a[0]!)) },
-  log: { args: [1, 2], call: (a) => (a.length === 2 ? Math.log(num(a[0]!)) / Math.log(num(a[1]!)) : Math.log(num(a[0]!))) },
-  log10: { args: [1, 1], call: (a) => Math.log10(num(a[0]!)) },
-  pow: { args: [2, 2], call: (a) => num(a[0]!) ** num(a[1]!) },
-  min: { args: [1, 16], call: (a) => minMax(a, Math.min) },
-  max: { args: [1, 16], call: (a) => minMax(a, Math.max) },
-  round: {
-    args: [1, 2],
-    call: (a) => {
-      const x = num(a[0]!);
-      const d = a.length === 2 ? num(a[1]!) : 0;
-      const f = 10 ** d;
-      return Math.sign(x) * Math.round(Math.abs(x) * f) / f;
-    },
-  },
-  floor: { args: [1, 1], call: (a) => Math.floor(num(a[0]!)) },
-  ceil: { args: [1, 1], call: (a) => Math.ceil(num(a[0]!)) },
-  if_empty: { args: [2, 2], call: (a) => (isEmpty(a[0]!) ? a[1]! : a[0]!) },
-  distribution_ratio: {
-    args: [4, 4],
-    call: (a) => {
-      const acidBase = parseAcidBase(typeof a[3] === 'string' ? a[3] : '');
-      return acidBase ? distributionRatio(num(a[0]!), num(a[1]!), num(a[2]!), acidBase) : NaN;
-    },
-  },
-  extraction_efficiency: { args: [4, 4], call: (a) => extractionEfficiency(num(a[0]!), num(a[1]!), num(a[2]!), num(a[3]!)) },
-  recovery_pct: { args: [3, 3], call: (a) => recoveryPct(num(a[0]!), num(a[1]!), num(a[2]!)) },
-  rpd_pct: { args: [2, 2], call: (a) => rpdPct(num(a[0]!), num(a[1]!)) },
-  parent: { args: [1, 1], crossRow: 'parent' },
-  pair: { args: [1, 1], crossRow: 'pair' },
-};
-
-/**
- * Spike recovery in percent: (found − background)/spike × 100.
- * US EPA SW-846 (Method 1312 §8.2.4 "%R = 100(Xs − Xu)/K"); background 0 for a blank spike or QC.
- * Multiplying before dividing keeps round numbers round (13·100/10 = 130 exactly).
- */
-export function recoveryPct(found: number, spike: number, background: number): number {
-  return ((found - background) * 100) / spike;
-}
-
-/** Relative percent difference |a − b| / ((a + b)/2) × 100 (US EPA SW-846 QA practice). */
-export function rpdPct(a: number, b: number): number {
-  return (Math.abs(a - b) * 200) / (a + b);
-}
-
-function minMax(a: Value[], f: (...x: number[]) => number): number {
-  const xs = a.map(num);
-  return xs.some(Number.isNaN) ? NaN : f(...xs);
-}
-
-function isEmpty(v: Value): boolean {
-  return typeof v === 'number' ? Number.isNaN(v) : v.trim() === '';
-}
 
 const BINARY: Record<string, (x: Value, y: Value) => Value> = {
   add: (x, y) => num(x) + num(y),
   subtract: (x, y) => num(x) - num(y),
   multiply: (x, y) => num(x) * num(y),
   divide: (x, y) => num(x) / num(y),
-  pow: (x, y) => num(x) ** num(y),
+  // An empty base empties the power, as every other operand does (JavaScript's NaN ** 0 is 1).
+  pow: (x, y) => {
+    const base = num(x);
+    return Number.isNaN(base) ? NaN : base ** num(y);
+  },
   equal: (x, y) => compare(x, y, (a, b) => a === b),
   unequal: (x, y) => compare(x, y, (a, b) => a !== b),
   smaller: (x, y) => compare(x, y, (a, b) => a < b),
@@ -193,7 +132,7 @@ export function compileFormula(
         }
         const kind = symbols.get(name);
         if (!kind) {
-          if (Object.hasOwn(FUNCTIONS, name)) throw new FormulaError(`"${name}" is a function; call it with arguments`);
+          if (formulaFunction(name)) throw new FormulaError(`"${name}" is a function; call it with arguments`);
           throw new FormulaError(`unknown name "${name}"`);
         }
         deps.add(name);
@@ -248,14 +187,11 @@ export function compileFormula(
         const fnNode = any.fn as MathNode;
         if (fnNode.type !== 'SymbolNode') throw new FormulaError('only named functions may be called');
         const name = (fnNode as unknown as { name: string }).name;
-        const spec = Object.prototype.hasOwnProperty.call(FUNCTIONS, name) ? FUNCTIONS[name] : undefined;
+        const spec = formulaFunction(name);
         if (!spec) throw new FormulaError(`the function "${name}" is not allowed`);
         const argNodes = any.args as MathNode[];
-        const [min, max] = spec.args;
-        if (argNodes.length < min || argNodes.length > max) {
-          const want = min === max ? `${min}` : `${min} to ${max}`;
-          throw new FormulaError(`${name}() takes ${want} argument${max === 1 ? '' : 's'}, got ${argNodes.length}`);
-        }
+        const countProblem = argumentCountProblem(name, spec, argNodes.length);
+        if (countProblem) throw new FormulaError(countProblem);
         if (spec.crossRow) {
           const target = argNodes[0]!;
           const colName = target.type === 'SymbolNode' ? (target as unknown as { name: string }).name : undefined;
@@ -273,16 +209,19 @@ export function compileFormula(
           };
         }
         const args = argNodes.map((a) => build(a, depth + 1));
-        const call = spec.call!;
+        const evaluate = spec.evaluate!;
+        const rule = spec.empty;
         return (ctx) => {
           const fs = args.map((f) => f(ctx));
           const k = fs.length;
           // One argument list per call site, refilled for every row (no array per row).
           // Safe: arguments are evaluated before the call, and no function keeps the list.
           const argv: Value[] = new Array(k);
+          // The function's rule for empty inputs, applied before it is asked (as its spreadsheet form does).
+          const emptied = emptinessTest(rule, argv);
           return (r) => {
             for (let i = 0; i < k; i++) argv[i] = fs[i]!(r);
-            return call(argv);
+            return emptied() ? NaN : evaluate(argv);
           };
         };
       }

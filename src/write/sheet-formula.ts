@@ -32,8 +32,13 @@
  *
  * Cells should hold numbers as numbers; a number stored as text ("12.5") is converted by the
  * arithmetic, but one with a decimal comma is not.
+ *
+ * Functions are the registry's (src/formula-functions.ts): each entry's argument counts, its rule
+ * for empty inputs (which cells `strict` tests) and its spreadsheet form, written with the SheetKit
+ * this translator hands it. Operators, comparisons and conditions are translated here.
  */
-import { ACID_WORDS, BASE_WORDS, NEUTRAL_WORDS, parseAcidBase } from '../chemistry/partition.js';
+import { ACID_WORDS, BASE_WORDS, NEUTRAL_WORDS } from '../chemistry/partition.js';
+import { argumentCountProblem, formulaFunction, type FormulaFunction, type SheetKit } from '../formula-functions.js';
 import type {
   ConditionalNode,
   ConstantNode,
@@ -198,43 +203,6 @@ const COMPARISON: Record<string, string> = {
 const LOGICAL = new Set(['and', 'or', 'not']);
 const BINARY_ARITHMETIC: Record<string, string> = { add: '+', subtract: '-', multiply: '*', divide: '/', pow: '^' };
 
-/** Plain math functions: every argument numeric, any empty argument empties the result. */
-const MATH_FUNCTIONS: Record<string, { min: number; max: number; build: (a: Frag[]) => Frag }> = {
-  abs: { min: 1, max: 1, build: (a) => call('ABS', a) },
-  sqrt: { min: 1, max: 1, build: (a) => call('SQRT', a) },
-  exp: { min: 1, max: 1, build: (a) => call('EXP', a) },
-  log: { min: 1, max: 2, build: (a) => call(a.length === 1 ? 'LN' : 'LOG', a) },
-  log10: { min: 1, max: 1, build: (a) => call('LOG10', a) },
-  pow: { min: 2, max: 2, build: (a) => call('POWER', a) },
-  min: { min: 1, max: 255, build: (a) => call('MIN', a) },
-  max: { min: 1, max: 255, build: (a) => call('MAX', a) },
-  round: { min: 1, max: 2, build: (a) => call('ROUND', a.length === 1 ? [a[0], ZERO] : a) },
-  // mathjs floor/ceil go towards −∞/+∞ (floor(−1.5) = −2): INT does the same, ROUNDDOWN would not.
-  floor: { min: 1, max: 1, build: (a) => call('INT', a) },
-  ceil: { min: 1, max: 1, build: (a) => neg(call('INT', [neg(a[0])])) },
-  // %R = (found − background)/spike × 100 (EPA SW-846 8000D; REFERENCES.md §2).
-  recovery_pct: {
-    min: 3,
-    max: 3,
-    build: ([found, spike, background]) => binary('*', binary('/', binary('-', found, background), spike), atom('100')),
-  },
-  // RPD = |a − b| / ((a + b)/2) × 100 (REFERENCES.md §2).
-  rpd_pct: {
-    min: 2,
-    max: 2,
-    build: ([a, b]) =>
-      binary('*', binary('/', call('ABS', [binary('-', a, b)]), binary('/', binary('+', a, b), atom('2'))), atom('100')),
-  },
-};
-
-const SPECIAL_ARITY: Record<string, number> = {
-  distribution_ratio: 4,
-  extraction_efficiency: 4,
-  if_empty: 2,
-  parent: 1,
-  pair: 1,
-};
-
 function functionName(node: FunctionNode): string {
   const fn = node.fn as unknown as MathNode;
   if (fn.type !== 'SymbolNode') throw new Unsupported(`"${node.toString()}" calls something that is not a function name`);
@@ -271,7 +239,7 @@ function naturalKind(node: MathNode, ctx: SheetFormulaContext): Kind | undefined
     case 'FunctionNode': {
       const f = node as FunctionNode;
       const name = f.fn?.name;
-      if (name !== 'parent' && name !== 'pair') return 'number';
+      if (!formulaFunction(name ?? '')?.crossRow) return 'number';
       const arg = f.args[0];
       return arg?.type === 'SymbolNode' ? naturalKind(arg, ctx) : undefined;
     }
@@ -333,12 +301,13 @@ class Translator {
     if (node.type === 'FunctionNode') {
       const f = node as FunctionNode;
       const name = functionName(f);
-      if (name !== 'parent' && name !== 'pair') return undefined;
+      const crossRow = formulaFunction(name)?.crossRow;
+      if (!crossRow) return undefined;
       const arg = f.args.length === 1 ? f.args[0] : undefined;
       if (arg?.type !== 'SymbolNode') {
         throw new Unsupported(`"${name}" expects one column name, got "${f.toString()}"`);
       }
-      const cell = this.ctx.crossRowCellOf(name, (arg as SymbolNode).name);
+      const cell = this.ctx.crossRowCellOf(crossRow, (arg as SymbolNode).name);
       return cell === undefined ? { missing: true } : { cell };
     }
     return undefined;
@@ -389,17 +358,16 @@ class Translator {
         return intersect(this.strict(c.trueExpr), this.strict(c.falseExpr));
       }
       case 'FunctionNode': {
+        // The function's rule for empty inputs (src/formula-functions.ts); a call the registry
+        // refuses is refused when it is translated.
         const f = node as FunctionNode;
         const name = functionName(f);
-        if (own(MATH_FUNCTIONS, name)) return union(f.args.map((a) => this.strict(a)));
-        if (name === 'distribution_ratio' && f.args.length === 4) {
-          const [k, ph, pka, acidBase] = f.args;
-          const word = constantWord(acidBase);
-          const acidOrBase = word === 'acid' || word === 'base';
-          return union(acidOrBase ? [this.strict(k), this.strict(ph), this.strict(pka)] : [this.strict(k)]);
-        }
-        if (name === 'if_empty' && f.args.length === 2) return intersect(this.strict(f.args[0]), this.strict(f.args[1]));
-        return new Set(); // extraction_efficiency: an empty D gives 1, whatever else is empty
+        const spec = formulaFunction(name);
+        if (!spec || argumentCountProblem(name, spec, f.args.length)) return new Set();
+        const rule = spec.empty;
+        if (rule.kind === 'any') return union(f.args.map((a) => this.strict(a)));
+        if (rule.kind === 'fallback') return f.args.map((a) => this.strict(a)).reduce(intersect);
+        return union(rule.positions((i) => constantText(f.args[i]!)).map((i) => this.strict(f.args[i]!)));
       }
       default:
         return new Set();
@@ -535,77 +503,35 @@ class Translator {
 
   private func(node: FunctionNode, guarded: ReadonlySet<string>): Frag {
     const name = functionName(node);
-    const args = node.args;
-    const math = own(MATH_FUNCTIONS, name);
-    if (math) {
-      if (args.length < math.min || args.length > math.max) {
-        const wanted = math.min === math.max ? `${math.min}` : `${math.min} to ${math.max}`;
-        throw new Unsupported(`the function "${name}" takes ${wanted} arguments, got ${args.length}`);
-      }
-      return math.build(args.map((a) => this.tr(a, 'number', guarded)));
-    }
-    const arity = own(SPECIAL_ARITY, name);
-    if (arity === undefined) throw new Unsupported(`the function "${name}" has no spreadsheet translation`);
-    if (args.length !== arity) {
-      throw new Unsupported(`the function "${name}" takes ${arity} arguments, got ${args.length}`);
-    }
-    if (name === 'distribution_ratio') return this.distributionRatio(args, guarded);
-    if (name === 'extraction_efficiency') return this.extractionEfficiency(args, guarded);
-    return this.ifEmpty(args, guarded); // parent and pair are references, handled in tr
+    const spec = formulaFunction(name);
+    if (!spec?.sheet) throw new Unsupported(`the function "${name}" has no spreadsheet translation`);
+    const countProblem = argumentCountProblem(name, spec, node.args.length);
+    if (countProblem) throw new Unsupported(countProblem);
+    return spec.sheet(this.kit(spec, node.args, guarded));
   }
 
-  /**
-   * D = K for a neutral analyte; K/(1+10^(pH−pKa)) for an acid; K/(1+10^(pKa−pH)) for a base
-   * (Harvey, Analytical Chemistry 2.0 §7.7; Harris, Quantitative Chemical Analysis; REFERENCES.md §1).
-   */
-  private distributionRatio(args: MathNode[], guarded: ReadonlySet<string>): Frag {
-    const [k, ph, pka, acidBase] = args;
-    const ionised = (acid: boolean): Frag =>
-      this.guardedBy(union([this.strict(k), this.strict(ph), this.strict(pka)]), guarded, (g) => {
-        const [hi, lo] = acid ? [ph, pka] : [pka, ph];
-        const exponent = binary('-', this.tr(hi, 'number', g), this.tr(lo, 'number', g));
-        return binary('/', this.tr(k, 'number', g), binary('+', ONE, binary('^', atom('10'), exponent)));
-      });
-    const neutral = (): Frag => this.guardedBy(this.strict(k), guarded, (g) => this.tr(k, 'number', g));
-    const word = constantWord(acidBase);
-    if (word === 'acid') return ionised(true);
-    if (word === 'base') return ionised(false);
-    if (word === 'neutral') return neutral();
-    if (word === 'unknown') {
-      const v = (stripParens(acidBase) as ConstantNode<AnyConstant>).value;
-      throw new Unsupported(`the acid_base value "${String(v)}" is not acid, base or neutral`);
-    }
-    const t = this.tr(acidBase, 'text', guarded);
-    return call('IF', [
-      wordTest(t, ACID_WORDS),
-      ionised(true),
-      call('IF', [wordTest(t, BASE_WORDS), ionised(false), call('IF', [wordTest(t, NEUTRAL_WORDS), neutral(), NA])]),
-    ]);
-  }
-
-  /**
-   * E = 1 − (V_aq/(V_aq + D·V_org))^n as a fraction (IUPAC Gold Book F02503; REFERENCES.md §1);
-   * an empty D gives 1 (no partition coefficient: complete transfer assumed).
-   */
-  private extractionEfficiency(args: MathNode[], guarded: ReadonlySet<string>): Frag {
-    const [d, vAq, vOrg, n] = args;
-    const refs = union(args.map((a) => this.strict(a)));
-    const body = (known: ReadonlySet<string>): Frag =>
-      this.guardedBy(refs, known, (g) => {
-        const aq = this.tr(vAq, 'number', g);
-        const ratio = binary('/', aq, binary('+', aq, binary('*', this.tr(d, 'number', g), this.tr(vOrg, 'number', g))));
-        return binary('-', ONE, binary('^', ratio, this.tr(n, 'number', g)));
-      });
-    return this.whenEmpty(d, guarded, { empty: () => ONE, present: body });
-  }
-
-  /** if_empty(x, fallback): x unless it is empty, then the fallback. */
-  private ifEmpty(args: MathNode[], guarded: ReadonlySet<string>): Frag {
-    const [x, fallback] = args;
-    return this.whenEmpty(x, guarded, {
-      empty: () => this.branch(fallback, 'number', guarded),
-      present: (g) => this.tr(x, 'number', g),
-    });
+  /** The SheetKit a registry entry writes its spreadsheet form with, for these arguments and known-filled cells. */
+  private kit(spec: FormulaFunction, args: MathNode[], guarded: ReadonlySet<string>): SheetKit<Frag> {
+    const kitWith = (g: ReadonlySet<string>) => this.kit(spec, args, g);
+    return {
+      call,
+      binary,
+      neg,
+      num: numberFrag,
+      empty: NA,
+      arg: (i) => this.tr(args[i]!, 'number', guarded),
+      args: () => args.map((a) => this.tr(a, 'number', guarded)),
+      filled: (positions, build) => this.guardedBy(union(positions.map((i) => this.strict(args[i]!))), guarded, (g) => build(kitWith(g))),
+      whether: (i, choices) =>
+        this.whenEmpty(args[i]!, guarded, { empty: () => choices.empty(kitWith(guarded)), present: (g) => choices.present(kitWith(g)) }),
+      maybeEmpty: (i) => this.branch(args[i]!, 'number', guarded),
+      textConstant: (i) => constantText(args[i]!),
+      textIn: (i, words) => wordTest(this.tr(args[i]!, 'text', guarded), words),
+      when: (condition, then, otherwise) => call('IF', [condition, then, otherwise]),
+      refuse: (reason) => {
+        throw new Unsupported(reason);
+      },
+    };
   }
 
   /**
@@ -643,11 +569,8 @@ class Translator {
   }
 }
 
-/** The acid_base argument when it is a text constant: which kind it names; undefined when not a constant. */
-function constantWord(node: MathNode): 'acid' | 'base' | 'neutral' | 'unknown' | undefined {
+/** The constant written as a function's argument, as text; undefined when the argument is not a constant. */
+function constantText(node: MathNode): string | undefined {
   const n = stripParens(node);
-  if (n.type !== 'ConstantNode') return undefined;
-  const v = (n as ConstantNode<AnyConstant>).value;
-  if (typeof v !== 'string') return 'unknown';
-  return parseAcidBase(v) ?? 'unknown';
+  return n.type === 'ConstantNode' ? String((n as ConstantNode<AnyConstant>).value) : undefined;
 }

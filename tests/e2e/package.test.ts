@@ -7,7 +7,7 @@
 import { execFileSync, spawnSync } from 'node:child_process';
 import { mkdirSync, mkdtempSync, readFileSync, readdirSync, rmSync, writeFileSync } from 'node:fs';
 import { tmpdir } from 'node:os';
-import { join } from 'node:path';
+import { join, relative } from 'node:path';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { ROOT } from '../helpers/cli.js';
 
@@ -39,6 +39,37 @@ describe('the packed and installed package', () => {
   it('ships the license, the methods and the built code, and nothing of the repository besides', () => {
     const pkg = join(app, 'node_modules', 'phasebook');
     expect(readdirSync(pkg).sort()).toEqual(['LICENSE', 'README.md', 'dist', 'package.json', 'templates']);
+    // dist/: the entries, the bundles and their code caches, the loader, the precompiled method
+    // validator, the bundled code's licenses, and tsc's type declarations; none of tsc's modules.
+    const dist = join(pkg, 'dist');
+    const built = readdirSync(dist, { recursive: true, withFileTypes: true })
+      .filter((d) => d.isFile() && !d.name.endsWith('.d.ts'))
+      .map((d) => relative(dist, join(d.parentPath, d.name)));
+    expect(built.sort()).toEqual([
+      'THIRD-PARTY-LICENSES',
+      'bundle-loader.cjs',
+      'chart-bundle.cache',
+      'chart-bundle.js',
+      'chart-worker.js',
+      'cli-bundle.cache',
+      'cli-bundle.js',
+      'cli.js',
+      'index.cjs',
+      'index.js',
+      'lib-bundle.js',
+      'method/method-schema.validate.cjs',
+    ]);
+  });
+
+  it('installs nothing but itself: its code is bundled, and the optional SQLite package is left out', () => {
+    expect(readdirSync(join(app, 'node_modules')).filter((f) => !f.startsWith('.')).sort()).toEqual(['phasebook']);
+  });
+
+  it("carries the license notices of the code it bundles", () => {
+    const notices = readFileSync(join(app, 'node_modules', 'phasebook', 'dist', 'THIRD-PARTY-LICENSES'), 'utf8');
+    for (const bundled of ['exceljs 4.4.0 (MIT)', 'mathjs 15.2.0 (Apache-2.0)', 'papaparse 5.7.1 (MIT)', 'vega-lite 6.4.3 (BSD-3-Clause)', 'ajv 8.20.0 (MIT)']) {
+      expect(notices).toContain(bundled);
+    }
   });
 
   it('runs by name: a shipped method by name, --json on stdout', () => {
@@ -60,6 +91,11 @@ describe('the packed and installed package', () => {
     ['ESM', ['--input-type=module', '-e', "import { recalculate, writeOutputs } from 'phasebook'; console.log(typeof recalculate, typeof writeOutputs)"]],
   ])('loads as a library from %s', (_kind, args) => {
     expect(execFileSync(process.execPath, args, { cwd: app, encoding: 'utf8' }).trim()).toBe('function function');
+  });
+
+  it('is one library whichever way it is loaded: the same StopError class from require and import', () => {
+    const script = "import { createRequire } from 'node:module'; import { StopError } from 'phasebook'; console.log(createRequire(import.meta.url)('phasebook').StopError === StopError)";
+    expect(execFileSync(process.execPath, ['--input-type=module', '-e', script], { cwd: app, encoding: 'utf8' }).trim()).toBe('true');
   });
 
   it("runs the README's library example as it stands", () => {
@@ -91,12 +127,13 @@ describe('the packed and installed package', () => {
     expect(outside).toEqual([]);
   });
 
-  it('type-checks from TypeScript with module nodenext', () => {
+  // The app's package.json has no "type": check.ts is CommonJS to TypeScript, check.mts an ES module.
+  it.each(['check.ts', 'check.mts'])('type-checks from TypeScript with module nodenext (%s)', (file) => {
     writeFileSync(
-      join(app, 'check.ts'),
-      "import { recalculate, type RecalcResult } from 'phasebook';\nexport async function verdictOf(file: string): Promise<RecalcResult['verdict']['verdict']> {\n  return (await recalculate(file, { method: 'surface-water' })).verdict.verdict;\n}\n",
+      join(app, file),
+      "import { recalculate, type RecalcResult } from 'phasebook';\nexport async function verdictOf(file: string): Promise<RecalcResult['verdict']['verdict']> {\n  return (await recalculate(file, { method: 'surface-water' })).verdict.verdict;\n}\nexport const rowsNamed = (r: RecalcResult): number[] => r.flags.map((f) => f.spreadsheetRow);\n",
     );
-    writeFileSync(join(app, 'tsconfig.json'), JSON.stringify({ compilerOptions: { module: 'nodenext', moduleResolution: 'nodenext', target: 'es2022', strict: true, noEmit: true, types: [] }, files: ['check.ts'] }));
+    writeFileSync(join(app, 'tsconfig.json'), JSON.stringify({ compilerOptions: { module: 'nodenext', moduleResolution: 'nodenext', target: 'es2022', strict: true, noEmit: true, types: [] }, files: [file] }));
     const tsc = spawnSync(process.execPath, [join(ROOT, 'node_modules', 'typescript', 'bin', 'tsc'), '-p', 'tsconfig.json'], { cwd: app, encoding: 'utf8' });
     expect(tsc.status, tsc.stdout + tsc.stderr).toBe(0);
   });

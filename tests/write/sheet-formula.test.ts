@@ -244,9 +244,10 @@ describe('toSheetFormula: refusals', () => {
     ['a % b', 'the operator "%" has no spreadsheet translation'],
     ['a mod b', 'the operator "mod" has no spreadsheet translation'],
     ['x + 1', 'the symbol "x" has no cell in the sheet'],
-    ['round(a, 1, 2)', 'the function "round" takes 1 to 2 arguments, got 3'],
-    ['sqrt()', 'the function "sqrt" takes 1 arguments, got 0'],
-    ['recovery_pct(a, b)', 'the function "recovery_pct" takes 3 arguments, got 2'],
+    // The argument counts are the registry's (src/formula-functions.ts), worded as the engine words them.
+    ['round(a, 1, 2)', 'round() takes 1 to 2 arguments, got 3'],
+    ['sqrt()', 'sqrt() takes 1 argument, got 0'],
+    ['recovery_pct(a, b)', 'recovery_pct() takes 3 arguments, got 2'],
     ['parent(a + 1)', '"parent" expects one column name, got "parent(a + 1)"'],
     ['sample_type < "ms"', '"sample_type < "ms"" orders text; only == and != compare text'],
     ['"ms" + 1', '""ms"" gives text where a number is needed'],
