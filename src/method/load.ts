@@ -8,6 +8,7 @@ import { StopError, fsReason } from '../errors.js';
 import { parseAcidBase } from '../chemistry/partition.js';
 import { FIELD_SPECS, isCanonicalField, type CanonicalField, type Dimension, type SampleType } from '../columns/fields.js';
 import { GENERIC_LIMITS, GENERIC_QC } from './defaults.js';
+import { DEFAULT_MIN_BIAS, DEFAULT_MIN_RW } from '../figures/nordtest.js';
 import { methodSchemaValidator } from './schema-validator.js';
 import type { AnalyteInfo, FieldConfig, FormulaDef, LimitTable, Method } from './types.js';
 
@@ -164,6 +165,8 @@ export function parseMethod(text: string, options: { file: string }): Method {
     molar_mass: a.molar_mass,
     surrogate: a.surrogate ?? false,
     limits: (a.limits ?? {}) as LimitTable,
+    spike_uncertainty_pct: a.spike_uncertainty_pct,
+    expanded_uncertainty_pct: a.expanded_uncertainty_pct,
   }));
   for (const a of analytes) {
     if ((a.acid_base === 'acid' || a.acid_base === 'base') && a.pka === undefined) {
@@ -246,6 +249,10 @@ export function parseMethod(text: string, options: { file: string }): Method {
       runRule: raw.qc?.run_rule ?? GENERIC_QC.runRule,
       runRuleAll: raw.qc?.run_rule_all ?? GENERIC_QC.runRuleAll,
       runRulePerLevel: raw.qc?.run_rule_per_level ?? GENERIC_QC.runRulePerLevel,
+    },
+    figures: {
+      minPointsRw: raw.figures?.min_points_rw ?? DEFAULT_MIN_RW,
+      minPointsBias: raw.figures?.min_points_bias ?? DEFAULT_MIN_BIAS,
     },
     formulas,
   };
@@ -346,6 +353,8 @@ interface RawMethod {
       molar_mass?: number;
       surrogate?: boolean;
       limits?: Record<string, RawLimitSet>;
+      spike_uncertainty_pct?: number;
+      expanded_uncertainty_pct?: number;
     }
   >;
   defaults?: { reporting_limit?: number };
@@ -358,5 +367,6 @@ interface RawMethod {
     run_rule_all?: number;
     run_rule_per_level?: number;
   };
+  figures?: { min_points_rw?: number; min_points_bias?: number };
   formulas: Array<{ name: string; expr: string; unit?: string; description?: string }>;
 }
