@@ -23,6 +23,7 @@ import { CONTROL_LAYERS, RECOVERY_LAYERS, controlChartSpec, recoveryChartSpec, t
 import { drawChart } from './draw.js';
 import { html, trusted, type Markup } from './markup.js';
 import { REPORT_CSS } from './style.js';
+import { RESULT_COLUMN } from '../figures/expanded.js';
 
 export interface ReportOptions {
   /** The batch to report (default the first batch of the worklist). */
@@ -160,6 +161,7 @@ ${summaryTable(groups)}
 <h2>Flags</h2>
 ${flagsTable(result, flags)}
 </section>
+${uncertaintySection(result, rows)}
 <section id="recoveries">
 <h2>Recoveries in this batch</h2>
 <p class="note">Each bar spans the acceptance limits that judged that control; the mark is its recovery.</p>
@@ -180,6 +182,29 @@ ${historySections}
 </html>
 `;
   return doc.text;
+}
+
+/**
+ * The batch's sample results with their expanded uncertainty (figures/expanded.ts), and
+ * where each analyte's U comes from; nothing when the run has none.
+ */
+function uncertaintySection(result: RecalcResult, rows: readonly number[]): Markup | string {
+  const u = result.uncertainty;
+  if (!u) return '';
+  const conc = result.computed.get(RESULT_COLUMN);
+  const withU = rows.filter((r) => Number.isFinite(u.expanded[r]!));
+  const show = (x: number) => (Number.isFinite(x) ? significant(x, 4) : '');
+  return html`<section id="uncertainty">
+<h2>Results with their expanded uncertainty</h2>
+<ul class="sources">${[...u.byAnalyte.values()].map((a) => html`<li><strong>${a.analyte}</strong>: U = ${significant(a.pct, 4)} % of the result (k = ${a.k}), ${a.source}</li>`)}</ul>
+${
+  withU.length
+    ? html`<table id="uncertainty-table"><thead><tr><th>sample</th><th>analyte</th><th>${RESULT_COLUMN} [${u.unit}]</th><th>expanded uncertainty U [${u.unit}]</th><th>k</th></tr></thead><tbody>${withU.map(
+        (r) => html`<tr><td>${text(result, 'sample_id', r)}</td><td>${text(result, 'analyte', r)}</td><td class="num">${show(conc?.[r] ?? NaN)}</td><td class="num">${show(u.expanded[r]!)}</td><td class="num">${show(u.k[r]!)}</td></tr>`,
+      )}</tbody></table>`
+    : html`<p class="note">No sample result of this batch has an expanded uncertainty.</p>`
+}
+</section>`;
 }
 
 /** Each batch's rows, summary groups and flags, in worklist order. */

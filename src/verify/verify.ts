@@ -23,7 +23,8 @@ import type { RawCell, RawTable, RowProblem } from '../read/types.js';
 import type { CellValue, RowContext } from '../write/workbook/cells.js';
 import { IntegrityDigest, sha256Text } from '../write/workbook/digest.js';
 import { FLAGS_SHEET } from '../write/workbook/flags-sheet.js';
-import { IN_HOUSE_TITLE, LIMITS_TITLE, LINE_ENDS_KEY, METHOD_SHEET, METHOD_TEXT_TITLE, lineEndOf } from '../write/workbook/method-sheet.js';
+import { IN_HOUSE_TITLE, LIMITS_TITLE, LINE_ENDS_KEY, METHOD_SHEET, METHOD_TEXT_TITLE, UNCERTAINTY_TITLE, lineEndOf } from '../write/workbook/method-sheet.js';
+import type { AnalyteUncertainty, UncertaintyTable } from '../figures/expanded.js';
 import { inHouseKey, type InHouseLimits } from '../qc/limits.js';
 import { WORKBOOK_FORMAT } from '../write/workbook/options.js';
 import { SHEET_ORDER, planWorkbook } from '../write/workbook/plan.js';
@@ -140,6 +141,7 @@ export async function verifyWorkbook(path: string, options: VerifyOptions = {}):
     result = recalculateTable(raw, {
       method,
       inHouse: storedInHouseLimits(methodSheet),
+      uncertainty: storedUncertainty(methodSheet),
       worklist: {
         path: needText(KEYS.worklistName),
         name: needText(KEYS.worklistName),
@@ -256,6 +258,22 @@ function storedInHouseLimits(sheet: StoredSheet): InHouseLimits | undefined {
     const [analyte, type, low, high, n] = [1, 2, 3, 4, 5].map((c) => cells.get(c)?.value);
     if (typeof low !== 'number' || typeof high !== 'number') continue;
     out.set(inHouseKey(String(analyte ?? ''), String(type ?? '')), { low, high, n: typeof n === 'number' ? n : 0 });
+  }
+  return out;
+}
+
+/** The expanded uncertainty per analyte as the Method sheet lists it (none when it lists none). */
+function storedUncertainty(sheet: StoredSheet): UncertaintyTable | undefined {
+  const title = findTitle(sheet, UNCERTAINTY_TITLE);
+  if (title === 0) return undefined;
+  const out = new Map<string, AnalyteUncertainty>();
+  for (let r = title + 2; r <= sheet.lastRow; r++) {
+    const cells = sheet.row(r);
+    if (cells.size === 0) break;
+    const [analyte, pct, k, origin, source] = [1, 2, 3, 4, 5].map((c) => cells.get(c)?.value);
+    if (typeof pct !== 'number' || typeof k !== 'number') continue;
+    const name = String(analyte ?? '');
+    out.set(name.trim().toLowerCase(), { analyte: name, pct, k, origin: origin === 'method' ? 'method' : 'history', source: String(source ?? '') });
   }
   return out;
 }

@@ -8,7 +8,7 @@
  * extract_conc / 100 (DESIGN.md §4). lcs: spike 1 ng/mL, recovery = extract_conc. ms/msd:
  * spike 1 ng/mL on a native sample of extract P, recovery = (extract − P) / 100 / 1 × 100.
  */
-import { mkdirSync, readFileSync, rmSync, writeFileSync } from 'node:fs';
+import { mkdirSync, readFileSync, readdirSync, rmSync, writeFileSync } from 'node:fs';
 import { join, resolve } from 'node:path';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { runCli, tempDir } from '../helpers/cli.js';
@@ -209,5 +209,60 @@ describe('figures: the period and the text', () => {
     const r = runCli(['figures', '--history', history, ...args]);
     expect(r.code).toBe(2);
     expect(r.stderr).toContain(message);
+  });
+});
+
+describe('recalc --history: each sample result with its expanded uncertainty', () => {
+  const T31 = '2026-08-20T15:00:00.000Z';
+  let out: string;
+  let expectedPct: Record<string, number>;
+  let csv: string[][];
+  beforeAll(() => {
+    // What the history gives before this run: the figures up to its time.
+    const before = JSON.parse(figures(['--until', T31, '--json']).stdout);
+    expectedPct = Object.fromEntries(before.figures.map((f: { analyte: string; uncertainty: { U_pct: number } }) => [f.analyte, f.uncertainty.U_pct]));
+    const worklist = join(root, 'run-31.csv');
+    writeFileSync(
+      worklist,
+      [
+        HEADER,
+        'S31-1,sample,,B31,Atrazine,41.5,100,10,1,1,',
+        'S31-2,sample,,B31,Simazine,12.25,100,10,1,1,',
+        'S31-3,sample,,B31,Atrazine,ND,100,10,1,1,',
+        'B31-BLK,blank,,B31,Atrazine,0.2,100,10,1,1,',
+        'B31-LCS,lcs,,B31,Atrazine,99.1,100,10,1,1,1',
+      ].join('\n') + '\n',
+    );
+    out = join(root, 'out-31');
+    const r = runCli(['recalc', worklist, '-m', join(root, 'lab-lle.yaml'), '-o', out, '--history', history, '--timestamp', T31, '--quiet']);
+    expect(r.stderr).toBe('');
+    expect(r.code).toBe(0);
+    csv = readFileSync(join(out, 'run-31.results.csv'), 'utf8').trim().split('\n').map((l) => l.split(','));
+  }, 120_000);
+
+  it('puts U (in the result\'s unit) and k beside the concentrations of the results CSV', () => {
+    const header = csv[0]!;
+    const at = (name: string) => header.indexOf(name);
+    expect(at('expanded_uncertainty [ng/mL]')).toBeGreaterThan(at('pre_extraction_conc [ng/mL]'));
+    expect(at('coverage_factor')).toBe(at('expanded_uncertainty [ng/mL]') + 1);
+    const rows = Object.fromEntries(csv.slice(1).map((r) => [r[0], r]));
+    for (const [id, analyte, extract] of [['S31-1', 'Atrazine', 41.5], ['S31-2', 'Simazine', 12.25]] as const) {
+      const result = extract / 100; // E = 100 %, 1 mL from 100 mL (file comment)
+      expect(Number(rows[id]![at('pre_extraction_conc [ng/mL]')])).toBeCloseTo(result, 12);
+      // U = U % × result / 100 (Nordtest U is relative), U % as figures gave it for the history before this run.
+      expect(Number(rows[id]![at('expanded_uncertainty [ng/mL]')])).toBeCloseTo((expectedPct[analyte]! / 100) * result, 12);
+      expect(rows[id]![at('coverage_factor')]).toBe('2');
+    }
+    // A non-detect has no number to carry a U; controls carry none.
+    for (const id of ['S31-3', 'B31-BLK', 'B31-LCS']) expect(rows[id]![at('expanded_uncertainty [ng/mL]')]).toBe('');
+  });
+
+  it('lists the U and its source on the Method sheet and the report, and the workbook verifies', () => {
+    const report = readFileSync(join(out, readdirSync(out).find((f) => f.endsWith('.report.html'))!), 'utf8');
+    expect(report).toContain('<h2>Results with their expanded uncertainty</h2>');
+    expect(report).toMatch(/Atrazine<\/strong>: U = [\d.]+ % of the result \(k = 2\), Nordtest TR 537 from the QC history .*qc\.sqlite, runs of 2024-08-20 to 2026-08-20: u\(Rw\) from 30 lcs recoveries, bias from 60 ms and msd recoveries; u\(Cref\) 1\.2 %/);
+    const v = runCli(['verify', join(out, 'run-31.xlsx')]);
+    expect(v.stderr + v.stdout).not.toContain('differ');
+    expect(v.code).toBe(0);
   });
 });

@@ -57,6 +57,13 @@ const arbRow = fc
     }),
   );
 
+/** Enough points in m1 for Atrazine's U and MDL_s, whatever the random rows add. */
+const BASE: HistoryRow[] = [
+  ...[97.1, 103.3, 99.7].map((v) => row({ sampleType: 'lcs', analyte: 'Atrazine', methodName: 'm1', recoveryPct: v })),
+  ...[94.9, 106.2].map((v) => row({ sampleType: 'ms', analyte: 'Atrazine', methodName: 'm1', recoveryPct: v })),
+  ...[0.31, 0.27, 0.35, 0.29, 0.33, 0.26, 0.37].map((v) => row({ sampleType: 'mdl', analyte: 'Atrazine', methodName: 'm1', result: v })),
+];
+
 describe('figures do not depend on the order runs were recorded in', () => {
   it('gives the same figures, to the last bit, for any order of the same rows', () => {
     const settings = new Map([
@@ -65,11 +72,18 @@ describe('figures do not depend on the order runs were recorded in', () => {
     ]);
     fc.assert(
       fc.property(
-        fc.array(arbRow, { minLength: 60, maxLength: 240 }).chain((rows) => fc.tuple(fc.constant(rows), fc.shuffledSubarray(rows, { minLength: rows.length, maxLength: rows.length }))),
+        fc
+          .array(arbRow, { minLength: 20, maxLength: 240 })
+          .map((rows) => [...BASE, ...rows])
+          .chain((rows) => fc.tuple(fc.constant(rows), fc.shuffledSubarray(rows, { minLength: rows.length, maxLength: rows.length }))),
         ([rows, shuffled]) => {
           const before = figuresJson(computeFigures(rows, settings));
-          // Most groups hold enough points for a number (else the property would hold trivially).
-          expect(before.filter((f) => f.uncertainty.U_pct !== null).length).toBeGreaterThan(0);
+          // The base rows give m1's Atrazine a U, and an MDL_s unless a random spike was not detected
+          // (else the property could hold trivially).
+          const base = before.find((f) => f.method === 'm1' && f.analyte === 'Atrazine')!;
+          expect(base.uncertainty.U_pct).not.toBeNull();
+          const spikesNotDetected = rows.some((r) => r.methodName === 'm1' && r.analyte === 'Atrazine' && r.sampleType === 'mdl' && r.nondetect);
+          expect(base.mdl.mdl_s === null).toBe(spikesNotDetected);
           expect(figuresJson(computeFigures(shuffled, settings))).toEqual(before);
         },
       ),

@@ -23,6 +23,8 @@ export const METHOD_TEXT_TITLE = 'Method file text';
 export const LIMITS_TITLE = 'Acceptance limits';
 export const LINE_ENDS_KEY = 'line ends of the method file';
 export const IN_HOUSE_TITLE = 'In-house recovery limits applied (from the QC history)';
+export const UNCERTAINTY_TITLE = 'Expanded uncertainty of the results';
+export const UNCERTAINTY_HEADERS = ['analyte', 'U % of the result', 'k', 'from', 'source'] as const;
 
 /** The in-house limits that judged this run's controls, one per (analyte, control type), from the rows they judged. */
 export function inHouseApplied(result: RecalcResult): { analyte: string; type: string; low: number; high: number; n: number }[] {
@@ -243,6 +245,16 @@ export function planMethodSheet(result: RecalcResult, options: { formulaForms?: 
     b.table(
       ['analyte', 'control type', 'recovery low %', 'recovery high %', 'points'],
       inHouseApplied(result).map((e) => [e.analyte, e.type, e.low, e.high, e.n]),
+    );
+    b.blank();
+  }
+
+  // The expanded uncertainty the results carry, so verify can give it again without the history.
+  if (result.uncertainty) {
+    b.title(UNCERTAINTY_TITLE, 'section');
+    b.table(
+      [...UNCERTAINTY_HEADERS],
+      [...result.uncertainty.byAnalyte.values()].map((u) => [u.analyte, u.pct, u.k, u.origin, cell(u.source, { style: 'wrap' })]),
     );
     b.blank();
   }
