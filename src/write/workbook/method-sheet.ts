@@ -310,7 +310,7 @@ export function planMethodSheet(result: RecalcResult, options: { formulaForms?: 
   };
 }
 
-const KINDS: readonly ControlKind[] = ['lcs', 'lcsd', 'ms', 'msd', 'dup', 'qc', 'surrogate'];
+const KINDS: readonly ControlKind[] = ['lcs', 'lcsd', 'ms', 'msd', 'dup', 'qc', 'mdl', 'surrogate'];
 
 /** One row per (scope, control type, qc level) that sets a limit. */
 export function limitRows(method: Method): CellValue[][] {
