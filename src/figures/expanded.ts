@@ -28,7 +28,23 @@ export interface AnalyteUncertainty {
   origin: 'method' | 'history';
   /** Where it comes from, in words: the method, or the history with its period and point counts. */
   source: string;
+  /** From the history: the file, the end of the period, and the recoveries it was derived from (run order). */
+  history?: { file: string; until: string; points: UncertaintyPoint[] };
 }
+
+/** A recovery behind a U: what the workbook lists so that verify can derive the U again. */
+export interface UncertaintyPoint {
+  sampleType: string;
+  qcLevel: string;
+  recoveryPct: number;
+  runTime: string;
+  worklistName: string;
+  batchId: string;
+  sampleId: string;
+}
+
+/** The sample types whose recoveries a U is derived from. */
+const POINT_TYPES = new Set(['lcs', 'ms', 'msd', 'qc']);
 
 /** Per analyte, keyed by its name in lower case. */
 export type UncertaintyTable = ReadonlyMap<string, AnalyteUncertainty>;
@@ -62,6 +78,9 @@ export function uncertaintyFromHistory(
       }
     }
     if (!Number.isFinite(pct)) continue;
+    const points = own
+      .filter((r) => r.analyte === e.analyte && POINT_TYPES.has(r.sampleType) && Number.isFinite(r.recoveryPct))
+      .map((r) => ({ sampleType: r.sampleType, qcLevel: r.qcLevel, recoveryPct: r.recoveryPct, runTime: r.runTime, worklistName: r.worklistName, batchId: r.batchId, sampleId: r.sampleId }));
     const cref = e.spikeUncertaintyStated ? `u(Cref) ${u.uCrefPct} %` : 'u(Cref) 0 % (none stated)';
     out.set(e.analyte.toLowerCase(), {
       analyte: e.analyte,
@@ -69,9 +88,37 @@ export function uncertaintyFromHistory(
       k: COVERAGE_K,
       origin: 'history',
       source: `Nordtest TR 537 from the QC history ${options.historyFile}, runs of ${span}: ${detail}; ${cref}`,
+      history: { file: options.historyFile, until: options.until, points },
     });
   }
   return out;
+}
+
+/**
+ * The U per analyte from the points a workbook lists (verify): the same derivation as
+ * uncertaintyFromHistory, over history rows rebuilt from the points.
+ */
+export function uncertaintyFromPoints(
+  points: ReadonlyArray<UncertaintyPoint & { analyte: string }>,
+  options: { method: Method; until: string; historyFile: string },
+): Map<string, AnalyteUncertainty> {
+  const rows: HistoryRow[] = points.map((p, i) => ({
+    ...p,
+    runId: i + 1,
+    worklistSha256: '',
+    methodName: options.method.name,
+    methodSha256: options.method.sha256,
+    concentrationUnit: '',
+    rowNumber: 0,
+    rpdPct: NaN,
+    status: 'pass',
+    recoveryLow: NaN,
+    recoveryHigh: NaN,
+    flags: '',
+    result: NaN,
+    nondetect: undefined,
+  }));
+  return uncertaintyFromHistory(rows, options);
 }
 
 /** The U per analyte for a run: the method's fixed ones over those from the history. */

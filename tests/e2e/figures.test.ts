@@ -11,6 +11,7 @@
 import { mkdirSync, readFileSync, readdirSync, rmSync, writeFileSync } from 'node:fs';
 import { join, resolve } from 'node:path';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
+import ExcelJS from 'exceljs';
 import { runCli, tempDir } from '../helpers/cli.js';
 
 let root: string;
@@ -264,5 +265,31 @@ describe('recalc --history: each sample result with its expanded uncertainty', (
     const v = runCli(['verify', join(out, 'run-31.xlsx')]);
     expect(v.stderr + v.stdout).not.toContain('differ');
     expect(v.code).toBe(0);
+  });
+
+  it('lists the recoveries behind each U, and verify derives the U again from them', async () => {
+    const wb = new ExcelJS.Workbook();
+    await wb.xlsx.readFile(join(out, 'run-31.xlsx'));
+    const ws = wb.getWorksheet('Method')!;
+    let title = 0;
+    ws.eachRow((row, r) => {
+      if (row.getCell(1).value === 'Recoveries behind the expanded uncertainty (from the QC history)') title = r;
+    });
+    expect(title).toBeGreaterThan(0);
+    expect(ws.getRow(title + 3).values).toEqual([, 'analyte', 'sample type', 'qc level', 'recovery %', 'run time', 'worklist', 'batch', 'sample id']);
+    // 30 runs × (1 lcs + 2 matrix spikes) per analyte.
+    let points = 0;
+    for (let r = title + 4; ws.getRow(r).getCell(1).value; r++) points++;
+    expect(points).toBe(2 * 30 * 3);
+    // The first point is an lcs recovery of Atrazine, as invented: change it, and the U no longer follows.
+    const first = ws.getRow(title + 4);
+    expect([first.getCell(1).value, first.getCell(2).value, first.getCell(4).value]).toEqual(['Atrazine', 'lcs', invented.Atrazine!.lcs[0]]);
+    first.getCell(4).value = 150;
+    const edited = join(out, 'edited.xlsx');
+    await wb.xlsx.writeFile(edited);
+    const v = runCli(['verify', edited]);
+    expect(v.code).toBe(1);
+    expect(v.stdout).toMatch(/Method!B\d+, .*U % of the result: stored [\d.]+, expected [\d.]+/);
+    expect(v.stdout).toMatch(/Results!\w+2, worklist row 2, sample "S31-1", expanded_uncertainty \[ng\/mL\]: stored [\d.]+, expected [\d.]+/);
   });
 });
