@@ -262,6 +262,11 @@ describe('recalc --history: each sample result with its expanded uncertainty', (
     const report = readFileSync(join(out, readdirSync(out).find((f) => f.endsWith('.report.html'))!), 'utf8');
     expect(report).toContain('<h2>Results with their expanded uncertainty</h2>');
     expect(report).toMatch(/Atrazine<\/strong>: U = [\d.]+ % of the result \(k = 2\), Nordtest TR 537 from the QC history .*qc\.sqlite, runs of 2024-08-20 to 2026-08-20: u\(Rw\) from 30 lcs recoveries, bias from 60 ms and msd recoveries; u\(Cref\) 1\.2 %/);
+    // A chart per analyte of the recoveries behind its U (30 lcs and 60 matrix spikes), drawn inline as SVG.
+    for (const analyte of ['Atrazine', 'Simazine']) {
+      const figure = new RegExp(`<figure class="chart" data-chart="uncertainty" data-analyte="${analyte}" data-points="90" data-layer="figure_points">\\s*<svg[\\s\\S]*?figure_points_marks[\\s\\S]*?</svg>`);
+      expect(report).toMatch(figure);
+    }
     const v = runCli(['verify', join(out, 'run-31.xlsx')]);
     expect(v.stderr + v.stdout).not.toContain('differ');
     expect(v.code).toBe(0);
