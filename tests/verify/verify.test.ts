@@ -196,7 +196,7 @@ describe('not a phasebook workbook', () => {
     const path = await edited((wb) => {
       wb.getWorksheet('Provenance')!.getCell('B1').value = 'spreadsheet of another kind';
     });
-    await expect(verifyWorkbook(path)).rejects.toThrow('is not a phasebook workbook: it was written in the format "spreadsheet of another kind"; this phasebook reads "phasebook-workbook 3"');
+    await expect(verifyWorkbook(path)).rejects.toThrow('is not a phasebook workbook: it was written in the format "spreadsheet of another kind"; this phasebook reads "phasebook-workbook 4"');
   });
 
   it('a workbook of an earlier layout is refused with the way to check it, never called changed', async () => {
@@ -206,7 +206,7 @@ describe('not a phasebook workbook', () => {
     });
     await expect(verifyWorkbook(path)).rejects.toThrow(
       'was written in the format "phasebook-workbook 2" by an earlier phasebook, whose sheets this version lays out differently; ' +
-        'this phasebook verifies "phasebook-workbook 3": verify it with the phasebook version its Provenance sheet names',
+        'this phasebook verifies "phasebook-workbook 4": verify it with the phasebook version its Provenance sheet names',
     );
   });
 });

@@ -33,6 +33,8 @@ export const DEFAULT_MAX_NOTES = 10_000;
 /** Identifies a phasebook workbook and the layout `verify` expects. */
 /**
  * Version 3: the Summary sheet's verdict sentence and failed-controls table, the calibrator type, the blank
- * limits and the number format on the Provenance sheet. verify reads only the layout it writes.
+ * limits and the number format on the Provenance sheet. Version 4: the mdl type (a Summary column), and
+ * where a run has them, the expanded uncertainty columns of the Results sheet and their tables on the
+ * Method sheet. verify reads only the layout it writes.
  */
-export const WORKBOOK_FORMAT = 'phasebook-workbook 3';
+export const WORKBOOK_FORMAT = 'phasebook-workbook 4';
