@@ -3,6 +3,7 @@ import { describe, expect, it } from 'vitest';
 import { computeFigures, defaultPeriod, figuresJson, rowsInPeriod, settingsFromHistory, settingsOf } from '../../src/figures/figures.js';
 import type { HistoryRow } from '../../src/history/records.js';
 import { parseMethod } from '../../src/method/load.js';
+import type { StopError } from '../../src/errors.js';
 import { readFileSync } from 'node:fs';
 import { resolve } from 'node:path';
 
@@ -68,7 +69,7 @@ describe('figures do not depend on the order runs were recorded in', () => {
   it('gives the same figures, to the last bit, for any order of the same rows', () => {
     const settings = new Map([
       ['m1', { ...settingsOf(undefined, 'defaults'), minPointsRw: 3, minPointsBias: 2 }],
-      ['m2', { ...settingsOf(undefined, 'defaults'), minPointsRw: 2, minPointsBias: 1 }],
+      ['m2', { ...settingsOf(undefined, 'defaults'), minPointsRw: 2, minPointsBias: 2 }],
     ]);
     fc.assert(
       fc.property(
@@ -153,6 +154,27 @@ describe('settings from the history', () => {
     expect(s).toMatchObject({ minPointsRw: 8, minPointsBias: 3 });
     expect(s.analytes.get('atrazine')).toEqual({ spikeUncertaintyPct: 0.8, expandedUncertaintyPct: 15, surrogate: false });
     expect(s.source).toMatch(/^the method as recorded with its latest run \(SHA-256 [0-9a-f]{12}…\)$/);
+  });
+
+  it.each([
+    ['figures: { min_points_rw: 1 }', 'figures.min_points_rw'],
+    ['figures: { min_points_bias: 1 }', 'figures.min_points_bias'],
+    ['analytes:\n  Atrazine: { spike_uncertainty_pct: -1 }', 'analytes.Atrazine.spike_uncertainty_pct'],
+    ['analytes:\n  Atrazine: { expanded_uncertainty_pct: 0 }', 'analytes.Atrazine.expanded_uncertainty_pct'],
+  ])('refuses a method with %j, naming the key', (extra, key) => {
+    let message = '';
+    try {
+      parseMethod(`${readFileSync(resolve('templates/generic-lle.yaml'), 'utf8')}\n${extra}\n`, { file: 'm.yaml' });
+    } catch (err) {
+      message = (err as StopError).describe();
+    }
+    expect(message).toContain(`key "${key}"`);
+  });
+
+  it('says what a minimum must be', () => {
+    expect(() => parseMethod(`${readFileSync(resolve('templates/generic-lle.yaml'), 'utf8')}\nfigures: { min_points_bias: 1 }\n`, { file: 'm.yaml' })).toThrow(
+      'must be >= 2, got 1',
+    );
   });
 
   it('falls back to the defaults, and says so, for a history without method texts', () => {
