@@ -10,6 +10,7 @@ import { Command, CommanderError, InvalidArgumentError, Option } from 'commander
 import { StopError } from './errors.js';
 import { EXIT } from './commands/io.js';
 import { registerTrendsCommand } from './commands/trends.js';
+import { registerFiguresCommand } from './commands/figures.js';
 import { registerMethodCommand } from './commands/method.js';
 import { registerPlanCommand } from './commands/plan.js';
 import { registerVerifyCommand } from './commands/verify.js';
@@ -84,6 +85,7 @@ export function buildProgram(io: { exit: (code: number) => void }): Command {
       io.exit(await recalcCommand(worklist, opts));
     });
   registerTrendsCommand(program, io);
+  registerFiguresCommand(program, io);
   registerMethodCommand(program, io);
   registerPlanCommand(program, io);
   registerVerifyCommand(program, io);

@@ -20,6 +20,7 @@ import type { InHouseLimits } from './qc/limits.js';
 import { readWorklist, withSheetHint } from './read/worklist.js';
 import type { RawTable } from './read/types.js';
 import { summarize, type GroupSummary, type Verdict } from './summary/summarize.js';
+import { RESULT_COLUMN, expandedUncertaintyColumns, uncertaintyTable, type UncertaintyTable } from './figures/expanded.js';
 
 export interface RecalcOptions {
   /** Method file path, or a method already loaded. */
@@ -34,6 +35,8 @@ export interface RecalcOptions {
   onProgress?: OnProgress;
   /** In-house recovery limits from the QC history (used when the method's qc.limits is in_house). */
   inHouse?: InHouseLimits;
+  /** Expanded uncertainty per analyte from the QC history (figures/expanded.ts); a method's fixed U wins. */
+  uncertainty?: UncertaintyTable;
 }
 
 export interface WorklistInfo {
@@ -64,6 +67,19 @@ export interface RecalcResult {
   verdict: Verdict;
   rowsIn: number;
   rowsOut: number;
+  /** The expanded uncertainty of the sample results, when the method or the QC history gives one for an analyte. */
+  uncertainty?: ResultsUncertainty;
+}
+
+export interface ResultsUncertainty {
+  /** The U (percent, k) per analyte and where it comes from. */
+  byAnalyte: UncertaintyTable;
+  /** Absolute U of each sample result, in the result's unit (NaN where none). */
+  expanded: Float64Array;
+  /** The coverage factor of each U (NaN where none). */
+  k: Float64Array;
+  /** The result's unit. */
+  unit: string;
 }
 
 export async function recalculate(worklistPath: string, options: RecalcOptions): Promise<RecalcResult> {
@@ -77,13 +93,13 @@ export async function recalculate(worklistPath: string, options: RecalcOptions):
   });
   options.onProgress?.({ stage: 'read', rows: raw.rowCount, totalRows: raw.rowCount, fraction: 1 });
   const worklist = await describeFile(worklistPath);
-  return recalculateTable(raw, { method, worklist, onProgress: options.onProgress, inHouse: options.inHouse });
+  return recalculateTable(raw, { method, worklist, onProgress: options.onProgress, inHouse: options.inHouse, uncertainty: options.uncertainty });
 }
 
 /** The stages after reading, for callers that already hold a RawTable. */
 export function recalculateTable(
   raw: RawTable,
-  ctx: { method: Method; worklist: WorklistInfo; onProgress?: OnProgress; inHouse?: InHouseLimits },
+  ctx: { method: Method; worklist: WorklistInfo; onProgress?: OnProgress; inHouse?: InHouseLimits; uncertainty?: UncertaintyTable },
 ): RecalcResult {
   const { method } = ctx;
   // The stages after reading take about equal time; each one done moves "evaluated" on.
@@ -168,6 +184,7 @@ export function recalculateTable(
     verdict: overall,
     rowsIn: raw.rowCount,
     rowsOut: table.rowCount,
+    uncertainty: resultsUncertainty(method, { table, computed: evaluated.columns, surrogate, fromHistory: ctx.uncertainty }),
   };
 }
 
@@ -178,6 +195,26 @@ export function recalculateTable(
 function atSpreadsheetRows<T extends { row: number }>(items: T[], rowNumbers: ArrayLike<number>): Array<T & SpreadsheetRow> {
   return items.map((item) => ({ ...item, spreadsheetRow: rowNumbers[item.row]! }));
 }
+/** The U of every sample result, when the method or the history gives one for any analyte. */
+function resultsUncertainty(
+  method: Method,
+  p: { table: WorkTable; computed: Map<string, Float64Array>; surrogate: Float64Array; fromHistory?: UncertaintyTable },
+): ResultsUncertainty | undefined {
+  const byAnalyte = uncertaintyTable(method, p.fromHistory);
+  const result = p.computed.get(RESULT_COLUMN);
+  if (byAnalyte.size === 0 || !result) return undefined;
+  const unit = method.formulas.find((f) => f.name === RESULT_COLUMN)?.unit ?? method.units.concentration;
+  const columns = expandedUncertaintyColumns({
+    rowCount: p.table.rowCount,
+    sampleType: p.table.sampleType,
+    analyte: p.table.texts.get('analyte')!,
+    surrogate: p.surrogate,
+    result,
+    table: byAnalyte,
+  });
+  return { byAnalyte, ...columns, unit };
+}
+
 
 function joinRowFlags(n: number, flags: readonly Flag[]): string[] {
   // Sets only for rows that have a flag: most rows have none.

@@ -15,6 +15,7 @@
  */
 import { openHistory, type RecordSummary } from './history/store.js';
 import { inHouseLimitsOf, trendsWithRun } from './history/trends.js';
+import { uncertaintyFromHistory } from './figures/expanded.js';
 import { StopError } from './errors.js';
 import { loadMethod } from './method/load.js';
 import { recalculate, type RecalcResult } from './pipeline.js';
@@ -65,9 +66,12 @@ export async function runRecalc(worklist: string, options: RecalcRunOptions): Pr
   try {
     // A method that judges controls by in-house limits takes them from the history as it was before this run.
     const inHouse = session && method.qc.limitsSource === 'in_house' ? inHouseLimitsOf(session.rows) : undefined;
+    // So does the expanded uncertainty of its results (Nordtest figures over the 24 months up to this run).
+    const uncertainty = session ? uncertaintyFromHistory(session.rows, { method, until: options.timestamp, historyFile: session.file }) : undefined;
     const result = await recalculate(worklist, {
       method,
       inHouse,
+      uncertainty,
       sheet: options.sheet,
       maxBytes: options.maxBytes,
       maxUnpackedBytes: options.maxUnpackedBytes,

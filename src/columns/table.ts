@@ -240,7 +240,7 @@ export function buildTable(raw: RawTable, map: ColumnMap, method: Method): WorkT
       if (Number.isNaN(values[r]!) && !(f === 'extract_conc' && nondetect[r])) fail(r, headerOf(f), `expected a value for ${f}, got an empty cell`);
     }
     const type = sampleType[r];
-    if (!rowError[r] && (type === 'lcs' || type === 'lcsd' || type === 'ms' || type === 'msd' || type === 'qc')) {
+    if (!rowError[r] && (type === 'lcs' || type === 'lcsd' || type === 'ms' || type === 'msd' || type === 'qc' || type === 'mdl')) {
       // A spiked control without its spike cannot be judged: it must not pass silently.
       const spike = spikes[r]!;
       if (!(spike > 0)) {

@@ -40,7 +40,7 @@ export type CanonicalField = (typeof CANONICAL_FIELDS)[number];
 
 const specs: Omit<FieldSpec, 'name'>[] = [
   { kind: 'text', dimension: 'none', required: true, description: 'Sample identifier, kept verbatim' },
-  { kind: 'text', dimension: 'none', required: false, description: 'sample, blank, lcs, lcsd, ms, msd, dup or qc' },
+  { kind: 'text', dimension: 'none', required: false, description: 'sample, blank, lcs, lcsd, ms, msd, dup, qc, mdl or calibrator' },
   { kind: 'text', dimension: 'none', required: false, description: 'The native sample of an ms, msd or dup; the lcs of an lcsd' },
   { kind: 'text', dimension: 'none', required: false, description: 'Preparation batch' },
   { kind: 'text', dimension: 'none', required: true, description: 'Analyte name' },
@@ -68,9 +68,11 @@ export const FIELD_SPECS: ReadonlyMap<CanonicalField, FieldSpec> = new Map(
 /**
  * The canonical sample types. `calibrator` covers calibration standards, system-suitability
  * and other rows a lab exports beside its samples: carried into every output verbatim, never
- * computed or judged.
+ * computed or judged. `mdl` is a low-level spiked blank for the method detection limit
+ * (40 CFR 136 Appendix B, Revision 2): computed like an lcs, judged only by recovery limits
+ * the method gives for it, and kept in the QC history for `phasebook figures`.
  */
-export const SAMPLE_TYPES = ['sample', 'blank', 'lcs', 'lcsd', 'ms', 'msd', 'dup', 'qc', 'calibrator'] as const;
+export const SAMPLE_TYPES = ['sample', 'blank', 'lcs', 'lcsd', 'ms', 'msd', 'dup', 'qc', 'mdl', 'calibrator'] as const;
 export type SampleType = (typeof SAMPLE_TYPES)[number];
 
 /** QC levels in concentration order (common practice); compareLevels puts any other level after them, by name. */

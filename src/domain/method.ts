@@ -11,7 +11,7 @@ export interface LimitSet {
   levels?: Record<string, LimitSet>;
 }
 
-export type ControlKind = 'blank' | 'lcs' | 'lcsd' | 'ms' | 'msd' | 'dup' | 'qc' | 'surrogate';
+export type ControlKind = 'blank' | 'lcs' | 'lcsd' | 'ms' | 'msd' | 'dup' | 'qc' | 'mdl' | 'surrogate';
 export type LimitTable = Partial<Record<ControlKind, LimitSet>>;
 
 export interface FieldConfig {
@@ -34,6 +34,10 @@ export interface AnalyteInfo {
   molar_mass?: number;
   surrogate: boolean;
   limits: LimitTable;
+  /** Relative standard uncertainty of the spike, percent: u(Cref) of the Nordtest bias (figures/). */
+  spike_uncertainty_pct?: number;
+  /** A fixed expanded uncertainty U (k = 2), percent of the result, instead of the one from the QC history. */
+  expanded_uncertainty_pct?: number;
 }
 
 export interface FormulaDef {
@@ -89,6 +93,8 @@ export interface Method {
   reporting: ReportingOptions;
   /** true when the calibrators went through the extraction: no efficiency correction (engine/evaluate.ts checks the formula). */
   calibration: { includesExtraction: boolean };
+  /** Points the lab's own figures need (figures/): defaults 20 for u(Rw), 6 for the bias. */
+  figures: { minPointsRw: number; minPointsBias: number };
   formulas: FormulaDef[];
 }
 

@@ -67,6 +67,25 @@ export const MIGRATIONS: readonly Migration[] = [
       `);
     },
   },
+  {
+    version: 3,
+    description:
+      "each control's result and whether it was detected, the run's concentration unit, and the text of every method used " +
+      '(for the detection limit from blanks and low-level spikes, and the figures each method asks for)',
+    up(db) {
+      // Rows recorded before version 3 keep NULL here: their result is unknown, which is not the same as not detected.
+      db.exec(`
+        ALTER TABLE controls ADD COLUMN result REAL;
+        ALTER TABLE controls ADD COLUMN nondetect INTEGER CHECK (nondetect IN (0, 1));
+        ALTER TABLE runs ADD COLUMN concentration_unit TEXT;
+        CREATE TABLE methods (
+          sha256 TEXT PRIMARY KEY,
+          name   TEXT NOT NULL,
+          text   TEXT NOT NULL
+        ) STRICT;
+      `);
+    },
+  },
 ];
 
 export const LATEST_VERSION = MIGRATIONS[MIGRATIONS.length - 1]!.version;

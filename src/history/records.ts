@@ -12,6 +12,8 @@ export interface RunRecord {
   worklistSha256: string;
   methodName: string;
   methodSha256: string;
+  /** The method's concentration unit, in which every result of the run is recorded. */
+  concentrationUnit: string;
 }
 
 export interface ControlRecord {
@@ -32,10 +34,14 @@ export interface ControlRecord {
   recoveryHigh: number;
   /** The row's flag codes, `;`-joined. */
   flags: string;
+  /** pre_extraction_conc in the method's concentration unit; NaN when empty (a non-detect, an input error). */
+  result: number;
+  /** True when the instrument reported the row as not detected. */
+  nondetect: boolean;
 }
 
 /** A control row read back from the history, with its run. */
-export interface HistoryRow extends ControlRecord {
+export interface HistoryRow extends Omit<ControlRecord, 'nondetect'> {
   /** Position of the run in the file (1, 2, … in the order runs were recorded). */
   runId: number;
   runTime: string;
@@ -43,6 +49,10 @@ export interface HistoryRow extends ControlRecord {
   worklistSha256: string;
   methodName: string;
   methodSha256: string;
+  /** '' for a run recorded before schema version 3. */
+  concentrationUnit: string;
+  /** undefined for a row recorded before schema version 3 (its result was not kept). */
+  nondetect: boolean | undefined;
 }
 
 export function runRecord(result: RecalcResult, run: { timestamp: string }): RunRecord {
@@ -52,6 +62,7 @@ export function runRecord(result: RecalcResult, run: { timestamp: string }): Run
     worklistSha256: result.worklist.sha256,
     methodName: result.method.name,
     methodSha256: result.method.sha256,
+    concentrationUnit: result.method.units.concentration,
   };
 }
 
@@ -61,6 +72,7 @@ export function controlRecords(result: RecalcResult): ControlRecord[] {
   const nan = new Float64Array(n).fill(NaN);
   const recovery = result.computed.get('spike_recovery_pct') ?? nan;
   const rpd = result.computed.get('rpd_pct') ?? nan;
+  const conc = result.computed.get('pre_extraction_conc') ?? nan;
   const texts = result.table.texts;
   const text = (field: string, r: number) => texts.get(field)?.[r] ?? '';
   const out: ControlRecord[] = [];
@@ -81,6 +93,8 @@ export function controlRecords(result: RecalcResult): ControlRecord[] {
       recoveryLow: limits ? limits[0] : NaN,
       recoveryHigh: limits ? limits[1] : NaN,
       flags: result.rowFlags[r] ?? '',
+      result: conc[r]!,
+      nondetect: result.table.nondetect[r] === 1,
     });
   }
   return out;

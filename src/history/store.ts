@@ -145,21 +145,24 @@ function stageRun(db: Database, result: RecalcResult, run: { timestamp: string }
   const r = runRecord(result, run);
   const controls = controlRecords(result);
   const insertRun = db.prepare(
-    `INSERT INTO runs (run_time, worklist_name, worklist_sha256, method_name, method_sha256)
-     VALUES (?, ?, ?, ?, ?) ON CONFLICT (worklist_sha256, method_sha256) DO NOTHING`,
+    `INSERT INTO runs (run_time, worklist_name, worklist_sha256, method_name, method_sha256, concentration_unit)
+     VALUES (?, ?, ?, ?, ?, ?) ON CONFLICT (worklist_sha256, method_sha256) DO NOTHING`,
   );
+  const insertMethod = db.prepare('INSERT INTO methods (sha256, name, text) VALUES (?, ?, ?) ON CONFLICT (sha256) DO NOTHING');
   const findRun = db.prepare('SELECT id FROM runs WHERE worklist_sha256 = ? AND method_sha256 = ?').pluck();
   const insertControl = db.prepare(
     `INSERT INTO controls (run_id, row_number, sample_id, batch_id, analyte, sample_type, qc_level,
-                           recovery_pct, rpd_pct, status, recovery_low, recovery_high, flags)
-     VALUES (?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?)`,
+                           recovery_pct, rpd_pct, status, recovery_low, recovery_high, flags, result, nondetect)
+     VALUES (?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?)`,
   );
-  const info = insertRun.run(r.runTime, r.worklistName, r.worklistSha256, r.methodName, r.methodSha256);
+  const info = insertRun.run(r.runTime, r.worklistName, r.worklistSha256, r.methodName, r.methodSha256, r.concentrationUnit);
   if (info.changes === 0) {
     const runId = findRun.get(r.worklistSha256, r.methodSha256) as number;
     return { runId, added: 0, alreadyRecorded: true, versionBefore };
   }
   const runId = Number(info.lastInsertRowid);
+  // The method's own text, once per version: the figures read what each method asked for (figures/settings.ts).
+  insertMethod.run(result.method.sha256, result.method.name, result.method.text);
   for (const c of controls) {
     insertControl.run(
       runId,
@@ -175,6 +178,8 @@ function stageRun(db: Database, result: RecalcResult, run: { timestamp: string }
       sqlNumber(c.recoveryLow),
       sqlNumber(c.recoveryHigh),
       c.flags,
+      sqlNumber(c.result),
+      c.nondetect ? 1 : 0,
     );
   }
   return { runId, added: controls.length, alreadyRecorded: false, versionBefore };
@@ -204,18 +209,39 @@ export async function recordRun(dbPath: string, result: RecalcResult, run: { tim
  * reads any schema version from 1 to the latest without migrating it.
  */
 export async function readHistory(dbPath: string): Promise<HistoryRow[]> {
+  return (await readHistoryWithMethods(dbPath)).rows;
+}
+
+/** A method as a run recorded it (schema version 3 on). */
+export interface RecordedMethod {
+  sha256: string;
+  name: string;
+  text: string;
+}
+
+/**
+ * readHistory, with the text of every method the history's runs used (none for a
+ * history written before schema version 3) and the file's schema version.
+ */
+export async function readHistoryWithMethods(dbPath: string): Promise<{ rows: HistoryRow[]; methods: Map<string, RecordedMethod>; version: number }> {
   if (!existsSync(dbPath)) {
     throw new StopError('input', 'does not exist; record runs into it first with "phasebook recalc --history"', { file: dbPath });
   }
   const Sqlite = await loadSqlite();
   return withDatabase(Sqlite, dbPath, { readonly: true }, (db) => {
     const version = verifyHistory(db, dbPath);
-    return version === 0 ? [] : selectRows(db, version);
+    if (version === 0) return { rows: [], methods: new Map(), version };
+    const methods = new Map<string, RecordedMethod>();
+    if (version >= 3) {
+      for (const m of db.prepare('SELECT sha256, name, text FROM methods').all() as RecordedMethod[]) methods.set(m.sha256, m);
+    }
+    return { rows: selectRows(db, version), methods, version };
   });
 }
 
 function selectRows(db: Database, version: number): HistoryRow[] {
   const since2 = version >= 2;
+  const since3 = version >= 3;
   const rows = db
     .prepare(
       `SELECT r.id AS runId, r.run_time AS runTime, r.worklist_name AS worklistName, r.worklist_sha256 AS worklistSha256,
@@ -223,7 +249,9 @@ function selectRows(db: Database, version: number): HistoryRow[] {
               c.row_number AS rowNumber, c.sample_id AS sampleId, c.batch_id AS batchId, c.analyte, c.sample_type AS sampleType,
               c.qc_level AS qcLevel, c.recovery_pct AS recoveryPct, c.rpd_pct AS rpdPct, c.status,
               ${since2 ? 'c.recovery_low' : 'NULL'} AS recoveryLow, ${since2 ? 'c.recovery_high' : 'NULL'} AS recoveryHigh,
-              ${since2 ? 'c.flags' : "''"} AS flags
+              ${since2 ? 'c.flags' : "''"} AS flags,
+              ${since3 ? 'c.result' : 'NULL'} AS result, ${since3 ? 'c.nondetect' : 'NULL'} AS nondetect,
+              ${since3 ? 'r.concentration_unit' : 'NULL'} AS concentrationUnit
        FROM controls c JOIN runs r ON r.id = c.run_id
        ORDER BY r.run_time, r.id, c.row_number, c.id`,
     )
@@ -234,6 +262,9 @@ function selectRows(db: Database, version: number): HistoryRow[] {
     rpdPct: fromSql(row.rpdPct),
     recoveryLow: fromSql(row.recoveryLow),
     recoveryHigh: fromSql(row.recoveryHigh),
+    result: fromSql(row.result),
+    nondetect: row.nondetect === null || row.nondetect === undefined ? undefined : row.nondetect === 1,
+    concentrationUnit: typeof row.concentrationUnit === 'string' ? row.concentrationUnit : '',
   }));
 }
 

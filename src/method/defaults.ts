@@ -45,3 +45,7 @@ export const GENERIC_INTERNAL_STANDARD: { window: Range; reference: readonly Sam
   window: [50, 150],
   reference: ['calibrator', 'qc'],
 };
+
+/** Points the lab's own figures need (figures/nordtest.ts): 20 lcs recoveries for u(Rw), 6 matrix spikes for the bias (issue 16). */
+export const DEFAULT_MIN_RW = 20;
+export const DEFAULT_MIN_BIAS = 6;

@@ -7,7 +7,7 @@ import { LineCounter, parseDocument, isNode, isScalar, visit, type Document } fr
 import { StopError, fsReason } from '../errors.js';
 import { parseAcidBase } from '../chemistry/partition.js';
 import { FIELD_SPECS, isCanonicalField, type CanonicalField, type Dimension, type SampleType } from '../domain/fields.js';
-import { GENERIC_INTERNAL_STANDARD, GENERIC_LIMITS, GENERIC_QC, GENERIC_REPORTING } from './defaults.js';
+import { DEFAULT_MIN_BIAS, DEFAULT_MIN_RW, GENERIC_INTERNAL_STANDARD, GENERIC_LIMITS, GENERIC_QC, GENERIC_REPORTING } from './defaults.js';
 import { methodSchemaValidator } from './schema-validator.js';
 import type { AnalyteInfo, FieldConfig, FormulaDef, LimitTable, Method, Range, Rounding } from '../domain/method.js';
 
@@ -164,6 +164,8 @@ export function parseMethod(text: string, options: { file: string }): Method {
     molar_mass: a.molar_mass,
     surrogate: a.surrogate ?? false,
     limits: (a.limits ?? {}) as LimitTable,
+    spike_uncertainty_pct: a.spike_uncertainty_pct,
+    expanded_uncertainty_pct: a.expanded_uncertainty_pct,
   }));
   for (const a of analytes) {
     if ((a.acid_base === 'acid' || a.acid_base === 'base') && a.pka === undefined) {
@@ -257,6 +259,10 @@ export function parseMethod(text: string, options: { file: string }): Method {
       aboveRange: raw.reporting?.above_range ?? GENERIC_REPORTING.aboveRange,
     },
     calibration: { includesExtraction: raw.calibration?.includes_extraction ?? false },
+    figures: {
+      minPointsRw: raw.figures?.min_points_rw ?? DEFAULT_MIN_RW,
+      minPointsBias: raw.figures?.min_points_bias ?? DEFAULT_MIN_BIAS,
+    },
     formulas,
   };
 }
@@ -356,6 +362,8 @@ interface RawMethod {
       molar_mass?: number;
       surrogate?: boolean;
       limits?: Record<string, RawLimitSet>;
+      spike_uncertainty_pct?: number;
+      expanded_uncertainty_pct?: number;
     }
   >;
   defaults?: { reporting_limit?: number };
@@ -371,5 +379,6 @@ interface RawMethod {
   internal_standard?: { window?: number[]; reference?: SampleType[] };
   reporting?: { significant_figures?: number; rounding?: Rounding; above_range?: string };
   calibration?: { includes_extraction?: boolean };
+  figures?: { min_points_rw?: number; min_points_bias?: number };
   formulas: Array<{ name: string; expr: string; unit?: string; description?: string }>;
 }

@@ -14,7 +14,8 @@ import { createRequire } from 'node:module';
 // The t quantile (@stdlib, some 350 modules) is loaded on first use, not at start-up.
 const require = createRequire(import.meta.url);
 let quantile: ((p: number, v: number) => number) | undefined;
-function tQuantile(p: number, v: number): number {
+/** The quantile of Student's t distribution with v degrees of freedom at probability p (also used by figures/mdl.ts). */
+export function tQuantile(p: number, v: number): number {
   quantile ??= require('@stdlib/stats-base-dists-t-quantile') as (p: number, v: number) => number;
   return quantile(p, v);
 }

@@ -24,7 +24,7 @@ export const ROW_RULES: readonly RowRule[] = [
     check(ctx, r) {
       const lim = ctx.limits[r]!.recovery;
       // A spiked control that is not detected has recovered nothing of its spike: it fails (issue 13).
-      const spiked = ctx.isSurrogate(r) || ['lcs', 'lcsd', 'ms', 'msd', 'qc'].includes(ctx.type[r]!);
+      const spiked = ctx.isSurrogate(r) || ['lcs', 'lcsd', 'ms', 'msd', 'qc', 'mdl'].includes(ctx.type[r]!);
       if (lim && spiked && ctx.nondetect[r]) {
         return { column: 'spike_recovery_pct', text: `recovery below its limit: expected ${formatRange(lim)}, got a result not detected (nothing of the spike recovered)`, value: 0, limit: lim[0] };
       }

@@ -201,3 +201,49 @@ export function controlChartSpec(series: TrendSeries, options: { isCurrent: (ind
     resolve: { scale: { color: 'independent' } },
   } as TopLevelSpec;
 }
+
+export const UNCERTAINTY_LAYERS = { reference: 'reference_line', points: 'figure_points' } as const;
+
+/** A recovery behind an expanded uncertainty (figures/expanded.ts), in run order. */
+export interface FigurePoint {
+  /** What it feeds: 'u(Rw): lcs', 'bias: ms, msd', or 'qc <level>'. */
+  role: string;
+  value: number;
+  description: string;
+}
+
+/**
+ * The recoveries behind one analyte's expanded uncertainty, in run order: their scatter
+ * is u(Rw), their distance from the 100 % line the bias (Nordtest TR 537).
+ */
+export function uncertaintyChartSpec(points: readonly FigurePoint[], options: { analyte: string }): TopLevelSpec {
+  const values = points.map((p, i) => ({ i: i + 1, value: p.value, role: p.role, description: p.description }));
+  const n = values.length;
+  const roles = [...new Set(values.map((v) => v.role))].sort();
+  const x = { field: 'i', type: 'quantitative', title: 'Point, in run order', scale: { domain: [0.5, n + 0.5], nice: false }, axis: { tickMinStep: 1, format: 'd' } } as const;
+  return {
+    width: Math.min(900, Math.max(320, 8 * n)),
+    height: 200,
+    config: CONFIG,
+    description: `Recoveries behind the expanded uncertainty of ${options.analyte}, in run order, against 100 %`,
+    layer: [
+      {
+        name: UNCERTAINTY_LAYERS.reference,
+        data: { values: [{ y: 100 }] },
+        mark: { type: 'rule', strokeWidth: 1.2, color: MUTED, strokeDash: [4, 3] },
+        encoding: { y: { field: 'y', type: 'quantitative' } },
+      },
+      {
+        name: UNCERTAINTY_LAYERS.points,
+        data: { values },
+        mark: { type: 'point', filled: true, size: 30, opacity: 0.9 },
+        encoding: {
+          x,
+          y: { field: 'value', type: 'quantitative', title: 'Recovery (%)', scale: { zero: false, padding: 8 }, axis: { format: '~r' } },
+          color: { field: 'role', type: 'nominal', title: null, scale: { domain: roles, range: [INK, WARN, BAD, MUTED].slice(0, Math.max(1, roles.length)) } },
+          description: { field: 'description' },
+        },
+      },
+    ],
+  } as TopLevelSpec;
+}

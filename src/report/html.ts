@@ -19,10 +19,11 @@ import type { RecalcResult } from '../pipeline.js';
 import type { GroupSummary } from '../summary/summarize.js';
 import type { WriteJob } from '../write/atomic.js';
 import type { RunInfo } from '../write/workbook.js';
-import { CONTROL_LAYERS, RECOVERY_LAYERS, controlChartSpec, recoveryChartSpec, type RecoveryPoint } from './charts.js';
+import { CONTROL_LAYERS, RECOVERY_LAYERS, UNCERTAINTY_LAYERS, controlChartSpec, recoveryChartSpec, uncertaintyChartSpec, type RecoveryPoint } from './charts.js';
 import { drawChart } from './draw.js';
 import { html, trusted, type Markup } from './markup.js';
 import { REPORT_CSS } from './style.js';
+import { RESULT_COLUMN } from '../figures/expanded.js';
 
 export interface ReportOptions {
   /** The batch to report (default the first batch of the worklist). */
@@ -112,9 +113,10 @@ export async function renderReport(result: RecalcResult, options: ReportOptions)
   // Every chart of the report is asked for at once: a chart worker (draw.ts) draws
   // them one after another while this thread goes on with other outputs.
   const history = options.history;
-  const [recoverySections, historySections] = await Promise.all([
+  const [recoverySections, historySections, uncertainty] = await Promise.all([
     Promise.all(analytes.map((analyte) => recoverySection(result, rows, analyte))),
     history ? Promise.all(analytes.map((analyte) => historySection(result, batch, history, analyte))) : [],
+    uncertaintySection(result, rows, analytes),
   ]);
   const m = result.method;
 
@@ -165,6 +167,7 @@ ${resultsTable(result, rows)}
 <h2>Flags</h2>
 ${flagsTable(result, flags)}
 </section>
+${uncertainty}
 <section id="recoveries">
 <h2>Recoveries in this batch</h2>
 <p class="note">Each bar spans the acceptance limits that judged that control; the mark is its recovery.</p>
@@ -185,6 +188,48 @@ ${historySections}
 </html>
 `;
   return doc.text;
+}
+
+/**
+ * The batch's sample results with their expanded uncertainty (figures/expanded.ts), and
+ * where each analyte's U comes from; nothing when the run has none.
+ */
+async function uncertaintySection(result: RecalcResult, rows: readonly number[], analytes: readonly string[]): Promise<Markup | string> {
+  const u = result.uncertainty;
+  if (!u) return '';
+  // Per analyte of this batch whose U comes from the history: the recoveries behind it, as a chart.
+  const charts = await Promise.all(
+    analytes.map(async (analyte) => {
+      const a = u.byAnalyte.get(analyte.trim().toLowerCase());
+      const points = a?.history?.points ?? [];
+      if (points.length === 0) return '';
+      const figurePoints = points.map((p) => ({
+        role: p.sampleType === 'lcs' ? 'u(Rw): lcs' : p.sampleType === 'qc' ? `qc ${p.qcLevel || '(no level)'}` : 'bias: ms, msd',
+        value: p.recoveryPct,
+        description: `${p.runTime.slice(0, 10)}, batch ${p.batchId}, ${p.sampleId} (${p.sampleType}): recovery ${p.recoveryPct.toFixed(1)} %`,
+      }));
+      const svg = await drawChart(uncertaintyChartSpec(figurePoints, { analyte }));
+      return html`<figure class="chart" data-chart="uncertainty" data-analyte="${analyte}" data-points="${points.length}" data-layer="${UNCERTAINTY_LAYERS.points}">
+${trusted(svg)}
+<figcaption>${analyte}: the ${points.length} recoveries behind U = ${significant(a!.pct, 4)} % (k = ${a!.k}), in run order. Their scatter gives u(Rw), their distance from 100 % the bias.</figcaption>
+</figure>`;
+    }),
+  );
+  const conc = result.computed.get(RESULT_COLUMN);
+  const withU = rows.filter((r) => Number.isFinite(u.expanded[r]!));
+  const show = (x: number) => (Number.isFinite(x) ? significant(x, 4) : '');
+  return html`<section id="uncertainty">
+<h2>Results with their expanded uncertainty</h2>
+<ul class="sources">${[...u.byAnalyte.values()].map((a) => html`<li><strong>${a.analyte}</strong>: U = ${significant(a.pct, 4)} % of the result (k = ${a.k}), ${a.source}</li>`)}</ul>
+${
+  withU.length
+    ? html`<table id="uncertainty-table"><thead><tr><th>sample</th><th>analyte</th><th>${RESULT_COLUMN} [${u.unit}]</th><th>expanded uncertainty U [${u.unit}]</th><th>k</th></tr></thead><tbody>${withU.map(
+        (r) => html`<tr><td>${text(result, 'sample_id', r)}</td><td>${text(result, 'analyte', r)}</td><td class="num">${show(conc?.[r] ?? NaN)}</td><td class="num">${show(u.expanded[r]!)}</td><td class="num">${show(u.k[r]!)}</td></tr>`,
+      )}</tbody></table>`
+    : html`<p class="note">No sample result of this batch has an expanded uncertainty.</p>`
+}
+${charts}
+</section>`;
 }
 
 /** Each batch's rows, summary groups and flags, in worklist order. */

@@ -23,7 +23,8 @@ import type { RawCell, RawTable, RowProblem } from '../read/types.js';
 import type { CellValue, RowContext } from '../write/workbook/cells.js';
 import { IntegrityDigest, sha256Text } from '../write/workbook/digest.js';
 import { FLAGS_SHEET } from '../write/workbook/flags-sheet.js';
-import { IN_HOUSE_TITLE, LIMITS_TITLE, LINE_ENDS_KEY, METHOD_SHEET, METHOD_TEXT_TITLE, lineEndOf } from '../write/workbook/method-sheet.js';
+import { IN_HOUSE_TITLE, LIMITS_TITLE, LINE_ENDS_KEY, METHOD_SHEET, METHOD_TEXT_TITLE, UNCERTAINTY_POINTS_TITLE, lineEndOf } from '../write/workbook/method-sheet.js';
+import { uncertaintyFromPoints, type UncertaintyPoint, type UncertaintyTable } from '../figures/expanded.js';
 import { inHouseKey, type InHouseLimits } from '../qc/limits.js';
 import { WORKBOOK_FORMAT } from '../write/workbook/options.js';
 import { SHEET_ORDER, planWorkbook } from '../write/workbook/workbook-plan.js';
@@ -140,6 +141,7 @@ export async function verifyWorkbook(path: string, options: VerifyOptions = {}):
     result = recalculateTable(raw, {
       method,
       inHouse: storedInHouseLimits(methodSheet),
+      uncertainty: storedUncertainty(methodSheet, method),
       worklist: {
         path: needText(KEYS.worklistName),
         name: needText(KEYS.worklistName),
@@ -258,6 +260,35 @@ function storedInHouseLimits(sheet: StoredSheet): InHouseLimits | undefined {
     out.set(inHouseKey(String(analyte ?? ''), String(type ?? ''), String(level ?? '')), { low, high, n: typeof n === 'number' ? n : 0 });
   }
   return out;
+}
+
+/**
+ * The expanded uncertainty derived again from the recoveries the Method sheet lists (none
+ * when it lists none); a method's fixed U comes from the method text itself.
+ */
+function storedUncertainty(sheet: StoredSheet, method: Method): UncertaintyTable | undefined {
+  const title = findTitle(sheet, UNCERTAINTY_POINTS_TITLE);
+  if (title === 0) return undefined;
+  const file = sheet.row(title + 1).get(2)?.value;
+  const until = sheet.row(title + 2).get(2)?.value;
+  const points: Array<UncertaintyPoint & { analyte: string }> = [];
+  for (let r = title + 4; r <= sheet.lastRow; r++) {
+    const cells = sheet.row(r);
+    if (cells.size === 0) break;
+    const [analyte, sampleType, qcLevel, recovery, runTime, worklistName, batchId, sampleId] = [1, 2, 3, 4, 5, 6, 7, 8].map((c) => cells.get(c)?.value);
+    const text = (v: unknown) => (v === null || v === undefined ? '' : String(v));
+    points.push({
+      analyte: text(analyte),
+      sampleType: text(sampleType),
+      qcLevel: text(qcLevel),
+      recoveryPct: typeof recovery === 'number' ? recovery : NaN,
+      runTime: text(runTime),
+      worklistName: text(worklistName),
+      batchId: text(batchId),
+      sampleId: text(sampleId),
+    });
+  }
+  return uncertaintyFromPoints(points, { method, until: String(until ?? ''), historyFile: String(file ?? '') });
 }
 
 /** The stored acceptance limits table (seven columns) and in-house limits table (six), for the digest. */

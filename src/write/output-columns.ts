@@ -5,11 +5,13 @@ import type { Method } from '../domain/method.js';
 /**
  * The columns every results output carries, in order (DESIGN.md §4): the input
  * columns verbatim, then the computed columns (a unit suffix on dimensioned
- * ones), then `flags`, `qc_status` and `reported_result`.
+ * ones), the expanded uncertainty of the results when there is one, then `flags`,
+ * `qc_status` and `reported_result`.
  */
 export type OutputColumn =
   | { role: 'input'; header: string; kind: 'text'; values: readonly RawCell[]; inputIndex: number }
   | { role: 'computed'; header: string; name: string; unit: string; kind: 'number'; values: Float64Array }
+  | { role: 'uncertainty'; header: string; name: UncertaintyColumnName; unit: string; kind: 'number'; values: Float64Array }
   | { role: 'flags' | 'qc_status' | 'reported_result'; header: string; kind: 'text'; values: readonly string[] };
 
 export function outputColumns(result: RecalcResult): OutputColumn[] {
@@ -30,6 +32,12 @@ export function outputColumns(result: RecalcResult): OutputColumn[] {
       values: result.computed.get(def.name)!,
     });
   }
+  // The expanded uncertainty beside the concentrations, when the method or the QC history gives one (figures/expanded.ts).
+  const u = result.uncertainty;
+  if (u) {
+    out.push({ role: 'uncertainty', header: computedHeader(UNCERTAINTY_COLUMNS.expanded, u.unit), name: UNCERTAINTY_COLUMNS.expanded, unit: u.unit, kind: 'number', values: u.expanded });
+    out.push({ role: 'uncertainty', header: UNCERTAINTY_COLUMNS.k, name: UNCERTAINTY_COLUMNS.k, unit: '', kind: 'number', values: u.k });
+  }
   out.push({ role: 'flags', header: 'flags', kind: 'text', values: result.rowFlags });
   out.push({ role: 'qc_status', header: 'qc_status', kind: 'text', values: result.qc.status });
   out.push({ role: 'reported_result', header: reportedHeader(result.method), kind: 'text', values: result.qc.reported });
@@ -40,6 +48,10 @@ export function outputColumns(result: RecalcResult): OutputColumn[] {
 export function reportedHeader(method: Method): string {
   return computedHeader('reported_result', method.units.concentration);
 }
+
+/** The columns of a result's expanded uncertainty: U in the result's unit, and the coverage factor k of it. */
+export const UNCERTAINTY_COLUMNS = { expanded: 'expanded_uncertainty', k: 'coverage_factor' } as const;
+export type UncertaintyColumnName = (typeof UNCERTAINTY_COLUMNS)[keyof typeof UNCERTAINTY_COLUMNS];
 
 /** `pre_extraction_conc [ng/mL]`; percent and dimensionless columns carry no suffix (the name says _pct). */
 export function computedHeader(name: string, unit: string): string {

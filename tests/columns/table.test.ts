@@ -76,7 +76,7 @@ describe('row validation (DESIGN.md §7): the row stays, marked INPUT_ERROR with
     ['ph', '14.5', 'row 2, column "ph": expected a pH from 0 to 14, got "14.5"'],
     ['extract_conc', 'Infinity', 'row 2, column "extract_conc": expected a finite number, got "Infinity"'],
     ['extract_conc', '', 'row 2, column "extract_conc": expected a value for extract_conc, got an empty cell'],
-    ['sample_type', 'spike', 'row 2, column "sample_type": expected a sample type (sample, blank, lcs, lcsd, ms, msd, dup, qc, calibrator), got "spike"'],
+    ['sample_type', 'spike', 'row 2, column "sample_type": expected a sample type (sample, blank, lcs, lcsd, ms, msd, dup, qc, mdl, calibrator), got "spike"'],
     ['acid_base', 'salt', 'row 2, column "acid_base": expected acid, base or neutral, got "salt"'],
   ])('%s = %j', (column, value, message) => {
     const headers = [...BASE, 'sample_type', 'extractions', 'dilution', 'partition_coeff', 'ph', 'acid_base'];

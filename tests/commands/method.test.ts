@@ -39,7 +39,7 @@ describe('method check', () => {
     {
       what: 'a sample type that is not canonical',
       text: 'name: m\nsample_types:\n  BS: spike\nformulas:\n  - { name: x, expr: extract_conc }\n',
-      message: 'line 3, key "sample_types.BS": expected one of "sample", "blank", "lcs", "lcsd", "ms", "msd", "dup", "qc", "calibrator", got "spike"',
+      message: 'line 3, key "sample_types.BS": expected one of "sample", "blank", "lcs", "lcsd", "ms", "msd", "dup", "qc", "mdl", "calibrator", got "spike"',
     },
     {
       what: 'a refused function',

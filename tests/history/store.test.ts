@@ -38,6 +38,13 @@ beforeAll(async () => {
 
 afterAll(() => rmSync(dir, { recursive: true, force: true }));
 
+/** The pre_extraction_conc the run computed for a sample id (as SQLite keeps it: null when empty). */
+function resultOf(result: RecalcResult, sampleId: string): number | null {
+  const r = result.table.texts.get('sample_id')!.indexOf(sampleId);
+  const x = result.computed.get('pre_extraction_conc')![r]!;
+  return Number.isFinite(x) ? x : null;
+}
+
 describe('recordRun', () => {
   it('records every control row with its run, in a new WAL-mode file at the latest schema version', async () => {
     const file = fresh();
@@ -61,7 +68,12 @@ describe('recordRun', () => {
         worklist_sha256: sha(join(dir, 'run-a.csv')),
         method_name: 'generic-lle',
         method_sha256: runA.method.sha256,
+        concentration_unit: 'ng/mL',
       },
+    ]);
+    // The method's own text is kept once, for the figures it asks for (schema version 3).
+    expect(query<Record<string, unknown>>(file, 'SELECT sha256, name, text FROM methods')).toEqual([
+      { sha256: runA.method.sha256, name: 'generic-lle', text: runA.method.text },
     ]);
     const controls = query<Record<string, unknown>>(
       file,
@@ -79,6 +91,10 @@ describe('recordRun', () => {
     expect(controls[1]).toMatchObject({ recovery_low: 70, recovery_high: 130 });
     // RPD = |a − b| / ((a + b)/2) × 100 = 3/100 × 100 = 3.0 % (REFERENCES.md §2 RPD formula).
     expect(controls[2]!.rpd_pct).toBeCloseTo(3, 9);
+    // Each control's result (pre_extraction_conc) and whether it was detected (schema version 3).
+    const results = query<{ result: number | null; nondetect: number }>(file, 'SELECT result, nondetect FROM controls ORDER BY id');
+    expect(results.map((r) => r.nondetect)).toEqual([0, 0, 0]);
+    expect(results.map((r) => r.result)).toEqual(['B1-BLK', 'B1-LCS', 'B1-LCSD'].map((id) => resultOf(runA, id)));
   });
 
   it('records a failed control with its status and flags', async () => {
@@ -222,7 +238,7 @@ describe('refusing files that are not a phasebook history', () => {
 describe('migrations', () => {
   it('are numbered 1, 2, … with the last one the latest version', () => {
     expect(MIGRATIONS.map((m) => m.version)).toEqual(MIGRATIONS.map((_, i) => i + 1));
-    expect(LATEST_VERSION).toBe(2);
+    expect(LATEST_VERSION).toBe(3);
   });
 
   /** A history as phasebook wrote it at schema version 1, with one run. */
@@ -247,23 +263,31 @@ describe('migrations', () => {
     expect(sha(file)).toBe(before);
   });
 
-  it('brings a version 1 file to version 2 when a run is recorded, keeping the old rows', async () => {
+  it('brings a version 1 file to the latest version when a run is recorded, keeping the old rows', async () => {
     const file = v1History();
     const summary = await recordRun(file, runA, { timestamp: runTime(1) });
     expect(summary).toMatchObject({ versionBefore: 1, runId: 2, added: 3 });
     const db = new Database(file, { readonly: true });
     try {
-      expect(userVersion(db)).toBe(2);
+      expect(userVersion(db)).toBe(3);
       const columns = (db.prepare('PRAGMA table_info(controls)').all() as Array<{ name: string }>).map((c) => c.name);
-      expect(columns).toEqual(expect.arrayContaining(['recovery_low', 'recovery_high', 'flags']));
+      expect(columns).toEqual(expect.arrayContaining(['recovery_low', 'recovery_high', 'flags', 'result', 'nondetect']));
       expect(db.prepare("SELECT name FROM sqlite_schema WHERE type = 'index' AND name = 'controls_series'").pluck().get()).toBe('controls_series');
       const old = db.prepare("SELECT recovery_pct, recovery_low, flags FROM controls WHERE sample_id = 'OLD-LCS'").get();
       expect(old).toEqual({ recovery_pct: 97.25, recovery_low: null, flags: '' });
+      // Its result was never kept: unknown (NULL), not "detected" or "not detected".
+      expect(db.prepare("SELECT result, nondetect FROM controls WHERE sample_id = 'OLD-LCS'").get()).toEqual({ result: null, nondetect: null });
     } finally {
       db.close();
     }
     const rows = await readHistory(file);
     expect(rows.map((r) => r.sampleId)).toEqual(['OLD-LCS', 'B1-BLK', 'B1-LCS', 'B1-LCSD']);
+    expect(rows.map((r) => [r.nondetect, r.concentrationUnit])).toEqual([
+      [undefined, ''],
+      [false, 'ng/mL'],
+      [false, 'ng/mL'],
+      [false, 'ng/mL'],
+    ]);
   });
 
   it('do nothing when run again', () => {

@@ -44,7 +44,7 @@ describe('one batch and analyte with every kind of row', () => {
   const g = r.groups[0]!;
 
   it('counts rows by sample type', () => {
-    expect(g.counts).toEqual({ sample: 2, blank: 1, lcs: 1, lcsd: 1, ms: 0, msd: 0, dup: 1, qc: 5, calibrator: 0 });
+    expect(g.counts).toEqual({ sample: 2, blank: 1, lcs: 1, lcsd: 1, ms: 0, msd: 0, dup: 1, qc: 5, mdl: 0, calibrator: 0 });
   });
 
   it('splits qc recoveries by level, in concentration order, and counts those outside limits', () => {

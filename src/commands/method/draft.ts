@@ -145,6 +145,7 @@ const KNOWN_CODES: Record<SampleType, readonly string[]> = {
   msd: ['matrix spike dup', 'matrix spike duplicate', 'fsd', 'lfmd', 'spkd'],
   dup: ['duplicate', 'rep', 'replicate', 'sd', 'sample duplicate'],
   qc: ['qcl', 'qcm', 'qch', 'lqc', 'mqc', 'hqc', 'qc sample'],
+  mdl: ['mdl', 'mdl spike', 'detection limit spike'],
   calibrator: ['cal', 'cal std', 'calibrator', 'calibration', 'std', 'standard', 'sst', 'system suitability', 'curve'],
 };
 const AMBIGUOUS_CODES: Record<string, string> = {

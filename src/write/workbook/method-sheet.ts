@@ -24,6 +24,11 @@ export const METHOD_TEXT_TITLE = 'Method file text';
 export const LIMITS_TITLE = 'Acceptance limits';
 export const LINE_ENDS_KEY = 'line ends of the method file';
 export const IN_HOUSE_TITLE = 'In-house recovery limits applied (from the QC history)';
+export const UNCERTAINTY_TITLE = 'Expanded uncertainty of the results';
+export const UNCERTAINTY_HEADERS = ['analyte', 'U % of the result', 'k', 'from', 'source'] as const;
+export const UNCERTAINTY_POINTS_TITLE = 'Recoveries behind the expanded uncertainty (from the QC history)';
+export const UNCERTAINTY_POINT_KEYS = { file: 'QC history', until: 'history up to' } as const;
+export const UNCERTAINTY_POINT_HEADERS = ['analyte', 'sample type', 'qc level', 'recovery %', 'run time', 'worklist', 'batch', 'sample id'] as const;
 
 /** The in-house limits that judged this run's controls, one per (analyte, control type), from the rows they judged. */
 export function inHouseApplied(result: RecalcResult): { analyte: string; type: string; level: string; low: number; high: number; n: number }[] {
@@ -255,6 +260,28 @@ export function planMethodSheet(result: RecalcResult, options: { formulaForms?: 
     b.blank();
   }
 
+  // The expanded uncertainty the results carry, so verify can give it again without the history.
+  if (result.uncertainty) {
+    b.title(UNCERTAINTY_TITLE, 'section');
+    b.table(
+      [...UNCERTAINTY_HEADERS],
+      [...result.uncertainty.byAnalyte.values()].map((u) => [u.analyte, u.pct, u.k, u.origin, cell(u.source, { style: 'wrap' })]),
+    );
+    b.blank();
+    // The recoveries each U from the history was derived from: verify derives the U again from them.
+    const fromHistory = [...result.uncertainty.byAnalyte.values()].filter((u) => u.origin === 'history' && u.history);
+    if (fromHistory.length > 0) {
+      b.title(UNCERTAINTY_POINTS_TITLE, 'section');
+      b.keyValue(UNCERTAINTY_POINT_KEYS.file, fromHistory[0]!.history!.file);
+      b.keyValue(UNCERTAINTY_POINT_KEYS.until, fromHistory[0]!.history!.until);
+      b.table(
+        [...UNCERTAINTY_POINT_HEADERS],
+        fromHistory.flatMap((u) => u.history!.points.map((p) => [u.analyte, p.sampleType, p.qcLevel || null, p.recoveryPct, p.runTime, p.worklistName, p.batchId, p.sampleId])),
+      );
+      b.blank();
+    }
+  }
+
   // Formulas.
   b.title('Formula columns', 'section');
   b.table(
@@ -313,7 +340,7 @@ export function planMethodSheet(result: RecalcResult, options: { formulaForms?: 
   };
 }
 
-const KINDS: readonly ControlKind[] = ['blank', 'lcs', 'lcsd', 'ms', 'msd', 'dup', 'qc', 'surrogate'];
+const KINDS: readonly ControlKind[] = ['blank', 'lcs', 'lcsd', 'ms', 'msd', 'dup', 'qc', 'mdl', 'surrogate'];
 
 /** One row per (scope, control type, qc level) that sets a limit. */
 export function limitRows(method: Method): CellValue[][] {

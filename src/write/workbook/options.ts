@@ -35,6 +35,7 @@ export const DEFAULT_MAX_NOTES = 10_000;
  * Version 3: the Summary sheet's verdict sentence and failed-controls table, the calibrator type, the blank
  * limits and the number format on the Provenance sheet. Version 4: reported_result on the Results sheet, the
  * calibration and reporting section of the Method sheet, a QC level column on the Trends sheet and in the
- * in-house limits table. verify reads only the layout it writes.
+ * in-house limits table, the mdl type (a Summary column), and where a run has them, the expanded uncertainty
+ * columns of the Results sheet and their tables on the Method sheet. verify reads only the layout it writes.
  */
 export const WORKBOOK_FORMAT = 'phasebook-workbook 4';

@@ -7,14 +7,14 @@
 import { FIELD_SPECS, type CanonicalField } from '../../domain/fields.js';
 import { DERIVED_COLUMNS, compileMethod } from '../../engine/evaluate.js';
 import type { RecalcResult } from '../../pipeline.js';
-import { computedHeader, reportedHeader } from '../output-columns.js';
+import { computedHeader, outputColumns, reportedHeader } from '../output-columns.js';
 import { columnLetter } from './cells.js';
 
 export const RESULTS_SHEET = 'Results';
 export const WORKLIST_ROW_HEADER = 'worklist row';
 export const ROW_CHECK_HEADER = 'row check';
 
-export type ResultsColumnKind = 'input' | 'worklist-row' | 'as-used' | 'computed' | 'flags' | 'qc-status' | 'reported' | 'row-check';
+export type ResultsColumnKind = 'input' | 'worklist-row' | 'as-used' | 'computed' | 'uncertainty' | 'flags' | 'qc-status' | 'reported' | 'row-check';
 
 export interface ResultsColumn {
   kind: ResultsColumnKind;
@@ -36,6 +36,8 @@ export interface ResultsLayout {
   inputCount: number;
   asUsed: Map<string, ResultsColumn>;
   computed: Map<string, ResultsColumn>;
+  /** The expanded uncertainty of the results and its k, when the run has one (figures/expanded.ts). */
+  uncertainty: ResultsColumn[];
   worklistRow: ResultsColumn;
   flags: ResultsColumn;
   qcStatus: ResultsColumn;
@@ -91,6 +93,9 @@ export function resultsLayout(result: RecalcResult): ResultsLayout {
   for (const def of result.method.formulas) {
     computed.set(def.name, push({ kind: 'computed', header: computedHeader(def.name, def.unit), name: def.name }));
   }
+  const uncertainty = outputColumns(result)
+    .filter((c) => c.role === 'uncertainty')
+    .map((c) => push({ kind: 'uncertainty', header: c.header, name: c.name }));
   const flags = push({ kind: 'flags', header: 'flags' });
   const qcStatus = push({ kind: 'qc-status', header: 'qc_status' });
   const reported = push({ kind: 'reported', header: reportedHeader(result.method) });
@@ -101,6 +106,7 @@ export function resultsLayout(result: RecalcResult): ResultsLayout {
     inputCount: result.raw.headers.length,
     asUsed,
     computed,
+    uncertainty,
     worklistRow,
     flags,
     qcStatus,

@@ -27,6 +27,8 @@ import { compileMethod } from '../../engine/evaluate.js';
 import { FAILING_CODES, type Flag } from '../../issues.js';
 import type { RecalcResult } from '../../pipeline.js';
 import type { RawCell } from '../../read/types.js';
+import { UNCERTAINTY_COLUMNS } from '../output-columns.js';
+import { RESULT_COLUMN } from '../../figures/expanded.js';
 import { toSheetFormula } from '../sheet-formula.js';
 import {
   MAX_CELL_TEXT,
@@ -265,6 +267,11 @@ export function planResultsSheet(result: RecalcResult, options: ResultsOptions):
     return { index: col.column - 1, values: result.computed.get(def.name)!, numFmt: numFmt.get(col.column), bySignificance };
   });
   const sig = result.method.reporting.significantFigures;
+  // The expanded uncertainty: the engine's values (U % of the analyte × |result|), the source in the header's note.
+  const uncertaintyColumns = layout.uncertainty.map((col) => {
+    const values = col.name === UNCERTAINTY_COLUMNS.k ? result.uncertainty!.k : result.uncertainty!.expanded;
+    return { index: col.column - 1, values, numFmt: displayFormat(values) };
+  });
   const row = (index: number): PlannedRow => {
     if (index === 0) return headerRow;
     const r = index - 1;
@@ -309,6 +316,11 @@ export function planResultsSheet(result: RecalcResult, options: ResultsOptions):
       } else {
         cells[index] = { value: value ?? '', formula: renderTemplate(t, { c: R, p: parentRow + 2, q: pairRow + 2 }), numFmt: fmt };
       }
+    }
+
+    for (const { index, values, numFmt: fmt } of uncertaintyColumns) {
+      const v = values[r]!;
+      cells[index] = { value: Number.isFinite(v) ? v : null, numFmt: fmt };
     }
 
     const flags = result.rowFlags[r]!;
@@ -413,6 +425,19 @@ function headerNotesFor(result: RecalcResult, layout: ResultsLayout, formulaForm
     const col = layout.computed.get(def.name)!;
     notes.set(col.column, `${def.expr}${def.description ? `\n${def.description}` : ''}\n${formulaForms[i]!.split(', e.g.')[0]}`);
   });
+  const u = result.uncertainty;
+  for (const col of layout.uncertainty) {
+    if (!u) break;
+    if (col.name === UNCERTAINTY_COLUMNS.k) {
+      notes.set(col.column, 'The coverage factor k of the expanded uncertainty beside it (k = 2: about 95 % coverage).');
+      continue;
+    }
+    const lines = [...u.byAnalyte.values()].map((a) => `${a.analyte}: U = ${a.pct.toPrecision(4)} % of the result (k = ${a.k}), ${a.source}`);
+    notes.set(
+      col.column,
+      [`Expanded uncertainty U of each sample result, in ${u.unit}: U % of its analyte × |${RESULT_COLUMN}|. Samples of an analyte without a U stay empty.`, ...lines].join('\n'),
+    );
+  }
   notes.set(layout.flags.column, 'Flag codes of the row, ";"-separated; a marked cell says why, the Flags sheet lists every flag.');
   notes.set(layout.rowCheck.column, "First 16 hex digits of a SHA-256 over this row's input cells as written; phasebook verify recomputes it to find rows changed after writing.");
   return notes;

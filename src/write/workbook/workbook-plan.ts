@@ -73,7 +73,7 @@ export function planWorkbook(result: RecalcResult, options: PlanOptions): Workbo
     flags: planFlagsSheet(result, { layout }),
     trends: planTrendsSheet(result, { history: options.history, minPoints: options.minPoints ?? MIN_POINTS }),
     method,
-    approximate: layout.columns.map((c) => c.kind === 'as-used' || c.kind === 'computed'),
+    approximate: layout.columns.map((c) => c.kind === 'as-used' || c.kind === 'computed' || c.kind === 'uncertainty'),
     methodTextSha: sha256Text(sheetTextOfMethod),
     limits: [
       ...limitRows(result.method),
