@@ -15,7 +15,9 @@ import { formatDifference, type Difference } from '../../src/verify/difference.j
 import { parseRanges, verifyWorkbook } from '../../src/verify/verify.js';
 import { writeWorkbook } from '../../src/write/workbook.js';
 import { genericMethod, rawTable } from '../fixtures/qc/build.js';
-import { ALL_CASES, RUN, SAMPLE_CASES, editCopy, plain, rowWith, tempDir, writeCase } from './workbook-fixtures.js';
+import { ALL_CASES, RUN, SAMPLE_CASES, editCopy, plain, readBook, recalcCase, rowWith, tempDir, valueByKey, writeCase } from './workbook-fixtures.js';
+import { planWorkbook } from '../../src/write/workbook/plan.js';
+import { writePlannedWorkbook } from '../../src/write/workbook/write.js';
 
 const kestrelCase = SAMPLE_CASES[0]!;
 let dir: string;
@@ -67,9 +69,14 @@ describe('each kind of edit is found and named', () => {
     });
     const report = await verifyWorkbook(path);
     const text = lines(report.differences);
-    expect(text).toContain('Results!Q7, worklist row 7, sample "KB-03 Footbridge", sample_volume (as used) [mL] from column G: stored 1000, expected 900');
-    expect(text.some((l) => l.startsWith('Results!AD7, worklist row 7, sample "KB-03 Footbridge", pre_extraction_conc [ug/L]: stored 0.3583'))).toBe(true);
-    expect(text.some((l) => l.startsWith('Results!AI7, worklist row 7, sample "KB-03 Footbridge", row check: stored "'))).toBe(true);
+    // The input cell first, with both values, then the row check, then what follows from it.
+    expect(text[0]).toBe(
+      'Results!G7, worklist row 7, sample "KB-03 Footbridge", column "Sample Vol (mL)": typed over after writing: the cell holds 900; ' +
+        'when written, the formulas read it as 1000 mL (the saved result of Results!Q7)',
+    );
+    expect(text[1]).toMatch(/^Results!AI7, worklist row 7, sample "KB-03 Footbridge", row check: stored "[0-9a-f]{16}", expected "[0-9a-f]{16}"$/);
+    expect(text).toContain('Results!Q7, worklist row 7, sample "KB-03 Footbridge", sample_volume (as used) [mL] from column G: =IF(G7="","",G7) gives 900, but the cell holds 1000');
+    expect(text.some((l) => /^Results!AD7, worklist row 7, sample "KB-03 Footbridge", pre_extraction_conc \[ug\/L\]: =IF\(.* gives 0\.398\d*, but the cell holds 0\.3583/.test(l))).toBe(true);
     expect(text.some((l) => l.startsWith('Provenance!B'))).toBe(true);
     expect(report.digestMatches).toBe(false);
   });
@@ -80,7 +87,9 @@ describe('each kind of edit is found and named', () => {
       c.value = c.result as number;
     });
     const report = await verifyWorkbook(path);
-    expect(report.differences).toHaveLength(1);
+    // The cell, and the digest, which takes a formula cell by its formula (digest 3).
+    expect(report.differences).toHaveLength(2);
+    expect(formatDifference(report.differences[1]!)).toMatch(/^Provenance!B\d+, integrity digest/);
     expect(formatDifference(report.differences[0]!)).toMatch(
       /^Results!AD7, worklist row 7, sample "KB-03 Footbridge", pre_extraction_conc \[ug\/L\]: the formula was replaced by a value: stored (0\.3583\d*), expected =IF\(OR\(P7="".* giving (0\.3583\d*)$/,
     );
@@ -95,8 +104,9 @@ describe('each kind of edit is found and named', () => {
       c.value = { formula: 'P7*2', result: c.result } as ExcelJS.CellFormulaValue;
     });
     const text = lines((await verifyWorkbook(path)).differences);
-    expect(text).toHaveLength(1);
+    expect(text).toHaveLength(2);
     expect(text[0]).toMatch(/^Results!AD7, worklist row 7, sample "KB-03 Footbridge", pre_extraction_conc \[ug\/L\]: the formula was changed: stored =P7\*2, expected =IF\(/);
+    expect(text[1]).toMatch(/^Provenance!B\d+, integrity digest/);
   });
 
   it('a deleted row: the row is missing, and the rows and counts no longer match', async () => {
@@ -196,7 +206,7 @@ describe('not a phasebook workbook', () => {
     const path = await edited((wb) => {
       wb.getWorksheet('Provenance')!.getCell('B1').value = 'spreadsheet of another kind';
     });
-    await expect(verifyWorkbook(path)).rejects.toThrow('is not a phasebook workbook: it was written in the format "spreadsheet of another kind"; this phasebook reads "phasebook-workbook 3"');
+    await expect(verifyWorkbook(path)).rejects.toThrow('is not a phasebook workbook: it was written in the format "spreadsheet of another kind"; this phasebook reads "phasebook-workbook 3" and "phasebook-workbook 4"');
   });
 
   it('a workbook of an earlier layout is refused with the way to check it, never called changed', async () => {
@@ -206,8 +216,26 @@ describe('not a phasebook workbook', () => {
     });
     await expect(verifyWorkbook(path)).rejects.toThrow(
       'was written in the format "phasebook-workbook 2" by an earlier phasebook, whose sheets this version lays out differently; ' +
-        'this phasebook verifies "phasebook-workbook 3": verify it with the phasebook version its Provenance sheet names',
+        'this phasebook verifies "phasebook-workbook 3" and "phasebook-workbook 4": verify it with the phasebook version its Provenance sheet names',
     );
+  });
+
+  it('a workbook of format 3 (the previous layout, exact row checks and digest 2) still verifies, and an edit in it is found', async () => {
+    const result = await recalcCase(kestrelCase);
+    const path = join(dir, 'format-3.xlsx');
+    const run = { ...RUN, node: RUN.node! };
+    await writePlannedWorkbook(path, planWorkbook(result, { run, format: 3 }), { run });
+    const wb = await readBook(path);
+    expect(valueByKey(wb.getWorksheet('Provenance')!, 'phasebook workbook')).toBe('phasebook-workbook 3');
+    const report = await verifyWorkbook(path);
+    expect(lines(report.differences)).toEqual([]);
+    expect(report.digestMatches).toBe(true);
+    const changed = join(dir, 'format-3-changed.xlsx');
+    await editCopy(path, changed, (w) => {
+      w.getWorksheet('Results')!.getCell('G7').value = 900;
+    });
+    const text = lines((await verifyWorkbook(changed)).differences);
+    expect(text[0]).toMatch(/^Results!G7, worklist row 7, sample "KB-03 Footbridge", column "Sample Vol \(mL\)": typed over after writing/);
   });
 });
 
@@ -268,7 +296,12 @@ describe('pieces', () => {
     ['IF(A2 = "", FALSE(), A2)', 'IF(A2="",FALSE,A2)'],
     ['_xlfn.IFERROR(B2,"a b")', 'IFERROR(B2,"a b")'],
     ['F2*999.9999999999999', 'F2*1000'],
-    ['Method!$A$38:$B$45', 'Method!$A$38:$B$45'],
+    ['Method!$A$38:$B$45', 'METHOD!$A$38:$B$45'],
+    // Sheet-name quoting and case do not change a formula's meaning.
+    ["'Method'!$a$38+sum(b2:b3)", 'METHOD!$A$38+SUM(B2:B3)'],
+    ["'QC data'!A1&\"a b\"", "'QC DATA'!A1&\"a b\""],
+    ["'A1'!B2", "'A1'!B2"],
+    ['IF(A2=TRUE(),0.11800000000000001,1E+3)', 'IF(A2=TRUE,0.118,1000)'],
   ])('normaliseFormula(%j) is %j', (f, want) => {
     expect(normaliseFormula(f)).toBe(want);
   });

@@ -3,7 +3,17 @@
  * serialisation of what was handed over, so `phasebook verify` can recompute it
  * from the stored cells.
  *
- * Serialisation (UTF-8, one line each, "\n" after every line):
+ * Digest 3 (workbook format 4) is taken over the canonical content (canonical.ts),
+ * so that a workbook saved unchanged by a spreadsheet program keeps it:
+ *   `phasebook integrity digest 3`
+ *   every row of the Results sheet, header included, as a JSON array with one entry
+ *     per column: null for an empty cell, a number to 15 significant digits, a text,
+ *     or for a formula cell `{"f": formula}`, the formula as phasebook writes it
+ *     (verify puts a stored formula that means the same in its place), never its
+ *     cached result;
+ *   then the method, limits and trends lines as below, their numbers to 15 digits.
+ *
+ * Digest 2 (workbook format 3, still read by verify), one line each, "\n" after every line:
  *   `phasebook integrity digest 2`
  *   every row of the Results sheet, header included: a JSON array with one entry per
  *     column: a number, a text, or null for an empty cell; numbers of the as-used and
@@ -19,8 +29,10 @@
  */
 import { createHash, type Hash } from 'node:crypto';
 import type { CellValue } from './cells.js';
+import { canonicalValue } from './canonical.js';
 
 export const DIGEST_HEADER = 'phasebook integrity digest 2';
+export const DIGEST_3_HEADER = 'phasebook integrity digest 3';
 
 export const DIGEST_DESCRIPTION =
   'SHA-256 over, one line each: "phasebook integrity digest 2"; every row of the Results sheet, header included, as a JSON array ' +
@@ -29,6 +41,17 @@ export const DIGEST_DESCRIPTION =
   'table, when the method uses in-house limits) as a JSON array; "trends", then the Trends sheet\'s QC history and points-needed ' +
   'lines and every row of its points table (values up to the recovery) as a JSON array. ' +
   'phasebook verify recomputes it from the stored cells.';
+
+export const DIGEST_3_DESCRIPTION =
+  'SHA-256 over, one line each: "phasebook integrity digest 3"; every row of the Results sheet, header included, as a JSON array ' +
+  '(empty cells null, numbers to 15 significant digits, texts as they are, a formula cell as {"f": its formula as phasebook writes it}, ' +
+  'never its cached result); "method " and the SHA-256 of the method text on the Method sheet; every row of the acceptance limits table ' +
+  'on the Method sheet (and of the in-house limits table, when the method uses in-house limits) as a JSON array; "trends", then the ' +
+  "Trends sheet's QC history and points-needed lines and every row of its points table (values up to the recovery) as a JSON array. " +
+  'A workbook opened and saved unchanged by a spreadsheet program keeps it. phasebook verify recomputes it from the stored cells.';
+
+/** The digest a workbook format records: 2 for format 3, 3 for format 4. */
+export type DigestVersion = 2 | 3;
 
 /** Empty (undefined, null or "") as null, anything else as it is. */
 function canonical(v: CellValue | undefined): CellValue {
@@ -92,13 +115,34 @@ export class IntegrityDigest {
   /** Results lines not yet hashed (one update per line would cost more than the hashing). */
   private pending = '';
   private readonly precision: PrecisionTexts[] = [];
+  readonly version: DigestVersion;
 
-  constructor() {
-    this.hash.update(`${DIGEST_HEADER}\n`, 'utf8');
+  constructor(options: { version?: DigestVersion } = {}) {
+    this.version = options.version ?? 3;
+    this.hash.update(`${this.version === 3 ? DIGEST_3_HEADER : DIGEST_HEADER}\n`, 'utf8');
   }
 
-  /** One Results row; `approximate[c]` marks the as-used and computed columns. */
-  addResultsRow(values: readonly (CellValue | undefined)[], approximate: readonly boolean[]): void {
+  /**
+   * One Results row: its values and, by column, the formulas of its formula cells.
+   * Digest 2 reads the values only, `approximate[c]` marking the as-used and computed columns.
+   */
+  addResultsRow(
+    values: readonly (CellValue | undefined)[],
+    options: { formulas: readonly (string | undefined)[]; approximate: readonly boolean[] },
+  ): void {
+    if (this.version === 3) {
+      const width = Math.max(values.length, options.formulas.length);
+      let line = '[';
+      for (let c = 0; c < width; c++) {
+        if (c > 0) line += ',';
+        const f = options.formulas[c];
+        line += f !== undefined ? `{"f":${JSON.stringify(f)}}` : JSON.stringify(canonicalValue(values[c]));
+      }
+      this.pending += `${line}]\n`;
+      if (this.pending.length > PENDING_LIMIT) this.flush();
+      return;
+    }
+    const { approximate } = options;
     // The JSON array of the canonical values, built directly (this runs once per row).
     const width = Math.max(values.length, approximate.length);
     let line = '[';
@@ -122,18 +166,22 @@ export class IntegrityDigest {
   addMethod(textSha256: string, limits: readonly (readonly (CellValue | undefined)[])[]): void {
     this.flush();
     this.hash.update(`method ${textSha256}\n`, 'utf8');
-    for (const row of limits) this.hash.update(`${JSON.stringify(row.map((v) => canonical(v)))}\n`, 'utf8');
+    for (const row of limits) this.hash.update(`${this.line(row)}\n`, 'utf8');
   }
 
   addTrends(rows: readonly (readonly (CellValue | undefined)[])[]): void {
     this.flush();
     this.hash.update('trends\n', 'utf8');
-    for (const row of rows) this.hash.update(`${JSON.stringify(row.map((v) => canonical(v)))}\n`, 'utf8');
+    for (const row of rows) this.hash.update(`${this.line(row)}\n`, 'utf8');
   }
 
   hex(): string {
     this.flush();
     return this.hash.digest('hex');
+  }
+
+  private line(row: readonly (CellValue | undefined)[]): string {
+    return JSON.stringify(row.map((v) => (this.version === 3 ? canonicalValue(v) : canonical(v))));
   }
 
   private flush(): void {

@@ -30,9 +30,17 @@ export interface WorkbookOptions {
 export const DEFAULT_FORMULA_ROW_LIMIT = 100_000;
 export const DEFAULT_MAX_NOTES = 10_000;
 
-/** Identifies a phasebook workbook and the layout `verify` expects. */
 /**
+ * Identifies a phasebook workbook and the layout `verify` expects.
  * Version 3: the Summary sheet's verdict sentence and failed-controls table, the calibrator type, the blank
- * limits and the number format on the Provenance sheet. verify reads only the layout it writes.
+ * limits and the number format on the Provenance sheet.
+ * Version 4: the same sheets; the row check and the integrity digest are taken over the canonical content
+ * (canonical.ts: numbers to 15 significant digits, formulas by meaning, no cached results), so that a workbook
+ * saved unchanged by a spreadsheet program still verifies; signatures may follow on a sheet of their own.
+ * verify reads versions 3 and 4.
  */
-export const WORKBOOK_FORMAT = 'phasebook-workbook 3';
+export const WORKBOOK_FORMAT = 'phasebook-workbook 4';
+
+/** The layouts verify reads, by version: the name in Provenance!B1. */
+export const WORKBOOK_FORMATS = { 3: 'phasebook-workbook 3', 4: WORKBOOK_FORMAT } as const;
+export type FormatVersion = keyof typeof WORKBOOK_FORMATS;

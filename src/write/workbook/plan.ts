@@ -10,7 +10,7 @@ import type { CellValue, SheetPlan } from './cells.js';
 import { sha256Text } from './digest.js';
 import { planFlagsSheet } from './flags-sheet.js';
 import { inHouseApplied, lineEndOf, lineEnds, limitRows, methodLines, planMethodSheet } from './method-sheet.js';
-import { DEFAULT_FORMULA_ROW_LIMIT, DEFAULT_MAX_NOTES, type RunInfo } from './options.js';
+import { DEFAULT_FORMULA_ROW_LIMIT, DEFAULT_MAX_NOTES, type FormatVersion, type RunInfo } from './options.js';
 import { describeFormat, planProvenanceSheet } from './provenance-sheet.js';
 import { planQcSheet } from './qc-sheet.js';
 import { planResultsSheet, type ResultsSheet } from './results-sheet.js';
@@ -33,9 +33,12 @@ export interface PlanOptions {
   history?: TrendsSheetInput;
   /** Points a series needs before it has limits (default MIN_POINTS). */
   minPoints?: number;
+  /** The workbook format (default the current one); verify plans a workbook of an earlier format as it was written. */
+  format?: FormatVersion;
 }
 
 export interface WorkbookPlan {
+  format: FormatVersion;
   formulas: boolean;
   formulaRowLimit: number;
   maxNotes: number;
@@ -59,11 +62,13 @@ export function planWorkbook(result: RecalcResult, options: PlanOptions): Workbo
   const formulas = options.formulas ?? result.rowsOut <= formulaRowLimit;
   const { refs } = planMethodSheet(result);
   const flagsByRow = groupBy(result.flags, (f) => f.row);
-  const results = planResultsSheet(result, { refs, formulas, flagsByRow });
+  const format = options.format ?? 4;
+  const results = planResultsSheet(result, { refs, formulas, flagsByRow, format });
   const method = planMethodSheet(result, { formulaForms: results.formulaForms }).plan;
   const layout = results.layout;
   const sheetTextOfMethod = methodLines(result.method.text).map(sheetText).join(lineEndOf(lineEnds(result.method.text)));
   return {
+    format,
     formulas,
     formulaRowLimit,
     maxNotes,
@@ -87,6 +92,7 @@ export function planWorkbook(result: RecalcResult, options: PlanOptions): Workbo
         formulaRowLimit,
         maxNotes,
         digest,
+        format,
       }),
   };
 }

@@ -42,6 +42,8 @@ import {
 } from './cells.js';
 import type { MethodRefs } from './method-sheet.js';
 import { asUsedPlanner } from './as-used.js';
+import { canonicalValue } from './canonical.js';
+import type { FormatVersion } from './options.js';
 import { displayFormat, fitWidth, strongerMark } from './style.js';
 
 export const RESULTS_SHEET = 'Results';
@@ -187,10 +189,14 @@ export function inputCellWriter(result: RecalcResult): (column: number, row: num
   };
 }
 
-/** First 16 hex digits of SHA-256 over the row's input cells as written (JSON). */
-export function rowCheck(values: readonly CellValue[]): string {
+/**
+ * First 16 hex digits of SHA-256 over the row's input cells as written (JSON); from workbook format 4
+ * on, their canonical values (numbers to 15 significant digits, as a spreadsheet program saves them).
+ */
+export function rowCheck(values: readonly CellValue[], options: { canonical?: boolean } = {}): string {
+  const canonical = options.canonical ?? true;
   // One-shot hash: a Hash object per row costs more than the hashing.
-  return hash('sha256', JSON.stringify(values), 'hex').slice(0, 16);
+  return hash('sha256', JSON.stringify(canonical ? values.map(canonicalValue) : values), 'hex').slice(0, 16);
 }
 
 // ---- formula templates ----------------------------------------------------------------------
@@ -228,10 +234,13 @@ export interface ResultsOptions {
   formulas: boolean;
   /** result.flags by row (shared with the QC sheet). */
   flagsByRow: ReadonlyMap<number, readonly Flag[]>;
+  /** The workbook format (default the current one): format 3 took the row check over the exact values. */
+  format?: FormatVersion;
 }
 
 export function planResultsSheet(result: RecalcResult, options: ResultsOptions): ResultsSheet {
   const { refs } = options;
+  const canonicalRowCheck = (options.format ?? 4) >= 4;
   const layout = resultsLayout(result);
   const { table, raw } = result;
   const n = result.rowsOut;
@@ -402,7 +411,7 @@ export function planResultsSheet(result: RecalcResult, options: ResultsOptions):
     const status = result.qc.status[r]!;
     cells[layout.flags.column - 1] = cell(flags === '' ? null : flags);
     cells[layout.qcStatus.column - 1] = cell(status === '' ? null : status);
-    cells[layout.rowCheck.column - 1] = cell(rowCheck(inputs));
+    cells[layout.rowCheck.column - 1] = cell(rowCheck(inputs, { canonical: canonicalRowCheck }));
 
     // Marks: each flag on its cell, all of the row's flags on the flags cell.
     const rowFlags = flagsByRow.get(r);

@@ -298,8 +298,9 @@ export async function writePlannedWorkbook(
     wb.modified = time;
     const budget: NoteBudget = { left: plan.maxNotes };
     const rowWriter = options.rowWriter ?? 'direct';
-    const digest = new IntegrityDigest();
+    const digest = new IntegrityDigest({ version: plan.format >= 4 ? 3 : 2 });
     const values: CellValue[] = [];
+    const formulas: (string | undefined)[] = [];
 
     await writeSheet(wb, plan.summary, { budget, rowWriter });
     await writeSheet(wb, plan.results.plan, {
@@ -308,8 +309,12 @@ export async function writePlannedWorkbook(
       onRow: (row) => {
         // One array for every row's values: the digest reads it before the next row.
         values.length = row.cells.length;
-        for (let j = 0; j < values.length; j++) values[j] = row.cells[j]?.value ?? null;
-        digest.addResultsRow(values, plan.approximate);
+        formulas.length = row.cells.length;
+        for (let j = 0; j < values.length; j++) {
+          values[j] = row.cells[j]?.value ?? null;
+          formulas[j] = row.cells[j]?.formula;
+        }
+        digest.addResultsRow(values, { formulas, approximate: plan.approximate });
       },
     });
     await writeSheet(wb, plan.qc, { budget, rowWriter });
