@@ -66,8 +66,10 @@ export async function writeWithSignatures(source: string, target: string, record
     else if (existing) throw new StopError('input', `its sheet "${SIGNATURES_SHEET}" is not a worksheet; expected the one phasebook sign writes`, { file: source });
     else {
       const workbookPart = await workbookPartOf(source);
-      let part = 'xl/worksheets/phasebook-signatures.xml';
-      for (let i = 2; pkg.has(part); i++) part = `xl/worksheets/phasebook-signatures-${i}.xml`;
+      // Named as the writers name worksheets ("sheetN.xml"): some readers (exceljs) find sheets by that name only.
+      let n = info.sheets.length + 1;
+      while (pkg.has(`xl/worksheets/sheet${n}.xml`)) n++;
+      const part = `xl/worksheets/sheet${n}.xml`;
       added = part;
       const read = async (name: string) => (await readPart(source, name)).toString('utf8');
       const relsPart = relsPartOf(workbookPart);
