@@ -20,8 +20,9 @@ import { parseMethod } from '../method/load.js';
 import type { Method } from '../method/types.js';
 import { recalculateTable, type RecalcResult } from '../pipeline.js';
 import type { RawCell, RawTable, RowProblem } from '../read/types.js';
-import { columnLetter, isEmptyValue, type CellValue, type PlannedRow, type RowContext, type SheetPlan } from '../write/workbook/cells.js';
-import { IntegrityDigest, sha256Text } from '../write/workbook/digest.js';
+import { columnLetter, isEmptyValue, type CellValue, type RowContext, type SheetPlan } from '../write/workbook/cells.js';
+import { ColumnChecks, IntegrityDigest, parseColumnChecks, sha256Text } from '../write/workbook/digest.js';
+import { columnNumber } from './shared-formula.js';
 import { FLAGS_SHEET } from '../write/workbook/flags-sheet.js';
 import { IN_HOUSE_TITLE, LIMITS_TITLE, LINE_ENDS_KEY, METHOD_SHEET, METHOD_TEXT_TITLE, lineEndOf } from '../write/workbook/method-sheet.js';
 import { inHouseKey, type InHouseLimits } from '../qc/limits.js';
@@ -41,7 +42,7 @@ import { RESULTS_SHEET, WORKLIST_ROW_HEADER } from '../write/workbook/results-sh
 import { SUMMARY_SHEET } from '../write/workbook/summary-sheet.js';
 import { MIN_POINTS } from '../history/trends.js';
 import { TRENDS_SHEET } from '../write/workbook/trends-sheet.js';
-import { compareSheet, sameFormula, sameValue } from './compare.js';
+import { compareSheet, sameValue } from './compare.js';
 import { isCanonicalField } from '../columns/fields.js';
 import { SIGNATURES_SHEET, checkSignatures, contentDigest, readSignatures, type SignatureCheck } from './signatures.js';
 import { storedTrends } from './trends.js';
@@ -214,15 +215,16 @@ export async function verifyWorkbook(path: string, options: VerifyOptions = {}):
   differences.push(...compareSheet(plan.method, methodSheet, { recomputed }));
   const resultsWidth = plan.results.layout.columns.length;
   differences.push(...missingRows(stored, provenance, raw));
-  differences.push(
-    ...namedInputChanges(
-      compareSheet(plan.results.plan, results, {
-        recomputed,
-        onStoredRow: (_r, cells, planned) => digest.addResultsRow(rowValues(cells, resultsWidth), { formulas: rowFormulas(cells, planned), approximate: plan.approximate }),
-      }),
-      { result, plan, results },
-    ),
-  );
+  const columnChecks = new ColumnChecks(plan.results.layout.inputCount);
+  const resultsDifferences = compareSheet(plan.results.plan, results, {
+    recomputed,
+    onStoredRow: (_r, cells) => {
+      const values = rowValues(cells, resultsWidth);
+      digest.addResultsRow(values, { formulas: formulaCells(cells), approximate: plan.approximate, columnChecks });
+    },
+  });
+  const checks = format >= 4 ? columnChecks.text() : undefined;
+  differences.push(...namedInputChanges(resultsDifferences, { result, plan, results, changedColumns: changedColumns(facts.get(KEYS.columnChecks)?.value, checks) }));
   const qc = sheetOrMissing(QC_SHEET);
   if (qc) differences.push(...compareSheet(plan.qc, qc, { recomputed }));
   const flags = sheetOrMissing(FLAGS_SHEET);
@@ -236,8 +238,9 @@ export async function verifyWorkbook(path: string, options: VerifyOptions = {}):
   digest.addTrends(trends?.digestRows ?? []);
   const hex = digest.hex();
   const recorded = facts.get(KEYS.digest)?.value;
-  differences.push(...compareSheet(plan.provenance(hex), provenance, { recomputed }));
-  return finish(differences, results, { digestMatches: recorded === hex, recomputedCells: recomputed.cells, signOff: signOff(provenance, plan.provenance(hex)) });
+  const provenancePlan = plan.provenance(hex, checks);
+  differences.push(...compareSheet(provenancePlan, provenance, { recomputed }));
+  return finish(differences, results, { digestMatches: recorded === hex, recomputedCells: recomputed.cells, signOff: signOff(provenance, provenancePlan) });
 }
 
 /**
@@ -246,9 +249,18 @@ export async function verifyWorkbook(path: string, options: VerifyOptions = {}):
  * the as-used cell that reads it, unless the saving program recalculated it). Where nothing saved tells
  * which input changed, the row check's line says so.
  */
+/** Input columns (letters) whose column check no longer matches; empty when the workbook keeps none (format 3). */
+function changedColumns(stored: CellValue | undefined, recomputed: string | undefined): string[] {
+  if (recomputed === undefined || typeof stored !== 'string') return [];
+  const was = parseColumnChecks(stored);
+  const now = parseColumnChecks(recomputed);
+  if (!was || !now) return [];
+  return [...now].filter(([letter, check]) => was.get(letter) !== check).map(([letter]) => letter);
+}
+
 function namedInputChanges(
   differences: Difference[],
-  at: { result: RecalcResult; plan: ReturnType<typeof planWorkbook>; results: StoredSheet },
+  at: { result: RecalcResult; plan: ReturnType<typeof planWorkbook>; results: StoredSheet; changedColumns: readonly string[] },
 ): Difference[] {
   const { layout } = at.plan.results;
   const rowOf = (d: Difference) => Number(/\d+$/.exec(d.address ?? '')?.[0] ?? 0);
@@ -278,6 +290,20 @@ function namedInputChanges(
           `${showValue(cell.value)}${unit ? ` ${unit}` : ''} (the saved result of ${RESULTS_SHEET}!${col.letter}${sheetRow})`,
       });
     }
+    // No saved result shows the value as written: the column checks name the cell, its value now is all there is.
+    if (named.length === 0) {
+      for (const letter of at.changedColumns) {
+        const column = columnNumber(letter);
+        named.push({
+          ...d,
+          address: `${letter}${sheetRow}`,
+          label: `column ${JSON.stringify(at.result.raw.headers[column - 1] ?? '')}`,
+          message:
+            `changed after writing (its row check and column check no longer match): the cell holds ${showValue(stored.get(column)?.value ?? null)}; ` +
+            'the value as written is not kept in the workbook (the saving program recalculated or dropped the results that showed it)',
+        });
+      }
+    }
     const check =
       named.length > 0
         ? d
@@ -304,18 +330,10 @@ function formatVersionOf(name: CellValue | undefined): FormatVersion | undefined
   return undefined;
 }
 
-/**
- * The formulas of a stored Results row as the digest takes them: a formula that means what the plan's
- * does counts as the plan's spelling (a program that saves `FALSE()` for `FALSE` changes nothing), any
- * other as stored.
- */
-function rowFormulas(cells: ReadonlyMap<number, StoredCell>, planned: PlannedRow | undefined): (string | undefined)[] {
-  const out: (string | undefined)[] = [];
-  for (const [c, cell] of cells) {
-    if (cell.formula === undefined) continue;
-    const p = planned?.cells[c - 1]?.formula;
-    out[c - 1] = p !== undefined && sameFormula(p, cell.formula) ? p : cell.formula;
-  }
+/** Which cells of a stored row hold a formula, by 0-based column. */
+function formulaCells(cells: ReadonlyMap<number, StoredCell>): boolean[] {
+  const out: boolean[] = [];
+  for (const [c, cell] of cells) if (cell.formula !== undefined) out[c - 1] = true;
   return out;
 }
 

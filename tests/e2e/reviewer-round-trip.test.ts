@@ -110,17 +110,19 @@ describe.skipIf(!ready)('the reviewer round trip', () => {
     expect(lines[1]).toMatch(/^Provenance!B\d+, sign-off "reviewed on" \(typed, not checked\): "2026-11-21"$/);
   }, 120_000);
 
-  it('an input typed over (openpyxl): exit 1, its cell, sample and row check named', () => {
+  it('an input typed over (openpyxl): exit 1, its cell, column, sample and value named by the row and column checks', () => {
     // Results!G7 is "Sample Vol (mL)" of "KB-03 Footbridge", 1000 when written (samples/kestrel-brook-2026-11.csv).
     const changed = join(dir, 'input-changed.xlsx');
     openpyxlSave(workbook, changed, `ws('Results')['G7'] = 900`);
     const r = runCli(['verify', changed]);
     expect(r.code).toBe(1);
     const lines = r.stdout.trimEnd().split('\n');
-    // openpyxl kept no results, so nothing saved shows the old value: the row check names the row.
-    expect(lines[0]).toMatch(
-      /^Results!AI7, worklist row 7, sample "KB-03 Footbridge", row check: stored "[0-9a-f]{16}", expected "[0-9a-f]{16}": an input cell of this row was changed after writing/,
+    // openpyxl kept no results, so nothing saved shows the old value: the row and column checks name the cell.
+    expect(lines[0]).toBe(
+      'Results!G7, worklist row 7, sample "KB-03 Footbridge", column "Sample Vol (mL)": changed after writing (its row check and column check no longer match): ' +
+        'the cell holds 900; the value as written is not kept in the workbook (the saving program recalculated or dropped the results that showed it)',
     );
+    expect(lines[1]).toMatch(/^Results!AI7, worklist row 7, sample "KB-03 Footbridge", row check: stored "[0-9a-f]{16}", expected "[0-9a-f]{16}"$/);
     expect(lines).toContain('Summary!S17, mean E %: stored 99.98786757959796, expected 99.98815441777488');
     expect(r.stderr).toMatch(/: \d+ differences; the integrity digest does not match/);
   });

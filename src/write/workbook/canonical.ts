@@ -27,6 +27,7 @@ export const SPREADSHEET_DIGITS = 15;
 export function canonicalNumber(x: number): number {
   if (Number.isInteger(x) && x < 1e15 && x > -1e15) return x === 0 ? 0 : x; // the common case, exact already
   if (!Number.isFinite(x)) return x;
+  if (String(x).length <= SPREADSHEET_DIGITS) return x; // at most 15 characters: at most 15 digits (lab values mostly)
   const text = x.toExponential(); // shortest round-trip digits: "-8.918202590278685e+1"
   const e = text.indexOf('e');
   const negative = text.startsWith('-');

@@ -8,9 +8,9 @@
  *   `phasebook integrity digest 3`
  *   every row of the Results sheet, header included, as a JSON array with one entry
  *     per column: null for an empty cell, a number to 15 significant digits, a text,
- *     or for a formula cell `{"f": formula}`, the formula as phasebook writes it
- *     (verify puts a stored formula that means the same in its place), never its
- *     cached result;
+ *     or `{"f":1}` for a formula cell, never its cached result (verify compares each
+ *     formula with the one phasebook writes, by meaning, cell by cell; hashing the
+ *     formulas' text here would double the digest's cost on a large sheet);
  *   then the method, limits and trends lines as below, their numbers to 15 digits.
  *
  * Digest 2 (workbook format 3, still read by verify), one line each, "\n" after every line:
@@ -28,8 +28,8 @@
  *     of its points table (each point's values up to its recovery), as a JSON array.
  */
 import { createHash, type Hash } from 'node:crypto';
-import type { CellValue } from './cells.js';
-import { canonicalValue } from './canonical.js';
+import { columnLetter, type CellValue } from './cells.js';
+import { SPREADSHEET_DIGITS, canonicalNumber, canonicalValue } from './canonical.js';
 
 export const DIGEST_HEADER = 'phasebook integrity digest 2';
 export const DIGEST_3_HEADER = 'phasebook integrity digest 3';
@@ -44,11 +44,20 @@ export const DIGEST_DESCRIPTION =
 
 export const DIGEST_3_DESCRIPTION =
   'SHA-256 over, one line each: "phasebook integrity digest 3"; every row of the Results sheet, header included, as a JSON array ' +
-  '(empty cells null, numbers to 15 significant digits, texts as they are, a formula cell as {"f": its formula as phasebook writes it}, ' +
-  'never its cached result); "method " and the SHA-256 of the method text on the Method sheet; every row of the acceptance limits table ' +
+  '(empty cells null, numbers to 15 significant digits, texts as they are, a formula cell as {"f":1}, never its cached result: ' +
+  'phasebook verify compares every formula with the one it writes); "method " and the SHA-256 of the method text on the Method sheet; every row of the acceptance limits table ' +
   'on the Method sheet (and of the in-house limits table, when the method uses in-house limits) as a JSON array; "trends", then the ' +
   "Trends sheet's QC history and points-needed lines and every row of its points table (values up to the recovery) as a JSON array. " +
   'A workbook opened and saved unchanged by a spreadsheet program keeps it. phasebook verify recomputes it from the stored cells.';
+
+/** The JSON text of a cell's canonical value (canonical.ts), without a round trip through JSON.stringify for numbers. */
+function canonicalJson(v: CellValue | undefined): string {
+  if (typeof v === 'number') {
+    const text = String(v);
+    return text.length <= SPREADSHEET_DIGITS && v !== 0 ? text : String(canonicalNumber(v)); // at most 15 characters: canonical already
+  }
+  return v === undefined || v === null || v === '' ? 'null' : JSON.stringify(v);
+}
 
 /** The digest a workbook format records: 2 for format 3, 3 for format 4. */
 export type DigestVersion = 2 | 3;
@@ -123,20 +132,23 @@ export class IntegrityDigest {
   }
 
   /**
-   * One Results row: its values and, by column, the formulas of its formula cells.
+   * One Results row: its values and, by column, whether a cell holds a formula.
    * Digest 2 reads the values only, `approximate[c]` marking the as-used and computed columns.
    */
   addResultsRow(
     values: readonly (CellValue | undefined)[],
-    options: { formulas: readonly (string | undefined)[]; approximate: readonly boolean[] },
+    options: { formulas: readonly (boolean | undefined)[]; approximate: readonly boolean[]; columnChecks?: ColumnChecks },
   ): void {
     if (this.version === 3) {
       const width = Math.max(values.length, options.formulas.length);
+      const checks = options.columnChecks;
+      const inputs = checks?.columns ?? 0;
       let line = '[';
       for (let c = 0; c < width; c++) {
         if (c > 0) line += ',';
-        const f = options.formulas[c];
-        line += f !== undefined ? `{"f":${JSON.stringify(f)}}` : JSON.stringify(canonicalValue(values[c]));
+        const text = options.formulas[c] === true ? '{"f":1}' : canonicalJson(values[c]);
+        if (c < inputs) checks!.addCell(c, text);
+        line += text;
       }
       this.pending += `${line}]\n`;
       if (this.pending.length > PENDING_LIMIT) this.flush();
@@ -194,4 +206,59 @@ export class IntegrityDigest {
 /** SHA-256 of a text (the method file as the Method sheet holds it). */
 export function sha256Text(text: string): string {
   return createHash('sha256').update(text, 'utf8').digest('hex');
+}
+
+/**
+ * Column checks (workbook format 4): for each input column of the Results sheet, the first 8 hex
+ * digits of a SHA-256 over its cells, header included, one line each: the JSON of the canonical
+ * value (canonical.ts). With the row check, which names the row, they name the input cell typed
+ * over. Written on the Provenance sheet as `A 1f2e3d4c, B …`.
+ */
+/** Cells of a column hashed at once. */
+const CHECK_BATCH = 8192;
+
+export class ColumnChecks {
+  private readonly hashes: Hash[];
+  /** Cell texts not yet hashed, per column (arrays joined in batches: a string grown cell by cell costs more). */
+  private readonly pending: string[][];
+
+  constructor(readonly columns: number) {
+    this.hashes = Array.from({ length: columns }, () => createHash('sha256'));
+    this.pending = Array.from({ length: columns }, () => []);
+  }
+
+  /** One cell of input column `c` (0-based), as the JSON text of its canonical value (IntegrityDigest passes it on). */
+  addCell(c: number, text: string): void {
+    const pending = this.pending[c]!;
+    pending.push(text);
+    if (pending.length >= CHECK_BATCH) this.flush(c);
+  }
+
+  private flush(c: number): void {
+    const pending = this.pending[c]!;
+    if (pending.length === 0) return;
+    this.hashes[c]!.update(`${pending.join('\n')}\n`, 'utf8');
+    pending.length = 0;
+  }
+
+  text(): string {
+    const parts: string[] = [];
+    for (let c = 0; c < this.columns; c++) {
+      this.flush(c);
+      parts.push(`${columnLetter(c + 1)} ${this.hashes[c]!.digest('hex').slice(0, 8)}`);
+    }
+    return parts.join(', ');
+  }
+}
+
+/** `A 1f2e3d4c, B …` → the check of each column letter; undefined when it does not read so. */
+export function parseColumnChecks(text: string): Map<string, string> | undefined {
+  const out = new Map<string, string>();
+  if (text.trim() === '') return out;
+  for (const part of text.split(',')) {
+    const m = /^\s*([A-Z]{1,3}) ([0-9a-f]{8})\s*$/.exec(part);
+    if (!m) return undefined;
+    out.set(m[1]!, m[2]!);
+  }
+  return out;
 }

@@ -53,7 +53,8 @@ export interface WorkbookPlan {
   /** SHA-256 of the method text as the Method sheet holds it, and the limits tables (acceptance, in-house): the digest's tail. */
   methodTextSha: string;
   limits: CellValue[][];
-  provenance(digest: string): SheetPlan;
+  /** The Provenance sheet, given the integrity digest and the column checks (format 4) taken while the Results rows were written or read. */
+  provenance(digest: string, columnChecks?: string): SheetPlan;
 }
 
 export function planWorkbook(result: RecalcResult, options: PlanOptions): WorkbookPlan {
@@ -84,7 +85,7 @@ export function planWorkbook(result: RecalcResult, options: PlanOptions): Workbo
       ...limitRows(result.method),
       ...(result.method.qc.limitsSource === 'in_house' ? inHouseApplied(result).map((e) => [e.analyte, e.type, e.low, e.high, e.n]) : []),
     ],
-    provenance: (digest) =>
+    provenance: (digest, columnChecks) =>
       planProvenanceSheet(result, {
         run: options.run,
         readAs: options.readAs ?? describeFormat(result.raw.format, result.table.numberFormat),
@@ -92,6 +93,7 @@ export function planWorkbook(result: RecalcResult, options: PlanOptions): Workbo
         formulaRowLimit,
         maxNotes,
         digest,
+        columnChecks,
         format,
       }),
   };

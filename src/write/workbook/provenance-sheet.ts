@@ -46,6 +46,7 @@ export const KEYS = {
   formulaRowLimit: 'formula row limit',
   maxNotes: 'most cell notes',
   digest: 'integrity digest (SHA-256)',
+  columnChecks: 'column checks',
 } as const;
 
 export const FORMULAS_LIVE = 'live';
@@ -114,6 +115,8 @@ export interface ProvenanceFacts {
   formulaRowLimit: number;
   maxNotes: number;
   digest: string;
+  /** ColumnChecks.text() of the Results input columns (format 4). */
+  columnChecks?: string;
   /** The workbook format to lay out (default the current one; verify plans a format 3 workbook as such). */
   format?: FormatVersion;
 }
@@ -184,6 +187,13 @@ export function planProvenanceSheet(result: RecalcResult, facts: ProvenanceFacts
       ? "Results, last column: first 16 hex digits of a SHA-256 over the row's input cells as written (a JSON array, numbers to 15 significant digits)"
       : "Results, last column: first 16 hex digits of a SHA-256 over the row's input cells as written (a JSON array)",
   );
+  if (format >= 4) {
+    b.keyValue(KEYS.columnChecks, facts.columnChecks ?? '');
+    b.keyValue(
+      'what a column check covers',
+      'per input column of the Results sheet: first 8 hex digits of a SHA-256 over its cells, header included, one line each (the JSON of the value, numbers to 15 significant digits); with the row check it names an input cell changed after writing',
+    );
+  }
   b.keyValue('to check this workbook', `phasebook verify ${result.worklist.name.replace(/\.[^.]*$/, '')}.xlsx`);
   b.blank();
 

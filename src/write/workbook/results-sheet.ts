@@ -194,9 +194,18 @@ export function inputCellWriter(result: RecalcResult): (column: number, row: num
  * on, their canonical values (numbers to 15 significant digits, as a spreadsheet program saves them).
  */
 export function rowCheck(values: readonly CellValue[], options: { canonical?: boolean } = {}): string {
-  const canonical = options.canonical ?? true;
+  let hashed = values;
+  if (options.canonical ?? true) {
+    // A copy only when a number is not canonical already (most inputs are short decimals).
+    for (const v of values) {
+      if (typeof v === 'number' && canonicalValue(v) !== v) {
+        hashed = values.map(canonicalValue);
+        break;
+      }
+    }
+  }
   // One-shot hash: a Hash object per row costs more than the hashing.
-  return hash('sha256', JSON.stringify(canonical ? values.map(canonicalValue) : values), 'hex').slice(0, 16);
+  return hash('sha256', JSON.stringify(hashed), 'hex').slice(0, 16);
 }
 
 // ---- formula templates ----------------------------------------------------------------------

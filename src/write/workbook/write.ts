@@ -24,7 +24,7 @@ import type ExcelJS from 'exceljs';
 import WorkbookWriter from 'exceljs/lib/stream/xlsx/workbook-writer.js';
 import enums from 'exceljs/lib/doc/enums.js';
 import { columnLetter, escapeForXlsx, sheetText, type CellValue, type PlannedCell, type PlannedRow, type SheetPlan } from './cells.js';
-import { IntegrityDigest } from './digest.js';
+import { ColumnChecks, IntegrityDigest } from './digest.js';
 import type { WorkbookPlan } from './plan.js';
 import { styleFor } from './style.js';
 import type { RunInfo } from './options.js';
@@ -300,7 +300,8 @@ export async function writePlannedWorkbook(
     const rowWriter = options.rowWriter ?? 'direct';
     const digest = new IntegrityDigest({ version: plan.format >= 4 ? 3 : 2 });
     const values: CellValue[] = [];
-    const formulas: (string | undefined)[] = [];
+    const formulas: boolean[] = [];
+    const columnChecks = new ColumnChecks(plan.results.layout.inputCount);
 
     await writeSheet(wb, plan.summary, { budget, rowWriter });
     await writeSheet(wb, plan.results.plan, {
@@ -312,9 +313,9 @@ export async function writePlannedWorkbook(
         formulas.length = row.cells.length;
         for (let j = 0; j < values.length; j++) {
           values[j] = row.cells[j]?.value ?? null;
-          formulas[j] = row.cells[j]?.formula;
+          formulas[j] = row.cells[j]?.formula !== undefined;
         }
-        digest.addResultsRow(values, { formulas, approximate: plan.approximate });
+        digest.addResultsRow(values, { formulas, approximate: plan.approximate, columnChecks });
       },
     });
     await writeSheet(wb, plan.qc, { budget, rowWriter });
@@ -323,7 +324,7 @@ export async function writePlannedWorkbook(
     await writeSheet(wb, plan.method, { budget, rowWriter });
     digest.addMethod(plan.methodTextSha, plan.limits);
     digest.addTrends(plan.trends.digestRows);
-    await writeSheet(wb, plan.provenance(digest.hex()), { budget, rowWriter });
+    await writeSheet(wb, plan.provenance(digest.hex(), plan.format >= 4 ? columnChecks.text() : undefined), { budget, rowWriter });
     await wb.commit();
   };
   const writing = write();
