@@ -23,10 +23,20 @@ function signatureLine(s: SignatureCheck): string {
   return `${SIGNATURES_SHEET}!${s.address}, signature by ${JSON.stringify(s.record.signer)} at ${s.record.time}, key ${s.record.fingerprint}: ${verdict}${trust}`;
 }
 
+/** "2 signatures, all valid and trusted", or how many fail and why: "2 signatures: 1 valid and trusted, 1 by a key not given with --trust". */
 function signatureSummary(checks: readonly SignatureCheck[], trust: boolean): string {
-  const valid = checks.filter((s) => s.valid && (!trust || s.trusted)).length;
   const n = checks.length;
-  return `${n} signature${n === 1 ? '' : 's'}, ${valid === n ? (n === 1 ? 'valid' : 'all valid') : `${n - valid} not valid${trust ? ' or not trusted' : ''}`}${trust && valid === n ? ' and trusted' : ''}`;
+  const plural = (k: number, word: string) => `${k} ${word}${k === 1 ? '' : 's'}`;
+  const invalid = checks.filter((s) => !s.valid).length;
+  const untrusted = checks.filter((s) => s.valid && s.trusted === false).length;
+  const good = n - invalid - untrusted;
+  if (good === n) return `${plural(n, 'signature')}, ${n === 1 ? 'valid' : 'all valid'}${trust ? ' and trusted' : ''}`;
+  const parts = [
+    good > 0 ? `${good} valid${trust ? ' and trusted' : ''}` : '',
+    untrusted > 0 ? `${untrusted} by ${untrusted === 1 ? 'a key' : 'keys'} not given with --trust` : '',
+    invalid > 0 ? `${invalid} not valid` : '',
+  ].filter((p) => p !== '');
+  return `${plural(n, 'signature')}: ${parts.join(', ')}`;
 }
 
 interface VerifyCliOptions {

@@ -82,6 +82,8 @@ export interface SignOffEntry {
   text: string;
 }
 
+const NEWEST_FORMAT = Math.max(...Object.keys(WORKBOOK_FORMATS).map(Number));
+
 const notPhasebook = (path: string, why: string) => new StopError('input', `is not a phasebook workbook: ${why}`, { file: path });
 
 export async function verifyWorkbook(path: string, options: VerifyOptions = {}): Promise<VerifyReport> {
@@ -101,7 +103,7 @@ export async function verifyWorkbook(path: string, options: VerifyOptions = {}):
     if (typeof formatName === 'string' && /^phasebook-workbook \d+$/.test(formatName)) {
       throw new StopError(
         'input',
-        `was written in the format "${formatName}" by ${Number(formatName.split(' ')[1]) > 4 ? 'a later' : 'an earlier'} phasebook, whose sheets this version lays out differently; ` +
+        `was written in the format "${formatName}" by ${Number(formatName.split(' ')[1]) > NEWEST_FORMAT ? 'a later' : 'an earlier'} phasebook, whose sheets this version lays out differently; ` +
           `this phasebook verifies ${readable}: verify it with the phasebook version its Provenance sheet names`,
         { file: path },
       );

@@ -18,7 +18,8 @@ import { skipWithout } from '../helpers/tools.js';
 
 const PYTHON = '/usr/bin/python3';
 const haveOpenpyxl = spawnSync(PYTHON, ['-c', 'import openpyxl'], { stdio: 'ignore' }).status === 0;
-const ready = !skipWithout('LibreOffice', isLibreOfficeAvailable()) && !skipWithout('openpyxl', haveOpenpyxl);
+const haveOpenssl = spawnSync('openssl', ['version'], { stdio: 'ignore' }).status === 0;
+const ready = !skipWithout('LibreOffice', isLibreOfficeAvailable()) && !skipWithout('openpyxl', haveOpenpyxl) && !skipWithout('openssl', haveOpenssl);
 
 /**
  * Open `src` with openpyxl, run `edit` (Python, with `ws(name)` and `row_of(ws, key)`), save as `dst`.
@@ -172,10 +173,21 @@ describe.skipIf(!ready)('the reviewer round trip', () => {
     expect(lines[2]).toMatch(/^Provenance!B\d+, sign-off "prepared by" \(typed, not checked\): "A\. Quill"$/);
     expect(r.stderr).toMatch(/untouched: .*; 2 signatures, all valid and trusted\n$/);
 
+    // The same as one JSON document.
+    const json = JSON.parse(runCli(['verify', final, '--json', '--trust', keys.analyst!.pub, '--trust', keys.reviewer!.pub]).stdout);
+    expect(json).toMatchObject({ exit_code: 0, untouched: true, digest_matches: true, differences: [] });
+    expect(json.signatures.map((s: { signer: string; valid: boolean; trusted: boolean }) => [s.signer, s.valid, s.trusted])).toEqual([
+      ['Ada Quill, analyst', true, true],
+      ['Bo Reyes, reviewer', true, true],
+    ]);
+    expect(json.signatures[0].key_fingerprint).toMatch(/^[0-9a-f]{64}$/);
+    expect(json.sign_off).toEqual([{ cell: expect.stringMatching(/^Provenance!B\d+$/), label: 'prepared by', text: 'A. Quill' }]);
+
     // Only one of the two keys trusted: exit 1, and the other named.
     const one = runCli(['verify', final, '--trust', keys.analyst!.pub]);
     expect(one.code).toBe(1);
     expect(one.stdout).toMatch(/^Signatures!A6, signature by "Bo Reyes, reviewer" .*: valid, by a key not given with --trust$/m);
+    expect(one.stderr).toMatch(/; 2 signatures: 1 valid and trusted, 1 by a key not given with --trust\n$/);
     // A key trusted that signed nothing: exit 1.
     const none = runCli(['verify', final, '--trust', keys.stranger!.pub]);
     expect(none.code).toBe(1);
@@ -190,6 +202,7 @@ describe.skipIf(!ready)('the reviewer round trip', () => {
     expect(v.stdout).toMatch(/^Signatures!A5, signature by "Ada Quill, analyst" .*: not valid: it does not match the content and the signatures before it \(changed since it was signed\?\), by a trusted key$/m);
     expect(v.stdout).toMatch(/^Signatures!A6, signature by "Bo Reyes, reviewer" .*: not valid: /m);
     expect(v.stdout).toMatch(/^Results!AI7, worklist row 7, sample "KB-03 Footbridge", row check: /m);
+    expect(v.stderr).toMatch(/; 2 signatures: 2 not valid\n$/);
 
     // sign refuses a workbook that no longer verifies, and leaves it as it was.
     const before = readFileSync(after);

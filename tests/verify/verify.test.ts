@@ -219,6 +219,13 @@ describe('not a phasebook workbook', () => {
     );
   });
 
+  it('a workbook of a later layout is refused as written by a later phasebook', async () => {
+    const path = await edited((wb) => {
+      wb.getWorksheet('Provenance')!.getCell('B1').value = 'phasebook-workbook 9';
+    });
+    await expect(verifyWorkbook(path)).rejects.toThrow('was written in the format "phasebook-workbook 9" by a later phasebook');
+  });
+
   it('a workbook of format 3 (the previous layout, exact row checks and digest 2) still verifies, and an edit in it is found', async () => {
     const result = await recalcCase(kestrelCase);
     const path = join(dir, 'format-3.xlsx');
