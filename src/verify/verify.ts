@@ -293,15 +293,21 @@ function namedInputChanges(
       });
     }
     // No saved result shows the value as written: the column checks name the cell, its value now is all there is.
+    // With one changed column the cell is certain; with several, each is a candidate in this row.
     if (named.length === 0) {
+      const certain = at.changedColumns.length === 1;
       for (const letter of at.changedColumns) {
         const column = columnNumber(letter);
+        const others = at.changedColumns.filter((l) => l !== letter).map((l) => `${l}${sheetRow}`);
         named.push({
           ...d,
           address: `${letter}${sheetRow}`,
           label: `column ${JSON.stringify(at.result.raw.headers[column - 1] ?? '')}`,
           message:
-            `changed after writing (its row check and column check no longer match): the cell holds ${showValue(stored.get(column)?.value ?? null)}; ` +
+            (certain
+              ? 'changed after writing (its row check and column check no longer match)'
+              : `this cell or ${others.join(', ')} changed after writing (the row check names the row, the column checks columns ${at.changedColumns.join(', ')})`) +
+            `: the cell holds ${showValue(stored.get(column)?.value ?? null)}; ` +
             'the value as written is not kept in the workbook (the saving program recalculated or dropped the results that showed it)',
         });
       }

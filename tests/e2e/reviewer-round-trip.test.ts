@@ -128,6 +128,20 @@ describe.skipIf(!ready)('the reviewer round trip', () => {
     expect(r.stderr).toMatch(/: \d+ differences; the integrity digest does not match/);
   });
 
+  it('two inputs typed over in two rows and columns (openpyxl): each row names both candidate cells', () => {
+    const changed = join(dir, 'two-inputs-changed.xlsx');
+    openpyxlSave(workbook, changed, `ws('Results')['G7'] = 900; ws('Results')['F9'] = 2.5`);
+    const r = runCli(['verify', changed]);
+    expect(r.code).toBe(1);
+    const lines = r.stdout.trimEnd().split('\n').filter((l) => /^Results!(F|G)\d+,/.test(l));
+    expect(lines).toEqual([
+      expect.stringMatching(/^Results!F7, .*: this cell or G7 changed after writing \(the row check names the row, the column checks columns F, G\): the cell holds 358\.3;/),
+      expect.stringMatching(/^Results!G7, .*: this cell or F7 changed after writing .*: the cell holds 900;/),
+      expect.stringMatching(/^Results!F9, worklist row 9, sample "KB-05 Ford", .*: this cell or G9 changed after writing .*: the cell holds 2\.5;/),
+      expect.stringMatching(/^Results!G9, .*: this cell or F9 changed after writing .*: the cell holds 1000;/),
+    ]);
+  });
+
   it('an input typed over where the saving program kept the results as written (exceljs): the cell with both values', async () => {
     const changed = join(dir, 'input-changed-exceljs.xlsx');
     const { editCopy } = await import('../verify/workbook-fixtures.js');
