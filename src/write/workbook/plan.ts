@@ -39,6 +39,8 @@ export interface PlanOptions {
 
 export interface WorkbookPlan {
   format: FormatVersion;
+  /** The worklist's name, in every sheet's printed footer. */
+  title: string;
   formulas: boolean;
   formulaRowLimit: number;
   maxNotes: number;
@@ -70,6 +72,7 @@ export function planWorkbook(result: RecalcResult, options: PlanOptions): Workbo
   const sheetTextOfMethod = methodLines(result.method.text).map(sheetText).join(lineEndOf(lineEnds(result.method.text)));
   return {
     format,
+    title: result.worklist.name,
     formulas,
     formulaRowLimit,
     maxNotes,
