@@ -25,7 +25,7 @@ import {
 } from '../../src/verify/signatures.js';
 import { verifyWorkbook } from '../../src/verify/verify.js';
 import { canonicalFormula, canonicalNumber } from '../../src/write/workbook/canonical.js';
-import { SAMPLE_CASES, editCopy, rowWith, tempDir, writeCase } from './workbook-fixtures.js';
+import { SAMPLE_CASES, editCopy, rowWith, tempDir, unzipParts, writeCase } from './workbook-fixtures.js';
 import { skipWithout } from '../helpers/tools.js';
 
 /** The openssl command line makes the keys, as a signer would (.ci/run installs it). */
@@ -154,6 +154,18 @@ describe.skipIf(noOpenssl)('signatures over a workbook', () => {
       [true, true],
       [true, false],
     ]);
+  });
+
+  it('the Signatures sheet is added without touching any other part: only the sheet list, its relationships and content types change', async () => {
+    const signed = join(dir, 'parts.xlsx');
+    await writeWithSignatures(workbook, signed, (await signTwice(workbook)).slice(0, 1));
+    const before = await unzipParts(workbook);
+    const after = await unzipParts(signed);
+    const changed = [...before].filter(([name, bytes]) => !after.get(name)?.equals(bytes)).map(([name]) => name);
+    expect(changed.sort()).toEqual(['[Content_Types].xml', 'xl/_rels/workbook.xml.rels', 'xl/workbook.xml']);
+    const added = [...after.keys()].filter((name) => !before.has(name));
+    expect(added).toEqual(['xl/worksheets/sheet8.xml']);
+    expect(after.get('xl/workbook.xml')!.toString('utf8')).toMatch(/<sheet xmlns:r="[^"]+" name="Signatures" sheetId="8" r:id="rIdPhasebookSignatures"\/><\/sheets>/);
   });
 
   it('the content changed after signing: every signature fails and says why', async () => {

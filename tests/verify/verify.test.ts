@@ -15,7 +15,8 @@ import { formatDifference, type Difference } from '../../src/verify/difference.j
 import { parseRanges, verifyWorkbook } from '../../src/verify/verify.js';
 import { writeWorkbook } from '../../src/write/workbook.js';
 import { genericMethod, rawTable } from '../fixtures/qc/build.js';
-import { ALL_CASES, RUN, SAMPLE_CASES, editCopy, plain, readBook, recalcCase, rowWith, tempDir, valueByKey, writeCase } from './workbook-fixtures.js';
+import { ALL_CASES, RUN, SAMPLE_CASES, editCopy, plain, readBook, recalcCase, rowWith, tempDir, unzipParts, valueByKey, writeCase } from './workbook-fixtures.js';
+import { buildZip } from '../helpers/zip.mjs';
 import { planWorkbook } from '../../src/write/workbook/plan.js';
 import { writePlannedWorkbook } from '../../src/write/workbook/write.js';
 
@@ -217,6 +218,27 @@ describe('not a phasebook workbook', () => {
       'was written in the format "phasebook-workbook 2" by an earlier phasebook, whose sheets this version lays out differently; ' +
         'this phasebook verifies "phasebook-workbook 3" and "phasebook-workbook 4": verify it with the phasebook version its Provenance sheet names',
     );
+  });
+
+  it.each([
+    ['a sheet that is not XML', 'xl/worksheets/sheet2.xml', '<worksheet><sheetData><row r="1"><c', /the part "xl\/worksheets\/sheet2\.xml" is not well-formed XML/],
+    ['a shared string that does not exist', 'xl/worksheets/sheet2.xml', null, /refers to shared string "99999", which the workbook does not hold/],
+    ['a cell named as no cell is', 'xl/worksheets/sheet7.xml', null, /a cell is named "A1B"; expected a reference such as "B3"/],
+  ])('a phasebook workbook with %s stops with its reason, never a program error', async (_what, part, text, message) => {
+    const parts = await unzipParts(kestrel);
+    let xml = parts.get(part)!.toString('utf8');
+    if (text !== null) xml = text;
+    else if (part.endsWith('sheet2.xml')) xml = xml.replace('<c r="A2"', '<c r="A2" t="s"><v>99999</v></c><c r="A2x"').replace(/<c r="A2x"[^>]*>(?:<is>.*?<\/is>|<v>.*?<\/v>)?<\/c>/, '');
+    else xml = xml.replace('<c r="A1"', '<c r="A1B"');
+    parts.set(part, Buffer.from(xml, 'utf8'));
+    const path = join(dir, `damaged-${k++}.xlsx`);
+    writeFileSync(path, buildZip([...parts].map(([name, data]) => ({ name, data }))));
+    const err = await verifyWorkbook(path).then(
+      () => undefined,
+      (e: unknown) => e,
+    );
+    expect(err).toBeInstanceOf(StopError);
+    expect((err as StopError).describe()).toMatch(message);
   });
 
   it('a workbook of a later layout is refused as written by a later phasebook', async () => {
