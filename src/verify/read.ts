@@ -12,7 +12,7 @@
  */
 import { StopError } from '../errors.js';
 import { XlsxPackage } from '../read/xlsx-package.js';
-import { decodeEscapes, isoCellText, readSharedStrings, readWorkbookInfo, type SharedStrings } from '../read/xlsx-workbook.js';
+import { decodeEscapes, isoCellText, readDateStyles, readSharedStrings, readWorkbookInfo, serialToIso, type SharedStrings } from '../read/xlsx-workbook.js';
 import { checkZip } from '../read/zip-guard.js';
 import type { CellValue } from '../write/workbook/cells.js';
 import { columnNumber, shiftFormula } from './shared-formula.js';
@@ -24,6 +24,8 @@ export interface StoredCell {
   formula?: string;
   /** A formula cell whose saving program kept no result: its value is recomputed, not read. */
   noCachedValue?: boolean;
+  /** A number the cell's style shows as a date (a typed "2026-11-21"): the date as ISO 8601 text. */
+  date?: string;
 }
 
 export interface StoredSheet {
@@ -57,11 +59,12 @@ export async function readStoredWorkbook(path: string, options: { maxUnpackedByt
             maxStrings: MAX_STRINGS,
             tooMany: (max) => new StopError('input', `is not a readable XLSX workbook: it holds more than ${max} shared strings`, { file: path }),
           });
+    const dates = { styles: await readDateStyles(pkg, info.stylesPart), date1904: info.date1904 };
     const sheets = new Map<string, StoredSheet>();
     for (const ref of info.sheets) {
       const rows = new Map<number, Map<number, StoredCell>>();
       if (ref.part !== undefined && pkg.has(ref.part)) {
-        const reader = new CellsReader(ref.name, strings, (text) => pkg.damaged(`sheet "${ref.name}": ${text}`));
+        const reader = new CellsReader(ref.name, { strings, dates }, (text) => pkg.damaged(`sheet "${ref.name}": ${text}`));
         await pkg.parse(ref.part, reader);
         for (const [r, cells] of reader.rows) rows.set(r, cells);
       }
@@ -86,6 +89,7 @@ class CellsReader {
   private inCell = false;
   private ref: { row: number; column: number } = { row: 0, column: 0 };
   private type = 'n';
+  private style = 0;
   private value: string | null = null;
   private inline: string | null = null;
   private formula: string | null = null;
@@ -97,11 +101,15 @@ class CellsReader {
   /** Shared formulas by group index: the first cell's formula and place. */
   private readonly shared = new Map<string, { formula: string; row: number; column: number }>();
 
+  private readonly strings: SharedStrings | undefined;
+
   constructor(
     private readonly sheet: string,
-    private readonly strings: SharedStrings | undefined,
+    private readonly book: { strings: SharedStrings | undefined; dates: { styles: boolean[]; date1904: boolean } },
     private readonly damaged: (text: string) => StopError,
-  ) {}
+  ) {
+    this.strings = book.strings;
+  }
 
   open(name: string, a: Record<string, string>, selfClosing: boolean): void {
     if (!this.inSheetData) {
@@ -122,6 +130,7 @@ class CellsReader {
         this.inCell = true;
         this.ref = a.r === undefined ? { row: this.rowNumber, column: this.column + 1 } : this.parseRef(a.r);
         this.type = a.t ?? 'n';
+        this.style = a.s === undefined ? 0 : Number(a.s);
         this.value = null;
         this.inline = null;
         this.formula = null;
@@ -224,7 +233,10 @@ class CellsReader {
       return;
     }
     const value = this.type === 'inlineStr' ? decodeEscapes(this.inline ?? v ?? '') : v === null ? null : this.plain(v);
-    if (value !== null && value !== '') this.cells.set(column, { value });
+    if (value === null || value === '') return;
+    // Styles are not content; a date style only says how to show a number typed as a date (the sign-off).
+    const date = typeof value === 'number' && this.book.dates.styles[this.style] ? serialToIso(value, this.book.dates.date1904) : undefined;
+    this.cells.set(column, date === undefined ? { value } : { value, date });
   }
 
   private refText(): string {

@@ -355,7 +355,12 @@ function signOff(stored: StoredSheet, plan: SheetPlan): SignOffEntry[] {
       const typed = stored.row(i + 1).get(col + 1);
       const label = row.cells[0]?.value;
       if (typed && !isEmptyValue(typed.value)) {
-        out.push({ sheet: plan.name, address: `${columnLetter(col + 1)}${i + 1}`, label: label === null || label === undefined ? '' : String(label), text: String(typed.value) });
+        out.push({
+          sheet: plan.name,
+          address: `${columnLetter(col + 1)}${i + 1}`,
+          label: label === null || label === undefined ? '' : String(label),
+          text: typed.date ?? String(typed.value),
+        });
       }
     });
   }

@@ -98,9 +98,9 @@ describe.skipIf(!ready)('the reviewer round trip', () => {
     expect(r.stderr).toMatch(/; \d+ formula cells had no saved result \(the program that saved the workbook dropped them\) and were recomputed\n$/);
   });
 
-  it('a sign-off typed in (openpyxl), then saved by LibreOffice: exit 0, the sign-off reported as typed', async () => {
+  it('a sign-off typed in (openpyxl; the date as a spreadsheet date), then saved by LibreOffice: exit 0, the sign-off reported as typed', async () => {
     const typed = join(dir, 'typed.xlsx');
-    openpyxlSave(workbook, typed, `p = ws('Provenance'); p.cell(row=row_of(p, 'reviewed by'), column=2, value='B. Reyes'); p.cell(row=row_of(p, 'reviewed on'), column=2, value='2026-11-21')`);
+    openpyxlSave(workbook, typed, `p = ws('Provenance'); p.cell(row=row_of(p, 'reviewed by'), column=2, value='B. Reyes'); p.cell(row=row_of(p, 'reviewed on'), column=2, value=__import__('datetime').date(2026, 11, 21))`);
     const saved = await recalcWithLibreOffice(typed);
     const r = runCli(['verify', saved]);
     expect(r.code, r.stdout).toBe(0);
