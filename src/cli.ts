@@ -14,6 +14,7 @@ import { registerFiguresCommand } from './commands/figures.js';
 import { registerMethodCommand } from './commands/method.js';
 import { registerPlanCommand } from './commands/plan.js';
 import { registerVerifyCommand } from './commands/verify.js';
+import { registerSignCommand } from './commands/sign.js';
 import type { RecalcResult } from './pipeline.js';
 import { runRecalc } from './run.js';
 import { describeFailedControl } from './summary/failures.js';
@@ -89,6 +90,7 @@ export function buildProgram(io: { exit: (code: number) => void }): Command {
   registerMethodCommand(program, io);
   registerPlanCommand(program, io);
   registerVerifyCommand(program, io);
+  registerSignCommand(program, io);
 
   return program;
 }

@@ -1,5 +1,6 @@
 import { columnLetter, isEmptyValue, type CellValue, type PlannedCell, type PlannedRow, type SheetPlan } from '../write/workbook/cells.js';
 import { showFormula, showValue, type Difference } from './difference.js';
+import { canonicalFormula } from '../write/workbook/canonical.js';
 import type { StoredCell, StoredSheet } from './read.js';
 
 /** Numbers agree within a relative 1e-9 (a spreadsheet that recalculates may differ in the last digits). */
@@ -15,22 +16,14 @@ export function sameValue(a: CellValue | undefined, b: CellValue | undefined): b
   return a === b;
 }
 
-const FORMULA_TOKENS = /("(?:[^"]|"")*")|\s+|_xlfn\.|\b(TRUE|FALSE)\(\)|(?<![A-Za-z0-9_.$])(\d+(?:\.\d*)?(?:[eE][+-]?\d+)?)/gi;
-
-/**
- * Formula text as compared: no "=", no `_xlfn.` prefixes, no spaces outside text
- * constants, TRUE()/FALSE() as TRUE/FALSE, and number constants to 15 significant
- * digits (spreadsheet programs save formulas that way, e.g. 999.9999999999999 as 1000).
- */
+/** Formula text as compared (canonicalFormula): the same formula however a program spells it. */
 export function normaliseFormula(f: string): string {
-  let s = f.trim();
-  if (s.startsWith('=')) s = s.slice(1);
-  return s.replace(FORMULA_TOKENS, (_m, quoted?: string, bool?: string, num?: string) => {
-    if (quoted !== undefined) return quoted;
-    if (bool !== undefined) return bool.toUpperCase();
-    if (num !== undefined) return String(Number(Number(num).toPrecision(15)));
-    return '';
-  });
+  return canonicalFormula(f);
+}
+
+/** Whether two formulas mean the same (the same text, or the same canonical form). */
+export function sameFormula(a: string, b: string): boolean {
+  return a === b || canonicalFormula(a) === canonicalFormula(b);
 }
 
 /** What differs between a planned and a stored cell, in words; undefined when they agree. */
@@ -45,21 +38,28 @@ export function compareCell(planned: PlannedCell | undefined, stored: StoredCell
   if (pf === undefined && sf !== undefined) {
     return `a formula was put in place of the value: stored ${showFormula(sf)} giving ${showValue(sv)}, expected ${showValue(pv)}`;
   }
-  if (pf !== undefined && sf !== undefined && normaliseFormula(pf) !== normaliseFormula(sf)) {
-    const values = sameValue(pv, sv) ? '' : ` (stored value ${showValue(sv)}, expected ${showValue(pv)})`;
+  const recomputed = stored?.noCachedValue === true;
+  if (pf !== undefined && sf !== undefined && !sameFormula(pf, sf)) {
+    const values = recomputed || sameValue(pv, sv) ? '' : ` (stored value ${showValue(sv)}, expected ${showValue(pv)})`;
     return `the formula was changed: stored ${showFormula(sf)}, expected ${showFormula(pf)}${values}`;
   }
-  if (!sameValue(pv, sv)) return `stored ${showValue(sv)}, expected ${showValue(pv)}`;
+  // A formula whose saving program kept no result: the recomputed value stands for it (counted, and said, by the caller).
+  if (recomputed) return undefined;
+  if (!sameValue(pv, sv)) {
+    return pf !== undefined ? `${showFormula(pf)} gives ${showValue(pv)}, but the cell holds ${showValue(sv)}` : `stored ${showValue(sv)}, expected ${showValue(pv)}`;
+  }
   return undefined;
 }
 
 export interface CompareOptions {
   /** Called with every stored row in order (1-based), e.g. to take the digest. */
-  onStoredRow?: (row: number, cells: ReadonlyMap<number, StoredCell>) => void;
+  onStoredRow?: (row: number, cells: ReadonlyMap<number, StoredCell>, planned: PlannedRow | undefined) => void;
   /** Rows of the plan not to compare (0-based), e.g. the method text, checked another way. */
   skipRow?: (index: number) => boolean;
   /** Stop comparing after this many sheet rows (the rest is reported another way). */
   rows?: number;
+  /** Counts formula cells kept without a result, whose values were recomputed instead of read. */
+  recomputed?: { cells: number };
 }
 
 /** Compare every cell of a planned sheet with the stored one; cells the reviewer fills in are skipped. */
@@ -69,7 +69,7 @@ export function compareSheet(plan: SheetPlan, stored: StoredSheet, options: Comp
   for (let i = 0; i < rows; i++) {
     const planned: PlannedRow | undefined = i < plan.rowCount ? plan.row(i) : undefined;
     const storedCells = stored.row(i + 1);
-    options.onStoredRow?.(i + 1, storedCells);
+    options.onStoredRow?.(i + 1, storedCells, planned);
     if (options.skipRow?.(i)) continue;
     const width = Math.max(planned?.cells.length ?? 0, storedCells.size ? Math.max(...storedCells.keys()) : 0);
     for (let col = 1; col <= width; col++) {
@@ -77,6 +77,7 @@ export function compareSheet(plan: SheetPlan, stored: StoredSheet, options: Comp
       if (p?.free) continue;
       const s = storedCells.get(col);
       if (p === undefined && s === undefined) continue;
+      if (s?.noCachedValue && options.recomputed) options.recomputed.cells++;
       const message = compareCell(p, s);
       if (message === undefined) continue;
       out.push({

@@ -1,18 +1,31 @@
 /**
- * Reading a handed-over workbook for `phasebook verify`: every cell of every
- * sheet as a plain value (number, text or empty) and, for a formula cell, its
- * formula and cached result. exceljs's in-memory reader is used (LIBRARY-NOTES.md
- * §2: the streaming reader loses shared-formula text), after the zip guard.
+ * Reading a handed-over workbook for `phasebook verify` and `phasebook sign`:
+ * every cell of every sheet as a plain value (number, text or empty) and, for a
+ * formula cell, its formula (a shared one as it reads in that cell) and cached
+ * result, or that the saving program kept none (openpyxl keeps none).
+ *
+ * The same streaming XLSX package reader the worklists use (read/xlsx-package.ts
+ * on yauzl and saxes, after the zip guard), so a workbook saved by Excel,
+ * LibreOffice, openpyxl or exceljs reads alike, and a damaged one is a StopError
+ * with its reason, never a JavaScript error. Styles, widths and number formats
+ * are not read: they are not content.
  */
-import ExcelJS from 'exceljs';
 import { StopError } from '../errors.js';
+import { XlsxPackage } from '../read/xlsx-package.js';
+import { decodeEscapes, isoCellText, readDateStyles, readSharedStrings, readWorkbookInfo, serialToIso, type SharedStrings } from '../read/xlsx-workbook.js';
 import { checkZip } from '../read/zip-guard.js';
 import type { CellValue } from '../write/workbook/cells.js';
+import { columnNumber, shiftFormula } from './shared-formula.js';
 
 export interface StoredCell {
+  /** The value; for a formula cell its cached result (null when none was saved). */
   value: CellValue;
   /** Formula text without "=", when the cell holds one. */
   formula?: string;
+  /** A formula cell whose saving program kept no result: its value is recomputed, not read. */
+  noCachedValue?: boolean;
+  /** A number the cell's style shows as a date (a typed "2026-11-21"): the date as ISO 8601 text. */
+  date?: string;
 }
 
 export interface StoredSheet {
@@ -30,56 +43,232 @@ export interface StoredWorkbook {
   sheet(name: string): StoredSheet | undefined;
 }
 
-/** A cell's value as text, number or empty; a formula cell gives its cached result. */
-export function plainValue(v: unknown): CellValue {
-  if (v === null || v === undefined) return null;
-  if (typeof v === 'number') return Number.isFinite(v) ? v : String(v);
-  if (typeof v === 'string') return v;
-  if (typeof v === 'boolean') return v ? 'TRUE' : 'FALSE';
-  if (v instanceof Date) return v.toISOString();
-  if (typeof v === 'object') {
-    const o = v as { richText?: { text: string }[]; text?: unknown; error?: string };
-    if (Array.isArray(o.richText)) return o.richText.map((t) => t.text).join('');
-    if (o.error !== undefined) return String(o.error);
-    if (o.text !== undefined) return plainValue(o.text);
-  }
-  return String(v);
-}
-
-function storedCell(c: ExcelJS.Cell): StoredCell | undefined {
-  if (c.type === ExcelJS.ValueType.Formula) {
-    const formula = c.formula ?? '';
-    return { value: plainValue(c.result), formula };
-  }
-  const value = plainValue(c.value);
-  return value === null || value === '' ? undefined : { value };
-}
+const MiB = 1024 * 1024;
+/** Most shared strings read (the zip guard bounds the bytes; this bounds the count). */
+const MAX_STRINGS = 64 * MiB;
 
 export async function readStoredWorkbook(path: string, options: { maxUnpackedBytes?: number } = {}): Promise<StoredWorkbook> {
-  await checkZip(path, { maxUnpackedBytes: options.maxUnpackedBytes });
-  const wb = new ExcelJS.Workbook();
+  await checkZip(path, { maxUnpackedBytes: options.maxUnpackedBytes, verifyData: false });
+  const pkg = await XlsxPackage.open(path);
   try {
-    await wb.xlsx.readFile(path);
-  } catch (err) {
-    throw new StopError('input', `is not a readable XLSX workbook: ${(err as Error).message}`, { file: path });
-  }
-  const sheets = new Map<string, StoredSheet>();
-  for (const ws of wb.worksheets) {
-    const rows = new Map<number, Map<number, StoredCell>>();
-    let lastRow = 0;
-    ws.eachRow({ includeEmpty: false }, (row, r) => {
-      const cells = new Map<number, StoredCell>();
-      row.eachCell({ includeEmpty: false }, (c, col) => {
-        const s = storedCell(c);
-        if (s) cells.set(col, s);
-      });
-      if (cells.size > 0) {
-        rows.set(r, cells);
-        lastRow = Math.max(lastRow, r);
+    const info = await readWorkbookInfo(pkg);
+    const strings =
+      info.sharedStringsPart === undefined
+        ? undefined
+        : await readSharedStrings(pkg, info.sharedStringsPart, {
+            maxStrings: MAX_STRINGS,
+            tooMany: (max) => new StopError('input', `is not a readable XLSX workbook: it holds more than ${max} shared strings`, { file: path }),
+          });
+    const dates = { styles: await readDateStyles(pkg, info.stylesPart), date1904: info.date1904 };
+    const sheets = new Map<string, StoredSheet>();
+    for (const ref of info.sheets) {
+      const rows = new Map<number, Map<number, StoredCell>>();
+      if (ref.part !== undefined && pkg.has(ref.part)) {
+        const reader = new CellsReader(ref.name, { strings, dates }, (text) => pkg.damaged(`sheet "${ref.name}": ${text}`));
+        await pkg.parse(ref.part, reader);
+        for (const [r, cells] of reader.rows) rows.set(r, cells);
       }
-    });
-    const empty = new Map<number, StoredCell>();
-    sheets.set(ws.name, { name: ws.name, lastRow, row: (r) => rows.get(r) ?? empty });
+      let lastRow = 0;
+      for (const r of rows.keys()) lastRow = Math.max(lastRow, r);
+      const empty = new Map<number, StoredCell>();
+      if (!sheets.has(ref.name)) sheets.set(ref.name, { name: ref.name, lastRow, row: (r) => rows.get(r) ?? empty });
+    }
+    return { path, order: info.sheets.map((s) => s.name), sheet: (name) => sheets.get(name) };
+  } finally {
+    pkg.close();
   }
-  return { path, order: wb.worksheets.map((w) => w.name), sheet: (name) => sheets.get(name) };
+}
+
+/** A sheet's XML events → its cells by row and column. */
+class CellsReader {
+  readonly rows = new Map<number, Map<number, StoredCell>>();
+  private inSheetData = false;
+  private rowNumber = 0;
+  private column = 0;
+  private cells = new Map<number, StoredCell>();
+  private inCell = false;
+  private ref: { row: number; column: number } = { row: 0, column: 0 };
+  private type = 'n';
+  private style = 0;
+  private value: string | null = null;
+  private inline: string | null = null;
+  private formula: string | null = null;
+  private sharedIndex: string | undefined;
+  /** Where text goes: 0 nowhere, 1 `<v>`, 2 an inline string's `<t>`, 3 `<f>`. */
+  private capture = 0;
+  private phonetic = 0;
+  private inInline = false;
+  /** Shared formulas by group index: the first cell's formula and place. */
+  private readonly shared = new Map<string, { formula: string; row: number; column: number }>();
+
+  private readonly strings: SharedStrings | undefined;
+
+  constructor(
+    private readonly sheet: string,
+    private readonly book: { strings: SharedStrings | undefined; dates: { styles: boolean[]; date1904: boolean } },
+    private readonly damaged: (text: string) => StopError,
+  ) {
+    this.strings = book.strings;
+  }
+
+  open(name: string, a: Record<string, string>, selfClosing: boolean): void {
+    if (!this.inSheetData) {
+      if (name === 'sheetData') this.inSheetData = !selfClosing;
+      return;
+    }
+    switch (name) {
+      case 'row': {
+        const r = a.r === undefined ? this.rowNumber + 1 : Number(a.r);
+        if (!Number.isInteger(r) || r < 1) throw this.damaged(`a row is numbered "${a.r}"; expected a row number from 1`);
+        this.rowNumber = r;
+        this.column = 0;
+        this.cells = this.rows.get(r) ?? new Map();
+        if (selfClosing) this.endRow();
+        break;
+      }
+      case 'c': {
+        this.inCell = true;
+        this.ref = a.r === undefined ? { row: this.rowNumber, column: this.column + 1 } : this.parseRef(a.r);
+        this.type = a.t ?? 'n';
+        this.style = a.s === undefined ? 0 : Number(a.s);
+        this.value = null;
+        this.inline = null;
+        this.formula = null;
+        this.sharedIndex = undefined;
+        if (selfClosing) this.endCell();
+        break;
+      }
+      case 'v':
+        if (this.inCell) {
+          this.value = '';
+          this.capture = selfClosing ? 0 : 1;
+        }
+        break;
+      case 'f':
+        if (this.inCell) {
+          this.formula = '';
+          if (a.t === 'shared' && a.si !== undefined) this.sharedIndex = a.si;
+          this.capture = selfClosing ? 0 : 3;
+        }
+        break;
+      case 'is':
+        if (this.inCell) {
+          this.inInline = !selfClosing;
+          this.inline = '';
+        }
+        break;
+      case 'rPh':
+        if (!selfClosing) this.phonetic++;
+        break;
+      case 't':
+        if (this.inInline && this.phonetic === 0 && !selfClosing) this.capture = 2;
+        break;
+    }
+  }
+
+  close(name: string): void {
+    if (!this.inSheetData) return;
+    switch (name) {
+      case 'sheetData':
+        this.inSheetData = false;
+        break;
+      case 'row':
+        this.endRow();
+        break;
+      case 'c':
+        this.endCell();
+        break;
+      case 'v':
+      case 'f':
+      case 't':
+        this.capture = 0;
+        break;
+      case 'is':
+        this.inInline = false;
+        break;
+      case 'rPh':
+        this.phonetic--;
+        break;
+    }
+  }
+
+  text(text: string): void {
+    if (this.capture === 1) this.value += text;
+    else if (this.capture === 2) this.inline += text;
+    else if (this.capture === 3) this.formula += text;
+  }
+
+  private parseRef(ref: string): { row: number; column: number } {
+    const m = /^\$?([A-Za-z]{1,3})\$?(\d{1,7})$/.exec(ref.trim());
+    if (!m) throw this.damaged(`a cell is named "${ref}"; expected a reference such as "B3"`);
+    return { column: columnNumber(m[1]!), row: Number(m[2]) };
+  }
+
+  private endRow(): void {
+    if (this.cells.size > 0) this.rows.set(this.rowNumber, this.cells);
+    this.cells = new Map();
+  }
+
+  private endCell(): void {
+    if (!this.inCell) return;
+    this.inCell = false;
+    this.capture = 0;
+    const { row, column } = this.ref;
+    this.column = column;
+    let formula = this.formula ?? undefined;
+    if (this.sharedIndex !== undefined) {
+      const first = this.shared.get(this.sharedIndex);
+      if (formula !== undefined && formula !== '') this.shared.set(this.sharedIndex, { formula, row, column });
+      else if (first !== undefined) {
+        formula = shiftFormula(first.formula, row - first.row, column - first.column);
+        if (formula === undefined) throw this.damaged(`the formula shared into cell ${this.refText()} reaches past the sheet's edge`);
+      } else throw this.damaged(`cell ${this.refText()} shares formula ${this.sharedIndex}, which no earlier cell states`);
+    }
+    const v = this.value;
+    if (formula !== undefined) {
+      // A formula's result is missing when there is no <v>, or an empty one that is not a text result.
+      const noCachedValue = v === null || (v === '' && this.type !== 'str');
+      const cell: StoredCell = noCachedValue ? { value: null, formula, noCachedValue } : { value: this.plain(v), formula };
+      this.cells.set(column, cell);
+      return;
+    }
+    const value = this.type === 'inlineStr' ? decodeEscapes(this.inline ?? v ?? '') : v === null ? null : this.plain(v);
+    if (value === null || value === '') return;
+    // Styles are not content; a date style only says how to show a number typed as a date (the sign-off).
+    const date = typeof value === 'number' && this.book.dates.styles[this.style] ? serialToIso(value, this.book.dates.date1904) : undefined;
+    this.cells.set(column, date === undefined ? { value } : { value, date });
+  }
+
+  private refText(): string {
+    let s = '';
+    for (let k = this.ref.column; k > 0; k = Math.floor((k - 1) / 26)) s = String.fromCharCode(65 + ((k - 1) % 26)) + s;
+    return `"${this.sheet}"!${s}${this.ref.row}`;
+  }
+
+  /** A `<v>` as its type says: numbers as numbers, TRUE/FALSE, shared strings looked up, everything else as text. */
+  private plain(v: string): CellValue {
+    switch (this.type) {
+      case 'n': {
+        if (v.trim() === '') return null;
+        const n = Number(v);
+        return Number.isFinite(n) ? n : v;
+      }
+      case 's': {
+        const i = Number(v);
+        if (this.strings === undefined || !Number.isInteger(i) || i < 0 || i >= this.strings.count) {
+          throw this.damaged(`cell ${this.refText()} refers to shared string "${v}", which the workbook does not hold`);
+        }
+        return this.strings.get(i);
+      }
+      case 'b':
+        return v.trim() === '1' || v.trim() === 'true' ? 'TRUE' : v.trim() === '0' || v.trim() === 'false' ? 'FALSE' : v;
+      case 'd':
+        return isoCellText(v) ?? v;
+      case 'str':
+      case 'inlineStr':
+        return decodeEscapes(v);
+      default:
+        return v; // an error ("#DIV/0!") or an unknown type: its text
+    }
+  }
 }

@@ -20,13 +20,14 @@ import { parseMethod } from '../method/load.js';
 import type { Method } from '../domain/method.js';
 import { recalculateTable, type RecalcResult } from '../pipeline.js';
 import type { RawCell, RawTable, RowProblem } from '../read/types.js';
-import type { CellValue, RowContext } from '../write/workbook/cells.js';
-import { IntegrityDigest, sha256Text } from '../write/workbook/digest.js';
+import { columnLetter, isEmptyValue, type CellValue, type RowContext, type SheetPlan } from '../write/workbook/cells.js';
+import { ColumnChecks, IntegrityDigest, parseColumnChecks, sha256Text } from '../write/workbook/digest.js';
+import { columnNumber } from './shared-formula.js';
 import { FLAGS_SHEET } from '../write/workbook/flags-sheet.js';
 import { IN_HOUSE_TITLE, LIMITS_TITLE, LINE_ENDS_KEY, METHOD_SHEET, METHOD_TEXT_TITLE, UNCERTAINTY_POINTS_TITLE, lineEndOf } from '../write/workbook/method-sheet.js';
 import { uncertaintyFromPoints, type UncertaintyPoint, type UncertaintyTable } from '../figures/expanded.js';
 import { inHouseKey, type InHouseLimits } from '../qc/limits.js';
-import { WORKBOOK_FORMAT } from '../write/workbook/options.js';
+import { WORKBOOK_FORMATS, type FormatVersion } from '../write/workbook/options.js';
 import { SHEET_ORDER, planWorkbook } from '../write/workbook/workbook-plan.js';
 import {
   FORMULAS_LIVE,
@@ -42,7 +43,9 @@ import { RESULTS_SHEET, WORKLIST_ROW_HEADER } from '../write/workbook/results-sh
 import { SUMMARY_SHEET } from '../write/workbook/summary-sheet.js';
 import { MIN_POINTS } from '../history/trends.js';
 import { TRENDS_SHEET } from '../write/workbook/trends-sheet.js';
-import { compareSheet } from './compare.js';
+import { compareSheet, sameValue } from './compare.js';
+import { isCanonicalField } from '../domain/fields.js';
+import { SIGNATURES_SHEET, checkSignatures, contentDigest, readSignatures, type SignatureCheck } from './signatures.js';
 import { storedTrends } from './trends.js';
 import { showValue, type Difference } from './difference.js';
 import { readStoredWorkbook, type StoredCell, type StoredSheet, type StoredWorkbook } from './read.js';
@@ -50,6 +53,8 @@ import { readStoredWorkbook, type StoredCell, type StoredSheet, type StoredWorkb
 export interface VerifyOptions {
   /** Refuse workbooks that unpack past this many bytes (default 512 MiB). */
   maxUnpackedBytes?: number;
+  /** Fingerprints (signatures.ts keyFingerprint) of the keys whose signatures are trusted; undefined: none given. */
+  trusted?: ReadonlySet<string>;
 }
 
 export interface VerifyReport {
@@ -59,7 +64,26 @@ export interface VerifyReport {
   rows: number;
   /** True when the digest recorded in the Provenance sheet matches the stored cells; undefined when it could not be checked. */
   digestMatches: boolean | undefined;
+  /** Formula cells whose saving program kept no result (openpyxl): their values were recomputed, not read. */
+  recomputedCells: number;
+  /** The sign-off cells as typed (not checked). */
+  signOff: SignOffEntry[];
+  /** SHA-256 of the workbook's canonical content (what a signature signs). */
+  content: string;
+  /** Every signature on the Signatures sheet, in order, checked. */
+  signatures: SignatureCheck[];
 }
+
+/** A sign-off cell the reviewer typed into. */
+export interface SignOffEntry {
+  sheet: string;
+  address: string;
+  /** What the cell is for ("reviewed by"). */
+  label: string;
+  text: string;
+}
+
+const NEWEST_FORMAT = Math.max(...Object.keys(WORKBOOK_FORMATS).map(Number));
 
 const notPhasebook = (path: string, why: string) => new StopError('input', `is not a phasebook workbook: ${why}`, { file: path });
 
@@ -71,20 +95,29 @@ export async function verifyWorkbook(path: string, options: VerifyOptions = {}):
   if (marker.get(1)?.value !== PROVENANCE_MARKER) {
     throw notPhasebook(path, `cell ${PROVENANCE_SHEET}!A1 holds ${showValue(marker.get(1)?.value)}, expected "${PROVENANCE_MARKER}"`);
   }
-  const format = marker.get(2)?.value;
-  if (format !== WORKBOOK_FORMAT) {
+  const formatName = marker.get(2)?.value;
+  const format = formatVersionOf(formatName);
+  if (format === undefined) {
+    const readable = Object.values(WORKBOOK_FORMATS).map((f) => `"${f}"`).join(' and ');
     // An earlier phasebook laid its sheets out otherwise: comparing them with this version's plan would call an
     // untouched workbook changed, so it is refused with the way to check it instead.
-    if (typeof format === 'string' && /^phasebook-workbook \d+$/.test(format)) {
+    if (typeof formatName === 'string' && /^phasebook-workbook \d+$/.test(formatName)) {
       throw new StopError(
         'input',
-        `was written in the format "${format}" by an earlier phasebook, whose sheets this version lays out differently; ` +
-          `this phasebook verifies "${WORKBOOK_FORMAT}": verify it with the phasebook version its Provenance sheet names`,
+        `was written in the format "${formatName}" by ${Number(formatName.split(' ')[1]) > NEWEST_FORMAT ? 'a later' : 'an earlier'} phasebook, whose sheets this version lays out differently; ` +
+          `this phasebook verifies ${readable}: verify it with the phasebook version its Provenance sheet names`,
         { file: path },
       );
     }
-    throw notPhasebook(path, `it was written in the format ${showValue(format)}; this phasebook reads "${WORKBOOK_FORMAT}"`);
+    throw notPhasebook(path, `it was written in the format ${showValue(formatName)}; this phasebook reads ${readable}`);
   }
+  const content = contentDigest(stored);
+  const signatures = checkSignatures(content, readSignatures(stored.sheet(SIGNATURES_SHEET)), options.trusted);
+  const finish = (
+    differences: Difference[],
+    results: StoredSheet,
+    extra: { digestMatches: boolean | undefined; recomputedCells?: number; signOff?: SignOffEntry[] },
+  ): VerifyReport => ({ path, differences, rows: Math.max(0, results.lastRow - 1), recomputedCells: 0, signOff: [], content, signatures, ...extra });
   const results = stored.sheet(RESULTS_SHEET);
   const methodSheet = stored.sheet(METHOD_SHEET);
   if (!results) throw notPhasebook(path, `it has no "${RESULTS_SHEET}" sheet`);
@@ -108,7 +141,7 @@ export async function verifyWorkbook(path: string, options: VerifyOptions = {}):
   const inputCount = needNumber(KEYS.inputColumns);
   const differences: Difference[] = [];
 
-  const order = stored.order.join(', ');
+  const order = stored.order.filter((name, i, all) => !(name === SIGNATURES_SHEET && i === all.length - 1)).join(', ');
   if (order !== SHEET_ORDER.join(', ')) {
     differences.push({ sheet: 'Workbook', message: `the sheets are ${order}, expected ${SHEET_ORDER.join(', ')}` });
   }
@@ -126,7 +159,7 @@ export async function verifyWorkbook(path: string, options: VerifyOptions = {}):
       label: METHOD_TEXT_TITLE,
       message: `the method text no longer reads as a method: ${err.describe()}`,
     });
-    return finish(path, differences, results, { digestMatches: undefined });
+    return finish(differences, results, { digestMatches: undefined });
   }
 
   // The worklist, from the Results sheet's input columns.
@@ -152,7 +185,7 @@ export async function verifyWorkbook(path: string, options: VerifyOptions = {}):
   } catch (err) {
     if (!(err instanceof StopError)) throw err;
     differences.push({ sheet: RESULTS_SHEET, address: 'A1', message: `the worklist columns can no longer be read: ${err.describe()}` });
-    return finish(path, differences, results, { digestMatches: undefined });
+    return finish(differences, results, { digestMatches: undefined });
   }
 
   // The Trends sheet's series, rebuilt from the points it lists.
@@ -171,43 +204,169 @@ export async function verifyWorkbook(path: string, options: VerifyOptions = {}):
     maxNotes: needNumber(KEYS.maxNotes),
     formulas: need(KEYS.formulas) === FORMULAS_LIVE,
     readAs: needText(KEYS.readAs),
+    format,
   });
 
   // Compare sheet by sheet, taking the digest over the stored Results rows on the way.
-  const digest = new IntegrityDigest();
+  const digest = new IntegrityDigest({ version: format >= 4 ? 3 : 2 });
+  const recomputed = { cells: 0 };
   const sheetOrMissing = (name: string): StoredSheet | undefined => {
     const s = stored.sheet(name);
     if (!s) differences.push({ sheet: name, message: 'the sheet is missing' });
     return s;
   };
   // Root causes first: the method, then the Results rows, then what follows from them.
-  differences.push(...compareSheet(plan.method, methodSheet));
+  differences.push(...compareSheet(plan.method, methodSheet, { recomputed }));
   const resultsWidth = plan.results.layout.columns.length;
   differences.push(...missingRows(stored, provenance, raw));
-  differences.push(
-    ...compareSheet(plan.results.plan, results, {
-      onStoredRow: (_r, cells) => digest.addResultsRow(rowValues(cells, resultsWidth), plan.approximate),
-    }),
-  );
+  const columnChecks = new ColumnChecks(plan.results.layout.inputCount);
+  const resultsDifferences = compareSheet(plan.results.plan, results, {
+    recomputed,
+    onStoredRow: (_r, cells) => {
+      const values = rowValues(cells, resultsWidth);
+      digest.addResultsRow(values, { formulas: formulaCells(cells), approximate: plan.approximate, columnChecks });
+    },
+  });
+  const checks = format >= 4 ? columnChecks.text() : undefined;
+  differences.push(...namedInputChanges(resultsDifferences, { result, plan, results, changedColumns: changedColumns(facts.get(KEYS.columnChecks)?.value, checks) }));
   const qc = sheetOrMissing(QC_SHEET);
-  if (qc) differences.push(...compareSheet(plan.qc, qc));
+  if (qc) differences.push(...compareSheet(plan.qc, qc, { recomputed }));
   const flags = sheetOrMissing(FLAGS_SHEET);
-  if (flags) differences.push(...compareSheet(plan.flags, flags));
-  if (trendsSheet) differences.push(...compareSheet(plan.trends.plan, trendsSheet));
+  if (flags) differences.push(...compareSheet(plan.flags, flags, { recomputed }));
+  if (trendsSheet) differences.push(...compareSheet(plan.trends.plan, trendsSheet, { recomputed }));
   else differences.push({ sheet: TRENDS_SHEET, message: 'the sheet is missing' });
   const summary = sheetOrMissing(SUMMARY_SHEET);
-  if (summary) differences.push(...compareSheet(plan.summary, summary));
+  if (summary) differences.push(...compareSheet(plan.summary, summary, { recomputed }));
 
   digest.addMethod(sha256Text(text.text), storedLimits(methodSheet));
   digest.addTrends(trends?.digestRows ?? []);
-  const recomputed = digest.hex();
+  const hex = digest.hex();
   const recorded = facts.get(KEYS.digest)?.value;
-  differences.push(...compareSheet(plan.provenance(recomputed), provenance));
-  return finish(path, differences, results, { digestMatches: recorded === recomputed });
+  const provenancePlan = plan.provenance(hex, checks);
+  differences.push(...compareSheet(provenancePlan, provenance, { recomputed }));
+  return finish(differences, results, { digestMatches: recorded === hex, recomputedCells: recomputed.cells, signOff: signOff(provenance, provenancePlan) });
 }
 
-function finish(path: string, differences: Difference[], results: StoredSheet, extra: { digestMatches: boolean | undefined }): VerifyReport {
-  return { path, differences, rows: Math.max(0, results.lastRow - 1), ...extra };
+/**
+ * Before each row check that no longer matches, the input cell that was typed over, with both values: the
+ * one in the cell now, and the one the formulas read when the workbook was written (the saved result of
+ * the as-used cell that reads it, unless the saving program recalculated it). Where nothing saved tells
+ * which input changed, the row check's line says so.
+ */
+/** Input columns (letters) whose column check no longer matches; empty when the workbook keeps none (format 3). */
+function changedColumns(stored: CellValue | undefined, recomputed: string | undefined): string[] {
+  if (recomputed === undefined || typeof stored !== 'string') return [];
+  const was = parseColumnChecks(stored);
+  const now = parseColumnChecks(recomputed);
+  if (!was || !now) return [];
+  return [...now].filter(([letter, check]) => was.get(letter) !== check).map(([letter]) => letter);
+}
+
+function namedInputChanges(
+  differences: Difference[],
+  at: { result: RecalcResult; plan: ReturnType<typeof planWorkbook>; results: StoredSheet; changedColumns: readonly string[] },
+): Difference[] {
+  const { layout } = at.plan.results;
+  const rowOf = (d: Difference) => Number(/\d+$/.exec(d.address ?? '')?.[0] ?? 0);
+  // Per sheet row whose row check differs: the input lines, and the row check's own line.
+  const byRow = new Map<number, Difference[]>();
+  for (const d of differences) {
+    if (d.address !== `${layout.rowCheck.letter}${rowOf(d)}`) continue;
+    const sheetRow = rowOf(d);
+    const planned = sheetRow - 2 < at.result.rowsOut ? at.plan.results.plan.row(sheetRow - 1) : undefined;
+    const stored = at.results.row(sheetRow);
+    const named: Difference[] = [];
+    for (const col of layout.asUsed.values()) {
+      const src = isCanonicalField(col.field!) ? at.result.columnMap.fields.get(col.field) : undefined;
+      const cell = stored.get(col.column);
+      const p = planned?.cells[col.column - 1];
+      if (!src || !cell || cell.noCachedValue || p?.formula === undefined || sameValue(p.value, cell.value)) continue;
+      const address = `${columnLetter(src.column + 1)}${sheetRow}`;
+      if (named.some((n) => n.address === address)) continue;
+      const now = stored.get(src.column + 1)?.value ?? null;
+      const unit = /\[([^\]]+)\]$/.exec(col.header)?.[1];
+      named.push({
+        ...d,
+        address,
+        label: `column ${JSON.stringify(at.result.raw.headers[src.column] ?? '')}`,
+        message:
+          `typed over after writing: the cell holds ${showValue(now)}; when written, the formulas read it as ` +
+          `${showValue(cell.value)}${unit ? ` ${unit}` : ''} (the saved result of ${RESULTS_SHEET}!${col.letter}${sheetRow})`,
+      });
+    }
+    // No saved result shows the value as written: the column checks name the cell, its value now is all there is.
+    // With one changed column the cell is certain; with several, each is a candidate in this row.
+    if (named.length === 0) {
+      const certain = at.changedColumns.length === 1;
+      for (const letter of at.changedColumns) {
+        const column = columnNumber(letter);
+        const others = at.changedColumns.filter((l) => l !== letter).map((l) => `${l}${sheetRow}`);
+        named.push({
+          ...d,
+          address: `${letter}${sheetRow}`,
+          label: `column ${JSON.stringify(at.result.raw.headers[column - 1] ?? '')}`,
+          message:
+            (certain
+              ? 'changed after writing (its row check and column check no longer match)'
+              : `this cell or ${others.join(', ')} changed after writing (the row check names the row, the column checks columns ${at.changedColumns.join(', ')})`) +
+            `: the cell holds ${showValue(stored.get(column)?.value ?? null)}; ` +
+            'the value as written is not kept in the workbook (the saving program recalculated or dropped the results that showed it)',
+        });
+      }
+    }
+    const check =
+      named.length > 0
+        ? d
+        : { ...d, message: `${d.message}: an input cell of this row was changed after writing; the saved results no longer show which (the saving program recalculated them)` };
+    byRow.set(sheetRow, [...named, check]);
+  }
+  if (byRow.size === 0) return differences;
+  // Root causes first: a row's input lines and row check come before what follows from them in that row.
+  const out: Difference[] = [];
+  for (const d of differences) {
+    const first = byRow.get(rowOf(d));
+    if (first) {
+      out.push(...first);
+      byRow.delete(rowOf(d));
+    }
+    if (d.address !== `${layout.rowCheck.letter}${rowOf(d)}`) out.push(d);
+  }
+  return out;
+}
+
+/** The workbook format a Provenance!B1 names, when verify reads it. */
+function formatVersionOf(name: CellValue | undefined): FormatVersion | undefined {
+  for (const [version, text] of Object.entries(WORKBOOK_FORMATS)) if (name === text) return Number(version) as FormatVersion;
+  return undefined;
+}
+
+/** Which cells of a stored row hold a formula, by 0-based column. */
+function formulaCells(cells: ReadonlyMap<number, StoredCell>): boolean[] {
+  const out: boolean[] = [];
+  for (const [c, cell] of cells) if (cell.formula !== undefined) out[c - 1] = true;
+  return out;
+}
+
+/** The sign-off cells (the reviewer's to fill in) as typed: reported, never compared. */
+function signOff(stored: StoredSheet, plan: SheetPlan): SignOffEntry[] {
+  const out: SignOffEntry[] = [];
+  for (let i = 0; i < plan.rowCount; i++) {
+    const row = plan.row(i);
+    row.cells.forEach((c, col) => {
+      if (!c?.free) return;
+      const typed = stored.row(i + 1).get(col + 1);
+      const label = row.cells[0]?.value;
+      if (typed && !isEmptyValue(typed.value)) {
+        out.push({
+          sheet: plan.name,
+          address: `${columnLetter(col + 1)}${i + 1}`,
+          label: label === null || label === undefined ? '' : String(label),
+          text: typed.date ?? String(typed.value),
+        });
+      }
+    });
+  }
+  return out;
 }
 
 /** Column A key → column B cell of the Provenance sheet (the first time a key appears). */

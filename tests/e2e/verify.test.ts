@@ -37,8 +37,14 @@ describe('phasebook verify', () => {
     const r = runCli(['verify', copy]);
     expect(r.code).toBe(1);
     const lines = r.stdout.trimEnd().split('\n');
-    expect(lines).toContain('Results!Q7, worklist row 7, sample "KB-03 Footbridge", sample_volume (as used) [mL] from column G: stored 1000, expected 900');
-    expect(r.stderr).toBe(`phasebook verify: ${copy}: ${lines.length} differences; the integrity digest does not match\n`);
+    expect(lines[0]).toBe(
+      'Results!G7, worklist row 7, sample "KB-03 Footbridge", column "Sample Vol (mL)": typed over after writing: the cell holds 900; ' +
+        'when written, the formulas read it as 1000 mL (the saved result of Results!Q7)',
+    );
+    expect(lines).toContain('Results!Q7, worklist row 7, sample "KB-03 Footbridge", sample_volume (as used) [mL] from column G: =IF(G7="","",G7) gives 900, but the cell holds 1000');
+    // exceljs, saving the edit, keeps no result for a formula whose result is empty text: those are recomputed, and said so.
+    expect(r.stderr).toMatch(/^phasebook verify: .*: \d+ differences; the integrity digest does not match; \d+ formula cells had no saved result \(the program that saved the workbook dropped them\) and were recomputed\n$/);
+    expect(r.stderr).toContain(`${copy}: ${lines.length} differences;`);
     const quiet = runCli(['verify', copy, '--quiet']);
     expect(quiet.code).toBe(1);
     expect(quiet.stderr).toBe('');
@@ -63,8 +69,8 @@ describe('phasebook verify', () => {
       worklist_row: 7,
       sample_id: 'KB-03 Footbridge',
       label: 'sample_volume (as used) [mL] from column G',
-      message: 'stored 1000, expected 900',
-      line: 'Results!Q7, worklist row 7, sample "KB-03 Footbridge", sample_volume (as used) [mL] from column G: stored 1000, expected 900',
+      message: '=IF(G7="","",G7) gives 900, but the cell holds 1000',
+      line: 'Results!Q7, worklist row 7, sample "KB-03 Footbridge", sample_volume (as used) [mL] from column G: =IF(G7="","",G7) gives 900, but the cell holds 1000',
     });
     const untouched = JSON.parse(runCli(['verify', workbook, '--json']).stdout);
     expect(untouched).toMatchObject({ exit_code: 0, untouched: true, digest_matches: true, differences: [] });

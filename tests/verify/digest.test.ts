@@ -1,5 +1,5 @@
 /**
- * The integrity digest as its description says (digest.ts, DIGEST_DESCRIPTION), computed here
+ * The integrity digest as its description says (digest.ts, DIGEST_3_DESCRIPTION), computed here
  * independently of the writer and of verify: from the cells exceljs reads back, with node's
  * SHA-256. If the writer and the description ever part ways, this fails.
  */
@@ -26,18 +26,25 @@ describe('the integrity digest', () => {
   it.each(SAMPLE_CASES.map((c) => [c.name, c] as const))('of %s follows its description', async (_name, c) => {
     const { path, result } = await writeCase(c, dir);
     const wb = await readBook(path);
-    const layout = resultsLayout(result);
-    const approximate = layout.columns.map((col) => col.kind === 'as-used' || col.kind === 'computed');
-    const width = layout.columns.length;
-    const lines: string[] = ['phasebook integrity digest 2'];
+    const width = resultsLayout(result).columns.length;
+    const lines: string[] = ['phasebook integrity digest 3'];
+    // Numbers to 15 significant digits; a formula cell as {"f":1}, never its cached result.
+    const at15 = (v: Cell) => (typeof v === 'number' ? Number(v.toPrecision(15)) : v);
 
     const results = wb.getWorksheet('Results')!;
+    let formulas = 0;
     for (let r = 1; r <= results.rowCount; r++) {
-      const values = cellsOf(results, r, width).map((v, i) =>
-        v === null ? 'null' : typeof v === 'number' ? (approximate[i] ? v.toPrecision(12) : String(v)) : JSON.stringify(v),
-      );
+      const values = cellsOf(results, r, width).map((v, i) => {
+        const cell = results.getRow(r).getCell(i + 1);
+        if (cell.formula) {
+          formulas++;
+          return '{"f":1}';
+        }
+        return JSON.stringify(at15(v));
+      });
       lines.push(`[${values.join(',')}]`);
     }
+    expect(formulas).toBeGreaterThan(100);
 
     const method = wb.getWorksheet('Method')!;
     const ends = String(valueByKey(method, 'line ends of the method file') ?? 'LF');
@@ -51,7 +58,7 @@ describe('the integrity digest', () => {
       const at = rowWith(method, title);
       if (at === 0) continue;
       for (let r = at + 2; method.getRow(r).cellCount > 0 && plain(method.getRow(r).getCell(1)) !== null; r++) {
-        lines.push(JSON.stringify(cellsOf(method, r, title === 'Acceptance limits' ? 7 : 6)));
+        lines.push(JSON.stringify(cellsOf(method, r, title === 'Acceptance limits' ? 7 : 6).map(at15)));
       }
     }
 

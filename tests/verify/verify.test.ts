@@ -15,7 +15,10 @@ import { formatDifference, type Difference } from '../../src/verify/difference.j
 import { parseRanges, verifyWorkbook } from '../../src/verify/verify.js';
 import { writeWorkbook } from '../../src/write/workbook.js';
 import { genericMethod, rawTable } from '../fixtures/qc/build.js';
-import { ALL_CASES, RUN, SAMPLE_CASES, editCopy, plain, rowWith, tempDir, writeCase } from './workbook-fixtures.js';
+import { ALL_CASES, RUN, SAMPLE_CASES, editCopy, plain, readBook, recalcCase, rowWith, tempDir, unzipParts, valueByKey, writeCase } from './workbook-fixtures.js';
+import { buildZip } from '../helpers/zip.mjs';
+import { planWorkbook } from '../../src/write/workbook/plan.js';
+import { writePlannedWorkbook } from '../../src/write/workbook/write.js';
 
 const kestrelCase = SAMPLE_CASES[0]!;
 let dir: string;
@@ -67,9 +70,14 @@ describe('each kind of edit is found and named', () => {
     });
     const report = await verifyWorkbook(path);
     const text = lines(report.differences);
-    expect(text).toContain('Results!Q7, worklist row 7, sample "KB-03 Footbridge", sample_volume (as used) [mL] from column G: stored 1000, expected 900');
-    expect(text.some((l) => l.startsWith('Results!AD7, worklist row 7, sample "KB-03 Footbridge", pre_extraction_conc [ug/L]: stored 0.3583'))).toBe(true);
-    expect(text.some((l) => l.startsWith('Results!AJ7, worklist row 7, sample "KB-03 Footbridge", row check: stored "'))).toBe(true);
+    // The input cell first, with both values, then the row check, then what follows from it.
+    expect(text[0]).toBe(
+      'Results!G7, worklist row 7, sample "KB-03 Footbridge", column "Sample Vol (mL)": typed over after writing: the cell holds 900; ' +
+        'when written, the formulas read it as 1000 mL (the saved result of Results!Q7)',
+    );
+    expect(text[1]).toMatch(/^Results!AJ7, worklist row 7, sample "KB-03 Footbridge", row check: stored "[0-9a-f]{16}", expected "[0-9a-f]{16}"$/);
+    expect(text).toContain('Results!Q7, worklist row 7, sample "KB-03 Footbridge", sample_volume (as used) [mL] from column G: =IF(G7="","",G7) gives 900, but the cell holds 1000');
+    expect(text.some((l) => /^Results!AD7, worklist row 7, sample "KB-03 Footbridge", pre_extraction_conc \[ug\/L\]: =IF\(.* gives 0\.398\d*, but the cell holds 0\.3583/.test(l))).toBe(true);
     expect(text.some((l) => l.startsWith('Provenance!B'))).toBe(true);
     expect(report.digestMatches).toBe(false);
   });
@@ -80,7 +88,9 @@ describe('each kind of edit is found and named', () => {
       c.value = c.result as number;
     });
     const report = await verifyWorkbook(path);
-    expect(report.differences).toHaveLength(1);
+    // The cell, and the digest, which takes a formula cell as a formula (digest 3), not by its value.
+    expect(report.differences).toHaveLength(2);
+    expect(formatDifference(report.differences[1]!)).toMatch(/^Provenance!B\d+, integrity digest/);
     expect(formatDifference(report.differences[0]!)).toMatch(
       /^Results!AD7, worklist row 7, sample "KB-03 Footbridge", pre_extraction_conc \[ug\/L\]: the formula was replaced by a value: stored (0\.3583\d*), expected =IF\(OR\(P7="".* giving (0\.3583\d*)$/,
     );
@@ -199,6 +209,8 @@ describe('not a phasebook workbook', () => {
     await expect(verifyWorkbook(path)).rejects.toThrow('is not a phasebook workbook: it was written in the format "spreadsheet of another kind"; this phasebook reads "phasebook-workbook 4"');
   });
 
+  // Format 3 too: this release laid the sheets out anew (reported_result, QC levels on Trends, the uncertainty
+  // tables), so a format-3 workbook is verified by the phasebook that wrote it, never by a second planner here.
   it('a workbook of an earlier layout is refused with the way to check it, never called changed', async () => {
     // Found: a workbook written by the previous release verified with 967 differences though untouched.
     const path = await edited((wb) => {
@@ -208,6 +220,34 @@ describe('not a phasebook workbook', () => {
       'was written in the format "phasebook-workbook 2" by an earlier phasebook, whose sheets this version lays out differently; ' +
         'this phasebook verifies "phasebook-workbook 4": verify it with the phasebook version its Provenance sheet names',
     );
+  });
+
+  it.each([
+    ['a sheet that is not XML', 'xl/worksheets/sheet2.xml', '<worksheet><sheetData><row r="1"><c', /the part "xl\/worksheets\/sheet2\.xml" is not well-formed XML/],
+    ['a shared string that does not exist', 'xl/worksheets/sheet2.xml', null, /refers to shared string "99999", which the workbook does not hold/],
+    ['a cell named as no cell is', 'xl/worksheets/sheet7.xml', null, /a cell is named "A1B"; expected a reference such as "B3"/],
+  ])('a phasebook workbook with %s stops with its reason, never a program error', async (_what, part, text, message) => {
+    const parts = await unzipParts(kestrel);
+    let xml = parts.get(part)!.toString('utf8');
+    if (text !== null) xml = text;
+    else if (part.endsWith('sheet2.xml')) xml = xml.replace('<c r="A2"', '<c r="A2" t="s"><v>99999</v></c><c r="A2x"').replace(/<c r="A2x"[^>]*>(?:<is>.*?<\/is>|<v>.*?<\/v>)?<\/c>/, '');
+    else xml = xml.replace('<c r="A1"', '<c r="A1B"');
+    parts.set(part, Buffer.from(xml, 'utf8'));
+    const path = join(dir, `damaged-${k++}.xlsx`);
+    writeFileSync(path, buildZip([...parts].map(([name, data]) => ({ name, data }))));
+    const err = await verifyWorkbook(path).then(
+      () => undefined,
+      (e: unknown) => e,
+    );
+    expect(err).toBeInstanceOf(StopError);
+    expect((err as StopError).describe()).toMatch(message);
+  });
+
+  it('a workbook of a later layout is refused as written by a later phasebook', async () => {
+    const path = await edited((wb) => {
+      wb.getWorksheet('Provenance')!.getCell('B1').value = 'phasebook-workbook 9';
+    });
+    await expect(verifyWorkbook(path)).rejects.toThrow('was written in the format "phasebook-workbook 9" by a later phasebook');
   });
 });
 
@@ -268,7 +308,12 @@ describe('pieces', () => {
     ['IF(A2 = "", FALSE(), A2)', 'IF(A2="",FALSE,A2)'],
     ['_xlfn.IFERROR(B2,"a b")', 'IFERROR(B2,"a b")'],
     ['F2*999.9999999999999', 'F2*1000'],
-    ['Method!$A$38:$B$45', 'Method!$A$38:$B$45'],
+    ['Method!$A$38:$B$45', 'METHOD!$A$38:$B$45'],
+    // Sheet-name quoting and case do not change a formula's meaning.
+    ["'Method'!$a$38+sum(b2:b3)", 'METHOD!$A$38+SUM(B2:B3)'],
+    ["'QC data'!A1&\"a b\"", "'QC DATA'!A1&\"a b\""],
+    ["'A1'!B2", "'A1'!B2"],
+    ['IF(A2=TRUE(),0.11800000000000001,1E+3)', 'IF(A2=TRUE,0.118,1000)'],
   ])('normaliseFormula(%j) is %j', (f, want) => {
     expect(normaliseFormula(f)).toBe(want);
   });

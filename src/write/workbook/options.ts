@@ -30,12 +30,20 @@ export interface WorkbookOptions {
 export const DEFAULT_FORMULA_ROW_LIMIT = 100_000;
 export const DEFAULT_MAX_NOTES = 10_000;
 
-/** Identifies a phasebook workbook and the layout `verify` expects. */
 /**
+ * Identifies a phasebook workbook and the layout `verify` expects.
  * Version 3: the Summary sheet's verdict sentence and failed-controls table, the calibrator type, the blank
- * limits and the number format on the Provenance sheet. Version 4: reported_result on the Results sheet, the
- * calibration and reporting section of the Method sheet, a QC level column on the Trends sheet and in the
- * in-house limits table, the mdl type (a Summary column), and where a run has them, the expanded uncertainty
- * columns of the Results sheet and their tables on the Method sheet. verify reads only the layout it writes.
+ * limits and the number format on the Provenance sheet.
+ * Version 4: reported_result on the Results sheet, the calibration and reporting section of the Method sheet, a
+ * QC level column on the Trends sheet and in the in-house limits table, the mdl type (a Summary column), the
+ * expanded uncertainty columns and tables where a run has them; the row check and the integrity digest are taken over the canonical content
+ * (canonical.ts: numbers to 15 significant digits, formulas by meaning, no cached results), so that a workbook
+ * saved unchanged by a spreadsheet program still verifies; signatures may follow on a sheet of their own.
+ * verify reads only the layout it writes: a version-3 workbook lacks this layout's columns and tables, so it is
+ * refused with the phasebook version that verifies it, never compared with a plan it was not written by.
  */
 export const WORKBOOK_FORMAT = 'phasebook-workbook 4';
+
+/** The layouts verify reads, by version: the name in Provenance!B1. */
+export const WORKBOOK_FORMATS = { 4: WORKBOOK_FORMAT } as const;
+export type FormatVersion = keyof typeof WORKBOOK_FORMATS;

@@ -10,7 +10,7 @@ import type { CellValue, SheetPlan } from './cells.js';
 import { sha256Text } from './digest.js';
 import { planFlagsSheet } from './flags-sheet.js';
 import { inHouseRows, lineEndOf, lineEnds, limitRows, methodLines, planMethodSheet } from './method-sheet.js';
-import { DEFAULT_FORMULA_ROW_LIMIT, DEFAULT_MAX_NOTES, type RunInfo } from './options.js';
+import { DEFAULT_FORMULA_ROW_LIMIT, DEFAULT_MAX_NOTES, type FormatVersion, type RunInfo } from './options.js';
 import { describeFormat, planProvenanceSheet } from './provenance-sheet.js';
 import { planQcSheet } from './qc-sheet.js';
 import { planResultsSheet, type ResultsSheet } from './results-sheet.js';
@@ -33,9 +33,14 @@ export interface PlanOptions {
   history?: TrendsSheetInput;
   /** Points a series needs before it has limits (default MIN_POINTS). */
   minPoints?: number;
+  /** The workbook format (default the current one); verify plans a workbook of an earlier format as it was written. */
+  format?: FormatVersion;
 }
 
 export interface WorkbookPlan {
+  format: FormatVersion;
+  /** The worklist's name, in every sheet's printed footer. */
+  title: string;
   formulas: boolean;
   formulaRowLimit: number;
   maxNotes: number;
@@ -50,7 +55,8 @@ export interface WorkbookPlan {
   /** SHA-256 of the method text as the Method sheet holds it, and the limits tables (acceptance, in-house): the digest's tail. */
   methodTextSha: string;
   limits: CellValue[][];
-  provenance(digest: string): SheetPlan;
+  /** The Provenance sheet, given the integrity digest and the column checks (format 4) taken while the Results rows were written or read. */
+  provenance(digest: string, columnChecks?: string): SheetPlan;
 }
 
 export function planWorkbook(result: RecalcResult, options: PlanOptions): WorkbookPlan {
@@ -59,11 +65,14 @@ export function planWorkbook(result: RecalcResult, options: PlanOptions): Workbo
   const formulas = options.formulas ?? result.rowsOut <= formulaRowLimit;
   const { refs } = planMethodSheet(result);
   const flagsByRow = groupBy(result.flags, (f) => f.row);
-  const results = planResultsSheet(result, { refs, formulas, flagsByRow });
+  const format = options.format ?? 4;
+  const results = planResultsSheet(result, { refs, formulas, flagsByRow, format });
   const method = planMethodSheet(result, { formulaForms: results.formulaForms }).plan;
   const layout = results.layout;
   const sheetTextOfMethod = methodLines(result.method.text).map(sheetText).join(lineEndOf(lineEnds(result.method.text)));
   return {
+    format,
+    title: result.worklist.name,
     formulas,
     formulaRowLimit,
     maxNotes,
@@ -79,7 +88,7 @@ export function planWorkbook(result: RecalcResult, options: PlanOptions): Workbo
       ...limitRows(result.method),
       ...(result.method.qc.limitsSource === 'in_house' ? inHouseRows(result) : []),
     ],
-    provenance: (digest) =>
+    provenance: (digest, columnChecks) =>
       planProvenanceSheet(result, {
         run: options.run,
         readAs: options.readAs ?? describeFormat(result.raw.format, result.table.numberFormat),
@@ -87,6 +96,8 @@ export function planWorkbook(result: RecalcResult, options: PlanOptions): Workbo
         formulaRowLimit,
         maxNotes,
         digest,
+        columnChecks,
+        format,
       }),
   };
 }

@@ -24,7 +24,8 @@ import type ExcelJS from 'exceljs';
 import WorkbookWriter from 'exceljs/lib/stream/xlsx/workbook-writer.js';
 import enums from 'exceljs/lib/doc/enums.js';
 import { columnLetter, escapeForXlsx, sheetText, type CellValue, type PlannedCell, type PlannedRow, type SheetPlan } from './cells.js';
-import { IntegrityDigest } from './digest.js';
+import { ColumnChecks, IntegrityDigest } from './digest.js';
+import { printSettings } from './print.js';
 import type { WorkbookPlan } from './workbook-plan.js';
 import { styleFor } from './style.js';
 import type { RunInfo } from './options.js';
@@ -173,13 +174,13 @@ async function drained(stream: unknown): Promise<void> {
 async function writeSheet(
   wb: ExcelJS.stream.xlsx.WorkbookWriter,
   plan: SheetPlan,
-  options: { budget: NoteBudget; rowWriter: RowWriter; onRow?: (row: PlannedRow, index: number) => void },
+  options: { budget: NoteBudget; rowWriter: RowWriter; title: string; onRow?: (row: PlannedRow, index: number) => void },
 ): Promise<void> {
   const { budget, onRow } = options;
   const views: Partial<ExcelJS.WorksheetView>[] = plan.frozen
     ? [{ state: 'frozen', ySplit: plan.frozen.rows, xSplit: plan.frozen.columns ?? 0 }]
     : [];
-  const ws = wb.addWorksheet(plan.name, { views });
+  const ws = wb.addWorksheet(plan.name, { views, ...printSettings(plan, { title: options.title }) });
   ws.columns = plan.widths.map((width) => ({ width }));
   if (plan.autoFilter) {
     ws.autoFilter = { from: { row: plan.autoFilter.row, column: 1 }, to: { row: plan.autoFilter.row, column: plan.autoFilter.columns } };
@@ -297,28 +298,36 @@ export async function writePlannedWorkbook(
     wb.created = time;
     wb.modified = time;
     const budget: NoteBudget = { left: plan.maxNotes };
+    const title = plan.title;
     const rowWriter = options.rowWriter ?? 'direct';
-    const digest = new IntegrityDigest();
+    const digest = new IntegrityDigest({ version: plan.format >= 4 ? 3 : 2 });
     const values: CellValue[] = [];
+    const formulas: boolean[] = [];
+    const columnChecks = new ColumnChecks(plan.results.layout.inputCount);
 
-    await writeSheet(wb, plan.summary, { budget, rowWriter });
+    await writeSheet(wb, plan.summary, { budget, rowWriter, title });
     await writeSheet(wb, plan.results.plan, {
       budget,
       rowWriter,
+      title,
       onRow: (row) => {
         // One array for every row's values: the digest reads it before the next row.
         values.length = row.cells.length;
-        for (let j = 0; j < values.length; j++) values[j] = row.cells[j]?.value ?? null;
-        digest.addResultsRow(values, plan.approximate);
+        formulas.length = row.cells.length;
+        for (let j = 0; j < values.length; j++) {
+          values[j] = row.cells[j]?.value ?? null;
+          formulas[j] = row.cells[j]?.formula !== undefined;
+        }
+        digest.addResultsRow(values, { formulas, approximate: plan.approximate, columnChecks });
       },
     });
-    await writeSheet(wb, plan.qc, { budget, rowWriter });
-    await writeSheet(wb, plan.flags, { budget, rowWriter });
-    await writeSheet(wb, plan.trends.plan, { budget, rowWriter });
-    await writeSheet(wb, plan.method, { budget, rowWriter });
+    await writeSheet(wb, plan.qc, { budget, rowWriter, title });
+    await writeSheet(wb, plan.flags, { budget, rowWriter, title });
+    await writeSheet(wb, plan.trends.plan, { budget, rowWriter, title });
+    await writeSheet(wb, plan.method, { budget, rowWriter, title });
     digest.addMethod(plan.methodTextSha, plan.limits);
     digest.addTrends(plan.trends.digestRows);
-    await writeSheet(wb, plan.provenance(digest.hex()), { budget, rowWriter });
+    await writeSheet(wb, plan.provenance(digest.hex(), plan.format >= 4 ? columnChecks.text() : undefined), { budget, rowWriter, title });
     await wb.commit();
   };
   const writing = write();

@@ -8,7 +8,7 @@
 import { createHash } from 'node:crypto';
 import { describe, expect, it } from 'vitest';
 import type { CellValue } from '../../../src/write/workbook/cells.js';
-import { DIGEST_HEADER, IntegrityDigest, precision12 } from '../../../src/write/workbook/digest.js';
+import { ColumnChecks, DIGEST_3_HEADER, DIGEST_HEADER, IntegrityDigest, parseColumnChecks, precision12 } from '../../../src/write/workbook/digest.js';
 
 /** A small deterministic generator (a 32-bit linear congruential one; common practice), so failures repeat. */
 function numbers(seed: number): () => number {
@@ -92,8 +92,8 @@ describe('IntegrityDigest over many Results rows', () => {
   const approximate = [true, true, true, true, false, false, true];
 
   it('hashes exactly the described lines', () => {
-    const digest = new IntegrityDigest();
-    for (const row of rows) digest.addResultsRow(row, approximate);
+    const digest = new IntegrityDigest({ version: 2 });
+    for (const row of rows) digest.addResultsRow(row, { formulas: [], approximate });
     digest.addMethod('ab'.repeat(32), []);
     digest.addTrends([]);
     expect(digest.hex()).toBe(referenceDigest(rows, approximate, 'ab'.repeat(32)));
@@ -104,12 +104,78 @@ describe('IntegrityDigest over many Results rows', () => {
     const before = changed[7000]![2] as number;
     changed[7000]![2] = before * (1 + 1e-11);
     expect((changed[7000]![2] as number).toPrecision(12)).not.toBe(before.toPrecision(12));
-    const digest = new IntegrityDigest();
-    for (const row of changed) digest.addResultsRow(row, approximate);
+    const digest = new IntegrityDigest({ version: 2 });
+    for (const row of changed) digest.addResultsRow(row, { formulas: [], approximate });
     digest.addMethod('ab'.repeat(32), []);
     digest.addTrends([]);
     const hex = digest.hex();
     expect(hex).toBe(referenceDigest(changed, approximate, 'ab'.repeat(32)));
     expect(hex).not.toBe(referenceDigest(rows, approximate, 'ab'.repeat(32)));
+  });
+});
+
+/**
+ * A number to 15 significant digits as digest 3 describes it: its shortest decimal text (ECMA-262
+ * Number::toString) rounded half away from zero. Worked here on the digits of toString's text
+ * (fixed or exponential), not as canonical.ts does it (toExponential and BigInt).
+ */
+function reference15(x: number): number {
+  const text = String(Math.abs(x));
+  const [mantissa, exp = '0'] = text.split('e');
+  const [whole, fraction = ''] = mantissa!.split('.');
+  let digits = (whole! + fraction).replace(/^0+/, '');
+  const leadingZeros = (whole! + fraction).length - (whole! + fraction).replace(/^0+/, '').length;
+  // Value = 0.digits × 10^point
+  const point = whole!.length - leadingZeros + Number(exp);
+  if (digits.length <= 15) return x === 0 ? 0 : x;
+  const up = digits[15]! >= '5';
+  const kept = digits.slice(0, 15).split('').map(Number);
+  if (up) {
+    let i = 14;
+    while (i >= 0 && kept[i] === 9) kept[i--] = 0;
+    if (i >= 0) kept[i]! += 1;
+    else kept.unshift(1);
+  }
+  digits = kept.join('');
+  const value = Number(`0.${digits}e${point + (kept.length > 15 ? 1 : 0)}`);
+  return x < 0 ? -value : value;
+}
+
+describe('digest 3 (workbook format 4) and the column checks', () => {
+  const random = numbers(7);
+  const rows: CellValue[][] = [];
+  for (let r = 0; r < 5_000; r++) {
+    rows.push([`S-${r}`, random() * 1000, r % 5 === 0 ? null : 0.1 * r, Math.floor(random() * 1e6), 1.5, 0]);
+  }
+  const formulas = [false, false, false, false, true, true];
+
+  it.each([
+    [89.18202590278685, 89.1820259027869],
+    [0.11800000000000001, 0.118],
+    [999.9999999999999, 1000],
+    [-1.0000000000000002e-7, -1e-7],
+  ])('reference15(%s) is %s (checked by hand against the shortest text)', (x, want) => {
+    expect(reference15(x)).toBe(want);
+  });
+
+  it('hashes the described lines: numbers to 15 significant digits, formula cells as {"f":1}; columns checked one by one', () => {
+    const checks = new ColumnChecks(4);
+    const digest = new IntegrityDigest({ version: 3 });
+    for (const row of rows) digest.addResultsRow(row, { formulas, approximate: [], columnChecks: checks });
+    digest.addMethod('ab'.repeat(32), [['lcs', 70.00000000000001]]);
+    digest.addTrends([]);
+    const text = (v: CellValue) => (v === null || v === '' ? 'null' : typeof v === 'number' ? String(reference15(v)) : JSON.stringify(v));
+    const lines = [DIGEST_3_HEADER];
+    for (const row of rows) lines.push(`[${row.map((v, c) => (formulas[c] ? '{"f":1}' : text(v))).join(',')}]`);
+    lines.push(`method ${'ab'.repeat(32)}`, '["lcs",70]', 'trends');
+    expect(digest.hex()).toBe(createHash('sha256').update(lines.map((l) => `${l}\n`).join(''), 'utf8').digest('hex'));
+
+    const expected = [0, 1, 2, 3]
+      .map((c) => `${'ABCD'[c]} ${createHash('sha256').update(rows.map((row) => `${text(row[c]!)}\n`).join(''), 'utf8').digest('hex').slice(0, 8)}`)
+      .join(', ');
+    const got = checks.text();
+    expect(got).toBe(expected);
+    expect(parseColumnChecks(got)?.get('B')).toBe(expected.split(', ')[1]!.slice(2));
+    expect(parseColumnChecks('A 1234')).toBeUndefined();
   });
 });
