@@ -11,6 +11,7 @@ import { mapColumns, type ColumnMap } from './columns/map.js';
 import { buildTable, type WorkTable } from './columns/table.js';
 import { findLinks, type Links } from './engine/links.js';
 import { compileMethod, evaluateFormulas } from './engine/evaluate.js';
+import { parseNumberCell } from './columns/numbers.js';
 import { FLAG_CODES, type Flag, type ResultFlag, type ResultNote, type SpreadsheetRow } from './issues.js';
 import { loadMethod } from './method/load.js';
 import type { OnProgress } from './progress.js';
@@ -49,6 +50,17 @@ export interface WorklistInfo {
 export interface RecalcResult {
   worklist: WorklistInfo;
   method: Method;
+  /**
+   * The method's formulas as compiled once (engine/evaluate.ts): what each reads, and its parsed tree, which
+   * the workbook translates into spreadsheet formulas. The tree is opaque here so that the public types
+   * carry no parser's types.
+   */
+  compiled: { formulas: ReadonlyArray<{ name: string; dependencies: readonly string[]; node: unknown }> };
+  /**
+   * How a text cell of this worklist reads as a number (the file's one number format), or undefined when it
+   * does not: the workbook stores a CSV's numeric cells as numbers by it, without reading the file again.
+   */
+  readNumber(text: string): number | undefined;
   /** The worklist verbatim. */
   raw: RawTable;
   columnMap: ColumnMap;
@@ -171,6 +183,11 @@ export function recalculateTable(
   return {
     worklist: ctx.worklist,
     method,
+    compiled,
+    readNumber: (text) => {
+      const parsed = parseNumberCell(text, table.numberFormat);
+      return parsed.ok && Number.isFinite(parsed.value) ? parsed.value : undefined;
+    },
     raw,
     columnMap,
     table,

@@ -4,8 +4,7 @@
  * reported_result and the row check. The sheet's planner (results-sheet.ts), the as-used
  * cells (as-used.ts) and verify all place cells by this one layout.
  */
-import { FIELD_SPECS, type CanonicalField } from '../../domain/fields.js';
-import { DERIVED_COLUMNS, compileMethod } from '../../engine/evaluate.js';
+import { DERIVED_COLUMNS, FIELD_SPECS, type CanonicalField } from '../../domain/fields.js';
 import type { RecalcResult } from '../../pipeline.js';
 import { computedHeader, outputColumns, reportedHeader } from '../output-columns.js';
 import { columnLetter } from './cells.js';
@@ -56,7 +55,7 @@ export function asUsedHeader(field: string, unit: string): string {
  * solvent_volume).
  */
 export function asUsedFields(result: RecalcResult): string[] {
-  const compiled = compileMethod(result.method);
+  const compiled = result.compiled;
   const used = new Set<string>();
   for (const f of compiled.formulas) for (const d of f.dependencies) used.add(d);
   if (used.has('final_volume')) {
