@@ -20,7 +20,7 @@
  * expanded uncertainty beside each sample result.
  */
 import { spawnSync } from 'node:child_process';
-import { readFileSync, readdirSync, rmSync } from 'node:fs';
+import { readFileSync, readdirSync, rmSync, writeFileSync } from 'node:fs';
 import { join } from 'node:path';
 import Papa from 'papaparse';
 import { parse as parseYaml } from 'yaml';
@@ -266,6 +266,33 @@ describe('a later recalc --history: each sample result with its expanded uncerta
       checked++;
     }
     expect(checked).toBe(15); // five river samples × three analytes
+  });
+
+  it('a method that asks for it (reporting.with_uncertainty) reports "x ± U", and the workbook verifies', () => {
+    const method = join(root, 'surface-water-with-u.yaml');
+    // The same method (its name is what the history's runs are matched by) with the reporting option added.
+    writeFileSync(method, readFileSync(join(ROOT, 'templates/surface-water.yaml'), 'utf8').replace('qc:\n', 'reporting:\n  with_uncertainty: true\n\nqc:\n'));
+    const out = join(root, 'later-water-u');
+    const r = runCli(['recalc', 'samples/kestrel-brook-2026-11.csv', '-m', method, '-o', out, '--outputs', 'csv,xlsx', '--history', history, '--timestamp', LATER, '--quiet']);
+    expect(r.stderr).toBe('');
+    let shown = 0;
+    for (const row of readCsv(join(out, 'kestrel-brook-2026-11.results.csv'))) {
+      const reported = row['reported_result [ug/L]']!;
+      const u = Number(row['expanded_uncertainty [ug/L]']);
+      if (row['expanded_uncertainty [ug/L]'] === '' || reported.startsWith('<') || reported.startsWith('>')) {
+        expect(reported).not.toContain('±');
+        continue;
+      }
+      // GUM (JCGM 100:2008) 7.2.6: U to two significant digits, the result to the same decimal place (no ties here).
+      const u2 = Number(u.toPrecision(2));
+      const decimals = Math.max(0, 1 - Math.floor(Math.log10(u2)));
+      expect(reported).toBe(`${Number(row['pre_extraction_conc [ug/L]']).toFixed(decimals)} ± ${u2.toFixed(decimals)}`);
+      shown++;
+    }
+    expect(shown).toBeGreaterThan(10);
+    const v = runCli(['verify', join(out, 'kestrel-brook-2026-11.xlsx')]);
+    expect(v.stdout + v.stderr).not.toContain('differ');
+    expect(v.code).toBe(0);
   });
 
   it('the plasma demo: the largest U among the qc levels, which cannot understate a sample', () => {
