@@ -243,6 +243,37 @@ describe('the demo histories: figures --json as derived here from the generated 
   });
 });
 
+describe('plan --target-mdl on the demo history', () => {
+  it('estimates the sample volume for a target from MDL_s (mass balance: MDL ∝ 1 / sample volume), with the procedure\'s caveat', () => {
+    const p = surfaceWater().get('Quinoline')!;
+    const mdlS = T_TABLE[14]! * sd(p.mdl); // 40 CFR 136 App. B Rev. 2, t from the published table
+    const target = Number((mdlS / 2).toPrecision(2));
+    const r = runCli(['plan', '--target-mdl', String(target), '--history', history, '--analyte', 'quinoline', '--sample-volume', '1000', '--until', '2026-10-31', '--json']);
+    expect(r.stderr).toBe('');
+    expect(r.code).toBe(0);
+    const plan = JSON.parse(r.stdout);
+    expect(plan).toMatchObject({ method: 'surface-water', analyte: 'Quinoline', unit: 'ug/L', outcome: 'scaled', sampleVolume: 1000 });
+    nearRel(plan.neededSampleVolume, (1000 * mdlS) / target, 5e-4);
+    const text = runCli(['plan', '--target-mdl', String(target), '--history', history, '--analyte', 'Quinoline', '--sample-volume', '1000', '--until', '2026-10-31']).stdout;
+    expect(text).toContain('40 CFR 136 App. B Rev. 2 asks for the MDL to be determined again after such a change. This is an estimate to plan that determination, not an MDL.');
+  });
+
+  it('refuses where the blanks set a floor above the target (2,4-Dichlorophenol: MDL_b is its highest blank)', () => {
+    const p = surfaceWater().get('2,4-Dichlorophenol')!;
+    const target = Number((Math.max(...p.blanks) * 0.9).toPrecision(2));
+    const r = runCli(['plan', '--target-mdl', String(target), '--history', history, '--analyte', '2,4-Dichlorophenol', '--sample-volume', '1000', '--until', '2026-10-31']);
+    expect(r.code).toBe(0);
+    expect(r.stdout).toContain('No sample volume to propose: MDL_b');
+    expect(r.stdout).toContain('from the method blanks, is at or above the target');
+  });
+
+  it('says what is missing where the history has no MDL (the plasma runs have no mdl rows)', () => {
+    const r = runCli(['plan', '--target-mdl', '0.5', '--history', history, '--analyte', 'Amitriptyline', '--sample-volume', '0.2', '--until', '2026-10-31']);
+    expect(r.code).toBe(2);
+    expect(r.stderr).toContain('no present MDL for "Amitriptyline" (method "plasma-amitriptyline") to plan from: 7 more low-level spiked blanks (type mdl) needed: 7 at least, 0 recorded');
+  });
+});
+
 describe('a later recalc --history: each sample result with its expanded uncertainty', () => {
   const LATER = '2026-11-20T10:00:00Z';
   it('the quick start worklist: U = U % of its analyte × |result| / 100, k = 2', () => {
