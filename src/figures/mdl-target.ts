@@ -11,7 +11,8 @@
  * nothing of the kind: it asks for the MDL to be determined again when the method changes in a
  * way that can change its sensitivity (Rev. 2, ongoing data collection; from memory), and a new
  * sample volume is such a change. So the answer is an estimate to plan that determination, with
- * the spike level for it: typically 2 to 10 times the estimated MDL (Rev. 2, §2(a); from memory).
+ * the spike level for it: typically 2 to 10 times the estimated MDL (Rev. 2, section 2(a), the
+ * procedure's own words for an initial determination).
  *
  * The MDL from the method blanks, MDL_b, has no such scaling: blank contamination comes from
  * reagents, glassware and the lab, not in proportion to the sample. Where MDL_b is at or above
@@ -19,7 +20,7 @@
  */
 import type { FigureEntry } from './figures.js';
 
-/** The spike level the procedure suggests for a determination: this many times the estimated MDL (Rev. 2 §2(a), from memory). */
+/** The spike level the procedure suggests for a determination: this many times the estimated MDL (Rev. 2, section 2(a)). */
 export const SPIKE_TIMES_MDL: readonly [number, number] = [2, 10];
 
 export interface MdlTargetPlan {

@@ -66,8 +66,10 @@ export function dilutionToRange(dilution: number, extract: number, top: number):
  * as U (10.05762 with U 0.027 → "10.058 ± 0.027"; 1234.5 with U 153.4 → "1230 ± 150").
  * GUM (JCGM 100:2008) 7.2.6: an uncertainty is quoted to at most two significant digits,
  * and the estimate is rounded to be consistent with it (its example: y = 10.057 62 Ω with
- * u_c = 27 mΩ is given as 10.058 Ω; from memory). Both are rounded from their values at 15
- * significant digits, ties as the method says. U must be finite and above 0.
+ * u_c = 27 mΩ is given as 10.058 Ω). NIST GLP 9 (NISTIR 6969, 2019) words the same steps:
+ * U to two significant digits, the result to the same decimal places. The GUM allows rounding
+ * U up; phasebook rounds to the nearest, ties as the method says. Both are rounded from their
+ * values at 15 significant digits. U must be finite and above 0.
  */
 export function withUncertainty(x: number, u: number, rounding: Rounding): string {
   const mode = roundingMode(rounding);

