@@ -229,6 +229,19 @@ describe('the demo histories: figures --json as derived here from the generated 
     expect(f.uncertainty).toMatchObject({ U_pct: null, n_rw: 0, more_rw_needed: 20 });
   });
 
+  it('prints the figures in words: per qc level for the plasma method, the lcs and matrix spike route for surface water', () => {
+    const r = runCli(['figures', '--history', history, '--until', '2026-10-31']);
+    expect(r.code).toBe(0);
+    const block = (head: string) => r.stdout.slice(r.stdout.indexOf(head)).split('\n\n')[0]!;
+    const ami = block('plasma-amitriptyline, Amitriptyline (ng/mL)');
+    expect(ami).toContain('Measurement uncertainty (Nordtest TR 537), per qc level (no lcs or matrix spikes recorded); u(Cref) 0 %');
+    expect(ami).not.toContain('more lcs recoveries');
+    expect(ami).toMatch(/qc level lloq: U [\d.]+ % \(k = 2\)/);
+    const quinoline = block('surface-water, Quinoline (ug/L)');
+    expect(quinoline).toMatch(/lcs and matrix spikes: U [\d.]+ % \(k = 2\), u_c [\d.]+ %, u\(Rw\) [\d.]+ % from 30 lcs recoveries, u\(bias\) [\d.]+ % from 60 ms and msd recoveries/);
+    expect(quinoline).toMatch(/MDL [\d.]+ ug\/L, the larger of MDL_s [\d.]+ from 15 mdl spikes and MDL_b [\d.]+ from 30 blanks \(every blank numerical/);
+  });
+
   it('makes the same worklists every time (a fixed seed)', () => {
     const again = join(root, 'again');
     const r = spawnSync(process.execPath, [join(ROOT, 'samples/demo-history.mjs'), '--out', again, '--worklists-only'], { encoding: 'utf8' });
