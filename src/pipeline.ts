@@ -152,6 +152,8 @@ export function recalculateTable(
     rowError: table.carried.some((x) => x === 1) ? table.rowError.map((e, r) => e | table.carried[r]!) : table.rowError,
   });
   stageDone(3);
+  // The U of each sample result comes before QC, which formats the reported result (with "± U" where the method asks).
+  const uncertainty = resultsUncertainty(method, { table, computed: evaluated.columns, surrogate, fromHistory: ctx.uncertainty });
   const qc = assessQc({
     method,
     rowCount: table.rowCount,
@@ -166,6 +168,7 @@ export function recalculateTable(
     nondetect: table.nondetect,
     nondetectLimit: table.nondetectLimit,
     inHouse: ctx.inHouse,
+    expandedUncertainty: uncertainty?.expanded,
   });
   stageDone(4);
   const flags = atSpreadsheetRows([...table.errors, ...qc.flags].sort((a, b) => a.row - b.row), raw.rowNumbers);
@@ -201,7 +204,7 @@ export function recalculateTable(
     verdict: overall,
     rowsIn: raw.rowCount,
     rowsOut: table.rowCount,
-    uncertainty: resultsUncertainty(method, { table, computed: evaluated.columns, surrogate, fromHistory: ctx.uncertainty }),
+    uncertainty,
   };
 }
 
