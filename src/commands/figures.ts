@@ -84,7 +84,7 @@ export function describeEntry(e: FigureEntry): string {
   } else {
     lines.push(`  Measurement uncertainty (Nordtest TR 537), lcs and matrix spikes: ${describeU(e.uncertainty, 'lcs recoveries', 'ms and msd recoveries')}; ${cref}`);
   }
-  for (const l of e.levels) lines.push(`  qc level ${l.level || '(none)'}: ${describeU(l.uncertainty, `recoveries at ${l.level || 'no level'}`, 'the same recoveries (their mean)')}`);
+  for (const l of e.levels) lines.push(`  qc level ${l.level || '(none)'}: ${describeU(l.uncertainty, `recoveries at ${l.level || 'no level'}`, 'of the same recoveries (their mean against 100 %)')}`);
   if (e.fixedExpandedPct !== undefined) lines.push(`  The method states a fixed U of ${fmt(e.fixedExpandedPct)} % (k = 2); results carry that one`);
   const m = e.mdl;
   if (Number.isFinite(m.mdl)) {
@@ -113,6 +113,13 @@ function describeU(u: Uncertainty, rwWhat: string, biasWhat: string): string {
     parts.push('no U yet');
   }
   parts.push(Number.isFinite(u.uRwPct) ? `u(Rw) ${fmt(u.uRwPct)} % from ${u.nRw} ${rwWhat}` : `u(Rw) needs ${u.moreRw} more ${rwWhat} (${u.nRw} recorded)`);
-  parts.push(Number.isFinite(u.uBiasPct) ? `u(bias) ${fmt(u.uBiasPct)} % from ${u.nBias} ${biasWhat}` : `u(bias) needs ${u.moreBias} more ${biasWhat} (${u.nBias} recorded)`);
+  const sameRecoveries = biasWhat.startsWith('of the same');
+  parts.push(
+    Number.isFinite(u.uBiasPct)
+      ? sameRecoveries
+        ? `u(bias) ${fmt(u.uBiasPct)} % from the mean of those ${u.nBias}`
+        : `u(bias) ${fmt(u.uBiasPct)} % from ${u.nBias} ${biasWhat}`
+      : `u(bias) needs ${u.moreBias} more ${sameRecoveries ? 'recoveries' : biasWhat} (${u.nBias} recorded)`,
+  );
   return parts.join(', ');
 }

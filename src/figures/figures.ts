@@ -16,6 +16,7 @@
  * of the method the history recorded with its latest run in the period; a history
  * written before schema version 3 holds no method text, and the defaults apply.
  */
+import { compareLevels } from '../domain/fields.js';
 import { parseMethod } from '../method/load.js';
 import type { Method } from '../domain/method.js';
 import type { HistoryRow } from '../history/records.js';
@@ -152,7 +153,8 @@ export function figuresOf(method: string, analyte: string, rows: readonly Histor
     if (list) list.push(r.recoveryPct);
     else byLevel.set(level, [r.recoveryPct]);
   }
-  const levels = [...byLevel.entries()].sort(([x], [y]) => cmp(x, y)).map(([level, xs]) => ({ level, uncertainty: uncertaintyOfLevel(xs, options) }));
+  // Levels in concentration order (lloq, low, mid, high), as every other output lists them.
+  const levels = [...byLevel.entries()].sort(([x], [y]) => compareLevels(x, y)).map(([level, xs]) => ({ level, uncertainty: uncertaintyOfLevel(xs, options) }));
 
   // Detection limit: results with their unit; a row without a kept result (before version 3) is counted apart.
   const spikes: number[] = [];

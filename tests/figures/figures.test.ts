@@ -110,11 +110,11 @@ describe('which points count', () => {
     ];
     const [e] = computeFigures(rows, new Map([['lab-method', { ...settingsOf(undefined, 'defaults'), minPointsRw: 2, minPointsBias: 2 }]]));
     expect(e!.levels.map((l) => [l.level, l.uncertainty.nRw])).toEqual([
-      ['high', 2],
       ['low', 3],
+      ['high', 2],
     ]);
     // high: mean 92 → bias 8; s² = 8, (s/√n)² = 4 → u(bias) = √(64 + 4) (hand)
-    expect(e!.levels[0]!.uncertainty.uBiasPct).toBeCloseTo(Math.sqrt(68), 12);
+    expect(e!.levels[1]!.uncertainty.uBiasPct).toBeCloseTo(Math.sqrt(68), 12);
   });
 
   it('leaves out blanks recorded before schema version 3 (their result is unknown) and says how many', () => {
