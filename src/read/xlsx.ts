@@ -46,6 +46,7 @@ import {
   serialToIso,
   type SharedStrings,
 } from './xlsx-workbook.js';
+import { SheetCellEvents } from './xlsx-sheet-events.js';
 import { checkZip } from './zip-guard.js';
 
 export interface XlsxReadOptions {
@@ -136,25 +137,13 @@ interface CellRead {
 }
 
 /** The sheet's XML events → header, then data rows straight into columns. */
-class SheetReader {
-  private inSheetData = false;
+class SheetReader extends SheetCellEvents {
   // The row being read.
   private rowNumber = 0;
   private cells: CellRead[] = [];
   private lastColumn = -1;
   // The cell being read.
-  private inCell = false;
-  private cellRef: string | undefined;
-  private cellType = '';
-  private cellStyle = 0;
-  private value: string | null = null;
-  private inlineText: string | null = null;
-  private formula: string | null = null;
   private sharedFormulaFrom: string | undefined;
-  /** Where text goes: 0 nowhere, 1 `<v>`, 2 an inline string's `<t>`, 3 `<f>`. */
-  private capture = 0;
-  private phonetic = 0;
-  private inInline = false;
   /** The first cell of each shared formula, by its group index (for messages). */
   private readonly sharedFormulas = new Map<string, string>();
   /** The last row the sheet's `<dimension>` states (0 when none): a hint for sizing the columns. */
@@ -170,92 +159,12 @@ class SheetReader {
     private readonly path: string,
     private readonly sheet: string,
     private readonly ctx: SheetContext,
-  ) {}
-
-  open(name: string, a: Record<string, string>, selfClosing: boolean): void {
-    if (!this.inSheetData) {
-      if (name === 'sheetData') this.inSheetData = !selfClosing;
-      else if (name === 'dimension' && a.ref !== undefined) this.lastRowStated = parseCellRef(a.ref.slice(a.ref.indexOf(':') + 1))?.row ?? 0;
-      return;
-    }
-    switch (name) {
-      case 'row':
-        this.startRow(a.r);
-        if (selfClosing) this.endRow();
-        break;
-      case 'c':
-        this.inCell = true;
-        this.cellRef = a.r;
-        this.cellType = a.t ?? 'n';
-        this.cellStyle = a.s === undefined ? 0 : Number(a.s);
-        this.value = null;
-        this.inlineText = null;
-        this.formula = null;
-        this.sharedFormulaFrom = undefined;
-        if (selfClosing) this.endCell();
-        break;
-      case 'v':
-        if (this.inCell) {
-          this.value = '';
-          this.capture = selfClosing ? 0 : 1;
-        }
-        break;
-      case 'f':
-        if (this.inCell) {
-          this.formula = '';
-          if (a.t === 'shared' && a.si !== undefined) {
-            const first = this.sharedFormulas.get(a.si);
-            if (first === undefined && a.ref !== undefined) this.sharedFormulas.set(a.si, this.ref());
-            else this.sharedFormulaFrom = first;
-          }
-          this.capture = selfClosing ? 0 : 3;
-        }
-        break;
-      case 'is':
-        if (this.inCell) {
-          this.inInline = !selfClosing;
-          this.inlineText = '';
-        }
-        break;
-      case 'rPh':
-        if (!selfClosing) this.phonetic++;
-        break;
-      case 't':
-        if (this.inInline && this.phonetic === 0 && !selfClosing) this.capture = 2;
-        break;
-    }
+  ) {
+    super();
   }
 
-  close(name: string): void {
-    if (!this.inSheetData) return;
-    switch (name) {
-      case 'sheetData':
-        this.inSheetData = false;
-        break;
-      case 'row':
-        this.endRow();
-        break;
-      case 'c':
-        this.endCell();
-        break;
-      case 'v':
-      case 'f':
-      case 't':
-        this.capture = 0;
-        break;
-      case 'is':
-        this.inInline = false;
-        break;
-      case 'rPh':
-        this.phonetic--;
-        break;
-    }
-  }
-
-  text(text: string): void {
-    if (this.capture === 1) this.value += text;
-    else if (this.capture === 2) this.inlineText += text;
-    else if (this.capture === 3) this.formula += text;
+  protected override beforeSheetData(name: string, a: Record<string, string>): void {
+    if (name === 'dimension' && a.ref !== undefined) this.lastRowStated = parseCellRef(a.ref.slice(a.ref.indexOf(':') + 1))?.row ?? 0;
   }
 
   /** A stop at a place in the sheet: the row goes in the location (printed as "file, row N: …"). */
@@ -263,7 +172,7 @@ class SheetReader {
     return new StopError('input', `sheet "${this.sheet}": ${text}`, row === undefined ? { file: this.path } : { file: this.path, line: row });
   }
 
-  private startRow(r: string | undefined): void {
+  protected startRow(r: string | undefined): void {
     let n: number;
     if (r === undefined) n = this.rowNumber + 1;
     else {
@@ -284,10 +193,14 @@ class SheetReader {
     return this.cellRef ?? `${columnLetters(this.lastColumn + 2)}${this.rowNumber}`;
   }
 
-  private endCell(): void {
-    if (!this.inCell) return;
-    this.inCell = false;
-    this.capture = 0;
+  protected endCell(): void {
+    // A shared formula's group: the cell that states it, or where the group's formula was first stated (for messages).
+    if (this.sharedFormula) {
+      const { si, ref } = this.sharedFormula;
+      const first = this.sharedFormulas.get(si);
+      if (first === undefined && ref !== undefined) this.sharedFormulas.set(si, this.ref());
+      else this.sharedFormulaFrom = first;
+    } else this.sharedFormulaFrom = undefined;
     let column: number;
     if (this.cellRef === undefined) column = this.lastColumn + 1;
     else {
@@ -366,7 +279,7 @@ class SheetReader {
     }
   }
 
-  private endRow(): void {
+  protected endRow(): void {
     const cells = this.cells;
     const r = this.rowNumber;
     if (this.headers === null) {

@@ -16,6 +16,7 @@ import { decodeEscapes, isoCellText, readDateStyles, readSharedStrings, readWork
 import { checkZip } from '../read/zip-guard.js';
 import type { CellValue } from '../write/workbook/cells.js';
 import { columnNumber, shiftFormula } from './shared-formula.js';
+import { SheetCellEvents } from '../read/xlsx-sheet-events.js';
 
 export interface StoredCell {
   /** The value; for a formula cell its cached result (null when none was saved). */
@@ -80,24 +81,12 @@ export async function readStoredWorkbook(path: string, options: { maxUnpackedByt
 }
 
 /** A sheet's XML events → its cells by row and column. */
-class CellsReader {
+class CellsReader extends SheetCellEvents {
   readonly rows = new Map<number, Map<number, StoredCell>>();
-  private inSheetData = false;
   private rowNumber = 0;
   private column = 0;
   private cells = new Map<number, StoredCell>();
-  private inCell = false;
   private ref: { row: number; column: number } = { row: 0, column: 0 };
-  private type = 'n';
-  private style = 0;
-  private value: string | null = null;
-  private inline: string | null = null;
-  private formula: string | null = null;
-  private sharedIndex: string | undefined;
-  /** Where text goes: 0 nowhere, 1 `<v>`, 2 an inline string's `<t>`, 3 `<f>`. */
-  private capture = 0;
-  private phonetic = 0;
-  private inInline = false;
   /** Shared formulas by group index: the first cell's formula and place. */
   private readonly shared = new Map<string, { formula: string; row: number; column: number }>();
 
@@ -108,94 +97,20 @@ class CellsReader {
     private readonly book: { strings: SharedStrings | undefined; dates: { styles: boolean[]; date1904: boolean } },
     private readonly damaged: (text: string) => StopError,
   ) {
+    super();
     this.strings = book.strings;
   }
 
-  open(name: string, a: Record<string, string>, selfClosing: boolean): void {
-    if (!this.inSheetData) {
-      if (name === 'sheetData') this.inSheetData = !selfClosing;
-      return;
-    }
-    switch (name) {
-      case 'row': {
-        const r = a.r === undefined ? this.rowNumber + 1 : Number(a.r);
-        if (!Number.isInteger(r) || r < 1) throw this.damaged(`a row is numbered "${a.r}"; expected a row number from 1`);
-        this.rowNumber = r;
-        this.column = 0;
-        this.cells = this.rows.get(r) ?? new Map();
-        if (selfClosing) this.endRow();
-        break;
-      }
-      case 'c': {
-        this.inCell = true;
-        this.ref = a.r === undefined ? { row: this.rowNumber, column: this.column + 1 } : this.parseRef(a.r);
-        this.type = a.t ?? 'n';
-        this.style = a.s === undefined ? 0 : Number(a.s);
-        this.value = null;
-        this.inline = null;
-        this.formula = null;
-        this.sharedIndex = undefined;
-        if (selfClosing) this.endCell();
-        break;
-      }
-      case 'v':
-        if (this.inCell) {
-          this.value = '';
-          this.capture = selfClosing ? 0 : 1;
-        }
-        break;
-      case 'f':
-        if (this.inCell) {
-          this.formula = '';
-          if (a.t === 'shared' && a.si !== undefined) this.sharedIndex = a.si;
-          this.capture = selfClosing ? 0 : 3;
-        }
-        break;
-      case 'is':
-        if (this.inCell) {
-          this.inInline = !selfClosing;
-          this.inline = '';
-        }
-        break;
-      case 'rPh':
-        if (!selfClosing) this.phonetic++;
-        break;
-      case 't':
-        if (this.inInline && this.phonetic === 0 && !selfClosing) this.capture = 2;
-        break;
-    }
+  protected startRow(text: string | undefined): void {
+    const r = text === undefined ? this.rowNumber + 1 : Number(text);
+    if (!Number.isInteger(r) || r < 1) throw this.damaged(`a row is numbered "${text}"; expected a row number from 1`);
+    this.rowNumber = r;
+    this.column = 0;
+    this.cells = this.rows.get(r) ?? new Map();
   }
 
-  close(name: string): void {
-    if (!this.inSheetData) return;
-    switch (name) {
-      case 'sheetData':
-        this.inSheetData = false;
-        break;
-      case 'row':
-        this.endRow();
-        break;
-      case 'c':
-        this.endCell();
-        break;
-      case 'v':
-      case 'f':
-      case 't':
-        this.capture = 0;
-        break;
-      case 'is':
-        this.inInline = false;
-        break;
-      case 'rPh':
-        this.phonetic--;
-        break;
-    }
-  }
-
-  text(text: string): void {
-    if (this.capture === 1) this.value += text;
-    else if (this.capture === 2) this.inline += text;
-    else if (this.capture === 3) this.formula += text;
+  protected override startCell(): void {
+    this.ref = this.cellRef === undefined ? { row: this.rowNumber, column: this.column + 1 } : this.parseRef(this.cellRef);
   }
 
   private parseRef(ref: string): { row: number; column: number } {
@@ -204,38 +119,36 @@ class CellsReader {
     return { column: columnNumber(m[1]!), row: Number(m[2]) };
   }
 
-  private endRow(): void {
+  protected endRow(): void {
     if (this.cells.size > 0) this.rows.set(this.rowNumber, this.cells);
     this.cells = new Map();
   }
 
-  private endCell(): void {
-    if (!this.inCell) return;
-    this.inCell = false;
-    this.capture = 0;
+  protected endCell(): void {
     const { row, column } = this.ref;
     this.column = column;
     let formula = this.formula ?? undefined;
-    if (this.sharedIndex !== undefined) {
-      const first = this.shared.get(this.sharedIndex);
-      if (formula !== undefined && formula !== '') this.shared.set(this.sharedIndex, { formula, row, column });
+    const sharedIndex = this.sharedFormula?.si;
+    if (sharedIndex !== undefined) {
+      const first = this.shared.get(sharedIndex);
+      if (formula !== undefined && formula !== '') this.shared.set(sharedIndex, { formula, row, column });
       else if (first !== undefined) {
         formula = shiftFormula(first.formula, row - first.row, column - first.column);
         if (formula === undefined) throw this.damaged(`the formula shared into cell ${this.refText()} reaches past the sheet's edge`);
-      } else throw this.damaged(`cell ${this.refText()} shares formula ${this.sharedIndex}, which no earlier cell states`);
+      } else throw this.damaged(`cell ${this.refText()} shares formula ${sharedIndex}, which no earlier cell states`);
     }
     const v = this.value;
     if (formula !== undefined) {
       // A formula's result is missing when there is no <v>, or an empty one that is not a text result.
-      const noCachedValue = v === null || (v === '' && this.type !== 'str');
+      const noCachedValue = v === null || (v === '' && this.cellType !== 'str');
       const cell: StoredCell = noCachedValue ? { value: null, formula, noCachedValue } : { value: this.plain(v), formula };
       this.cells.set(column, cell);
       return;
     }
-    const value = this.type === 'inlineStr' ? decodeEscapes(this.inline ?? v ?? '') : v === null ? null : this.plain(v);
+    const value = this.cellType === 'inlineStr' ? decodeEscapes(this.inlineText ?? v ?? '') : v === null ? null : this.plain(v);
     if (value === null || value === '') return;
     // Styles are not content; a date style only says how to show a number typed as a date (the sign-off).
-    const date = typeof value === 'number' && this.book.dates.styles[this.style] ? serialToIso(value, this.book.dates.date1904) : undefined;
+    const date = typeof value === 'number' && this.book.dates.styles[this.cellStyle] ? serialToIso(value, this.book.dates.date1904) : undefined;
     this.cells.set(column, date === undefined ? { value } : { value, date });
   }
 
@@ -247,7 +160,7 @@ class CellsReader {
 
   /** A `<v>` as its type says: numbers as numbers, TRUE/FALSE, shared strings looked up, everything else as text. */
   private plain(v: string): CellValue {
-    switch (this.type) {
+    switch (this.cellType) {
       case 'n': {
         if (v.trim() === '') return null;
         const n = Number(v);
