@@ -22,6 +22,7 @@ import { once } from 'node:events';
 import { finished } from 'node:stream/promises';
 import { pathToFileURL } from 'node:url';
 import { CANONICAL_FIELDS } from '../dist/domain/fields.js';
+import { mulberry32 } from '../samples/seeded-random.mjs';
 
 // Every canonical field but log_k and istd_response (from the build: the bench runs the built CLI anyway; the
 // floor computes no internal-standard judgement, and the bench worklist keeps its shape), then two free-text
@@ -49,18 +50,6 @@ const POSITIONS = [
 ];
 export const ROWS_PER_BATCH = POSITIONS.length * ANALYTES.length;
 
-/** mulberry32: small, fast, deterministic. */
-function prng(seed) {
-  let a = seed >>> 0;
-  return () => {
-    a = (a + 0x6d2b79f5) >>> 0;
-    let t = a;
-    t = Math.imul(t ^ (t >>> 15), t | 1);
-    t ^= t + Math.imul(t ^ (t >>> 7), t | 61);
-    return ((t ^ (t >>> 14)) >>> 0) / 4294967296;
-  };
-}
-
 /** Four significant figures, as an instrument export shows them. */
 function sig4(x) {
   return Number(x.toPrecision(4)).toString();
@@ -77,7 +66,7 @@ function efficiency(a, vAq, vOrg, n) {
  * cut short when `rows` is not a multiple of ROWS_PER_BATCH.
  */
 export function* worklistLines(rows, options = {}) {
-  const rand = prng(options.seed ?? 20261101);
+  const rand = mulberry32(options.seed ?? 20261101);
   yield HEADERS.join(',');
   let written = 0;
   for (let b = 1; written < rows; b++) {

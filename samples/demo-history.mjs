@@ -34,6 +34,7 @@ import { spawnSync } from 'node:child_process';
 import { existsSync, mkdirSync, rmSync, writeFileSync } from 'node:fs';
 import { dirname, join, relative, resolve } from 'node:path';
 import { fileURLToPath } from 'node:url';
+import { mulberry32 } from './seeded-random.mjs';
 
 const ROOT = resolve(dirname(fileURLToPath(import.meta.url)), '..');
 const MARKER = '.phasebook-demo-history';
@@ -42,18 +43,6 @@ const RUNS = 30;
 const WEEK = 7 * 86_400_000;
 /** The end of the figures' period: after the last recorded run, before the later demo runs. */
 export const FIGURES_UNTIL = '2026-10-31';
-
-/** mulberry32: a small seeded generator, so that the invented numbers are the same every time. */
-function uniform(seed) {
-  let a = seed >>> 0;
-  return () => {
-    a = (a + 0x6d2b79f5) >>> 0;
-    let t = a;
-    t = Math.imul(t ^ (t >>> 15), t | 1);
-    t ^= t + Math.imul(t ^ (t >>> 7), t | 61);
-    return ((t ^ (t >>> 14)) >>> 0) / 4294967296;
-  };
-}
 
 /** Normal draws by the Box–Muller transform over the seeded uniform generator. */
 function normal(rand) {
@@ -147,8 +136,8 @@ function plasmaWorklist(i, rand) {
 
 /** Every invented run, in the order it is recorded: worklist name and text, method, run time. */
 export function demoRuns() {
-  const water = uniform(SEED);
-  const plasma = uniform(SEED + 1);
+  const water = mulberry32(SEED);
+  const plasma = mulberry32(SEED + 1);
   const runs = [];
   for (let i = 1; i <= RUNS; i++) {
     runs.push({ ...waterWorklist(i, water), method: 'templates/surface-water.yaml', time: new Date(Date.UTC(2026, 2, 2, 14) + (i - 1) * WEEK).toISOString() });

@@ -13,22 +13,12 @@ import { join, resolve } from 'node:path';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import ExcelJS from 'exceljs';
 import { runCli, tempDir } from '../helpers/cli.js';
+import { mulberry32 } from '../../samples/seeded-random.mjs';
 
 let root: string;
 let history: string;
 const BATCHES = 30;
 
-/** A small seeded generator (mulberry32), so the invented data are the same every run. */
-function random(seed: number): () => number {
-  let a = seed >>> 0;
-  return () => {
-    a = (a + 0x6d2b79f5) >>> 0;
-    let t = a;
-    t = Math.imul(t ^ (t >>> 15), t | 1);
-    t ^= t + Math.imul(t ^ (t >>> 7), t | 61);
-    return ((t ^ (t >>> 14)) >>> 0) / 4294967296;
-  };
-}
 const round = (x: number, digits: number) => Number(x.toFixed(digits));
 
 interface Invented {
@@ -87,7 +77,7 @@ beforeAll(() => {
   history = join(root, 'qc.sqlite');
   const method = join(root, 'lab-lle.yaml');
   writeFileSync(method, METHOD_TEXT);
-  const rand = random(20261204);
+  const rand = mulberry32(20261204);
   for (let i = 1; i <= BATCHES; i++) {
     const worklist = join(root, `run-${i}.csv`);
     writeFileSync(worklist, [HEADER, ...batchRows(i, rand)].join('\n') + '\n');

@@ -2,36 +2,14 @@ import { readFileSync } from 'node:fs';
 import { resolve } from 'node:path';
 import { describe, expect, it } from 'vitest';
 import { expandedUncertaintyColumns, uncertaintyFromHistory, uncertaintyTable } from '../../src/figures/expanded.js';
-import type { HistoryRow } from '../../src/history/records.js';
+import { historyRow } from '../helpers/history-rows.js';
 import { parseMethod } from '../../src/method/load.js';
 
 const GENERIC = readFileSync(resolve('templates/generic-lle.yaml'), 'utf8');
 const method = (extra = '') => parseMethod(`${GENERIC}\n${extra}`, { file: 'm.yaml' });
 
-function row(p: Partial<HistoryRow> & Pick<HistoryRow, 'sampleType' | 'analyte'>): HistoryRow {
-  return {
-    runId: 1,
-    runTime: '2026-06-01T10:00:00.000Z',
-    worklistName: 'w.csv',
-    worklistSha256: 'a'.repeat(64),
-    methodName: 'generic-lle',
-    methodSha256: 'b'.repeat(64),
-    concentrationUnit: 'ng/mL',
-    rowNumber: 2,
-    sampleId: 'X',
-    batchId: 'B1',
-    qcLevel: '',
-    recoveryPct: NaN,
-    rpdPct: NaN,
-    status: 'pass',
-    recoveryLow: NaN,
-    recoveryHigh: NaN,
-    flags: '',
-    result: NaN,
-    nondetect: false,
-    ...p,
-  };
-}
+const row = (p: Parameters<typeof historyRow>[0]) =>
+  historyRow({ runTime: '2026-06-01T10:00:00.000Z', methodName: 'generic-lle', concentrationUnit: 'ng/mL', ...p });
 
 describe('the expanded uncertainty a run applies', () => {
   it("takes a method's fixed U over the history's", () => {

@@ -2,36 +2,13 @@ import fc from 'fast-check';
 import { describe, expect, it } from 'vitest';
 import { computeFigures, defaultPeriod, figuresJson, rowsInPeriod, settingsFromHistory, settingsOf } from '../../src/figures/figures.js';
 import type { HistoryRow } from '../../src/history/records.js';
+import { historyRow } from '../helpers/history-rows.js';
 import { parseMethod } from '../../src/method/load.js';
 import type { StopError } from '../../src/errors.js';
 import { readFileSync } from 'node:fs';
 import { resolve } from 'node:path';
 
-/** An invented history row; only what the figures read matters. */
-function row(p: Partial<HistoryRow> & Pick<HistoryRow, 'sampleType' | 'analyte'>): HistoryRow {
-  return {
-    runId: 1,
-    runTime: '2026-03-01T10:00:00.000Z',
-    worklistName: 'w.csv',
-    worklistSha256: 'a'.repeat(64),
-    methodName: 'lab-method',
-    methodSha256: 'b'.repeat(64),
-    concentrationUnit: 'ug/L',
-    rowNumber: 2,
-    sampleId: 'X',
-    batchId: 'B1',
-    qcLevel: '',
-    recoveryPct: NaN,
-    rpdPct: NaN,
-    status: 'pass',
-    recoveryLow: NaN,
-    recoveryHigh: NaN,
-    flags: '',
-    result: NaN,
-    nondetect: false,
-    ...p,
-  };
-}
+const row = historyRow;
 
 const TYPES = ['lcs', 'ms', 'msd', 'qc', 'mdl', 'blank'] as const;
 const arbRow = fc
