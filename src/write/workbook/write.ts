@@ -26,6 +26,7 @@ import enums from 'exceljs/lib/doc/enums.js';
 import { columnLetter, escapeForXlsx, sheetText, type CellValue, type PlannedCell, type PlannedRow, type SheetPlan } from './cells.js';
 import { ColumnChecks, IntegrityDigest } from './digest.js';
 import { printSettings } from './print.js';
+import { FIRST_INPUT_COLUMN } from './results-layout.js';
 import type { WorkbookPlan } from './workbook-plan.js';
 import { styleFor } from './style.js';
 import type { RunInfo } from './options.js';
@@ -171,6 +172,13 @@ async function drained(stream: unknown): Promise<void> {
   else await yieldToEventLoop();
 }
 
+/** The deepest column outline level of a sheet (0: no outline). */
+function outlineOf(plan: SheetPlan): { level: number } {
+  let level = 0;
+  for (const l of plan.outlineLevels ?? []) level = Math.max(level, l);
+  return { level };
+}
+
 async function writeSheet(
   wb: ExcelJS.stream.xlsx.WorkbookWriter,
   plan: SheetPlan,
@@ -180,8 +188,22 @@ async function writeSheet(
   const views: Partial<ExcelJS.WorksheetView>[] = plan.frozen
     ? [{ state: 'frozen', ySplit: plan.frozen.rows, xSplit: plan.frozen.columns ?? 0 }]
     : [];
-  const ws = wb.addWorksheet(plan.name, { views, ...printSettings(plan, { title: options.title }) });
-  ws.columns = plan.widths.map((width) => ({ width }));
+  const outline = outlineOf(plan);
+  const ws = wb.addWorksheet(plan.name, {
+    views,
+    ...printSettings(plan, { title: options.title }),
+    ...(outline.level > 0 ? { properties: { outlineLevelCol: outline.level, outlineProperties: { summaryBelow: true, summaryRight: false } } } : {}),
+  });
+  ws.columns = plan.widths.map((width, i) => {
+    const outlineLevel = plan.outlineLevels?.[i] ?? 0;
+    return outlineLevel > 0 ? { width, outlineLevel } : { width };
+  });
+  // exceljs 4.4 marks every column at the sheet's outline level collapsed (Column.collapsed:
+  // outlineLevel >= properties.outlineLevelCol), which tells a spreadsheet program the group
+  // is folded while its columns show. The sheet's level is already written (sheetFormatPr,
+  // when the sheet was added); the value exceljs keeps is raised past every column's level
+  // so that the columns are written open.
+  if (outline.level > 0) ws.properties.outlineLevelCol = outline.level + 1;
   if (plan.autoFilter) {
     ws.autoFilter = { from: { row: plan.autoFilter.row, column: 1 }, to: { row: plan.autoFilter.row, column: plan.autoFilter.columns } };
   }
@@ -303,7 +325,7 @@ export async function writePlannedWorkbook(
     const digest = new IntegrityDigest({ version: plan.format >= 4 ? 3 : 2 });
     const values: CellValue[] = [];
     const formulas: boolean[] = [];
-    const columnChecks = new ColumnChecks(plan.results.layout.inputCount);
+    const columnChecks = new ColumnChecks(plan.results.layout.inputCount, FIRST_INPUT_COLUMN);
 
     await writeSheet(wb, plan.summary, { budget, rowWriter, title });
     await writeSheet(wb, plan.results.plan, {
