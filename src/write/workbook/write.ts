@@ -28,7 +28,7 @@ import { ColumnChecks, IntegrityDigest } from './digest.js';
 import { printSettings } from './print.js';
 import { FIRST_INPUT_COLUMN } from './results-layout.js';
 import type { WorkbookPlan } from './workbook-plan.js';
-import { styleFor } from './style.js';
+import { styleFor, wrappedRowHeight } from './style.js';
 import type { RunInfo } from './options.js';
 
 /** Text that a plain element would not keep (leading/trailing spaces, line breaks) is marked xml:space="preserve". */
@@ -258,7 +258,8 @@ async function writeSheet(
         sheet._sheetCommentsWriter.addComments(comments);
       }
       if (!xml) continue;
-      const text = `<row r="${r}">${xml}</row>`;
+      const height = wrappedRowHeight(cells, plan.widths);
+      const text = height === undefined ? `<row r="${r}">${xml}</row>` : `<row r="${r}" ht="${height}" customHeight="1">${xml}</row>`;
       // A UTF-16 unit is at most 3 bytes of UTF-8.
       if (used > 0 && used + text.length * 3 > CHUNK) await flush();
       if (text.length * 3 > CHUNK) {
@@ -289,6 +290,8 @@ async function writeSheet(
         budget.left--;
       }
     }
+    const height = wrappedRowHeight(cells, plan.widths);
+    if (height !== undefined) row.height = height;
     row.commit();
     forgetWrittenFormulas(ws);
     if (i % 2000 === 1999) await yieldToEventLoop();
