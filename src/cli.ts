@@ -7,7 +7,7 @@
  * failures or row errors; 2 nothing written.
  */
 import { Command, CommanderError, InvalidArgumentError, Option } from 'commander';
-import { StopError } from './errors.js';
+import { Interrupted, StopError } from './errors.js';
 import { EXIT } from './commands/io.js';
 import { registerTrendsCommand } from './commands/trends.js';
 import { registerFiguresCommand } from './commands/figures.js';
@@ -21,7 +21,7 @@ import { describeFailedControl } from './summary/failures.js';
 import { recalcJson, stopJson } from './commands/recalc-json.js';
 import { STDIN_LABEL, spoolStdin } from './read/stdin.js';
 import { VERSION } from './version.js';
-import { installInterruptCleanup } from './write/atomic.js';
+import { installSignalHandlers } from './cli-signals.js';
 import { CSV_DIALECTS, OUTPUT_KINDS, type CsvDialectChoice, type OutputKind } from './outputs.js';
 import { createProgress, type ProgressLine } from './progress.js';
 import { prepareChartWorker, stopChartWorker } from './report/draw.js';
@@ -153,7 +153,6 @@ async function recalcWithWorker(worklist: string, opts: RecalcCliOptions, label?
 }
 
 async function recalcWithProgress(worklist: string, opts: RecalcCliOptions, progress: ProgressLine | undefined, label?: string): Promise<number> {
-  installInterruptCleanup();
   const outcome = await runRecalc(worklist, {
     method: opts.method,
     out: opts.out,
@@ -244,6 +243,8 @@ export async function main(argv: string[]): Promise<number> {
   };
   process.on('uncaughtException', crash);
   process.on('unhandledRejection', crash);
+  // Every command that writes (recalc, method draft, sign) commits through write/atomic.ts.
+  installSignalHandlers();
   const program = buildProgram({ exit: (c) => (code = c) });
   try {
     await program.parseAsync(argv);
@@ -252,6 +253,10 @@ export async function main(argv: string[]): Promise<number> {
     if (err instanceof CommanderError) {
       // --help and --version end with code 0; usage errors were already printed by commander.
       return err.exitCode === 0 ? EXIT.ok : EXIT.stop;
+    }
+    if (err instanceof Interrupted) {
+      process.stderr.write(`phasebook: ${err.message}\nNothing was written.\n`);
+      return err.exitCode;
     }
     if (err instanceof StopError) {
       process.stderr.write(`phasebook: ${err.describe()}\nNothing was written.\n`);

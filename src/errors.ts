@@ -77,3 +77,14 @@ export function fsReason(err: unknown): string {
       return err instanceof Error ? err.message : String(err);
   }
 }
+
+/**
+ * The run was interrupted (SIGINT, SIGTERM) while its outputs were being put in place: they were put
+ * back as they were, and the command line exits with `exitCode` (128 + the signal number).
+ */
+export class Interrupted extends Error {
+  constructor(readonly exitCode: number) {
+    super('interrupted while the outputs were being put in place; they were put back as they were');
+    this.name = 'Interrupted';
+  }
+}

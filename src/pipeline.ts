@@ -11,6 +11,7 @@ import { mapColumns, type ColumnMap } from './columns/map.js';
 import { buildTable, type WorkTable } from './columns/table.js';
 import { findLinks, type Links } from './engine/links.js';
 import { compileMethod, evaluateFormulas } from './engine/evaluate.js';
+import { parseNumberCell } from './columns/numbers.js';
 import { FLAG_CODES, type Flag, type ResultFlag, type ResultNote, type SpreadsheetRow } from './issues.js';
 import { loadMethod } from './method/load.js';
 import type { OnProgress } from './progress.js';
@@ -49,6 +50,17 @@ export interface WorklistInfo {
 export interface RecalcResult {
   worklist: WorklistInfo;
   method: Method;
+  /**
+   * The method's formulas as compiled once (engine/evaluate.ts): what each reads, and its parsed tree, which
+   * the workbook translates into spreadsheet formulas. The tree is opaque here so that the public types
+   * carry no parser's types.
+   */
+  compiled: { formulas: ReadonlyArray<{ name: string; dependencies: readonly string[]; node: unknown }> };
+  /**
+   * How a text cell of this worklist reads as a number (the file's one number format), or undefined when it
+   * does not: the workbook stores a CSV's numeric cells as numbers by it, without reading the file again.
+   */
+  readNumber(text: string): number | undefined;
   /** The worklist verbatim. */
   raw: RawTable;
   columnMap: ColumnMap;
@@ -140,6 +152,8 @@ export function recalculateTable(
     rowError: table.carried.some((x) => x === 1) ? table.rowError.map((e, r) => e | table.carried[r]!) : table.rowError,
   });
   stageDone(3);
+  // The U of each sample result comes before QC, which formats the reported result (with "± U" where the method asks).
+  const uncertainty = resultsUncertainty(method, { table, computed: evaluated.columns, surrogate, fromHistory: ctx.uncertainty });
   const qc = assessQc({
     method,
     rowCount: table.rowCount,
@@ -154,6 +168,7 @@ export function recalculateTable(
     nondetect: table.nondetect,
     nondetectLimit: table.nondetectLimit,
     inHouse: ctx.inHouse,
+    expandedUncertainty: uncertainty?.expanded,
   });
   stageDone(4);
   const flags = atSpreadsheetRows([...table.errors, ...qc.flags].sort((a, b) => a.row - b.row), raw.rowNumbers);
@@ -171,6 +186,11 @@ export function recalculateTable(
   return {
     worklist: ctx.worklist,
     method,
+    compiled,
+    readNumber: (text) => {
+      const parsed = parseNumberCell(text, table.numberFormat);
+      return parsed.ok && Number.isFinite(parsed.value) ? parsed.value : undefined;
+    },
     raw,
     columnMap,
     table,
@@ -184,7 +204,7 @@ export function recalculateTable(
     verdict: overall,
     rowsIn: raw.rowCount,
     rowsOut: table.rowCount,
-    uncertainty: resultsUncertainty(method, { table, computed: evaluated.columns, surrogate, fromHistory: ctx.uncertainty }),
+    uncertainty,
   };
 }
 

@@ -1,3 +1,4 @@
+import { FILL_ORDER, fallbacksOf } from '../domain/fallbacks.js';
 import { parseAcidBase, type AcidBase } from '../chemistry/partition.js';
 import { rowMessage, type Flag, type Note } from '../issues.js';
 import type { AnalyteInfo, Method } from '../domain/method.js';
@@ -41,6 +42,11 @@ export interface WorkTable {
   nondetect: Uint8Array;
   /** A non-detect's stated limit (`< 0.5`), in the method's concentration unit; NaN when none is stated. */
   nondetectLimit: Float64Array;
+  /**
+   * Per field whose unit converts through the analyte's molar mass (ng/mL ↔ nmol/L), the factor used for
+   * each analyte (by its index in method.analytes): the workbook's as-used formulas repeat exactly it.
+   */
+  molarFactors: Map<CanonicalField, Map<number, number>>;
   errors: Flag[];
   notes: Note[];
 }
@@ -158,6 +164,7 @@ export function buildTable(raw: RawTable, map: ColumnMap, method: Method): WorkT
   // Numeric fields.
   const numbers = new Map<string, Float64Array>();
   const sources = new Map<string, Uint8Array>();
+  const molarFactors = new Map<CanonicalField, Map<number, number>>();
   for (const spec of FIELD_SPECS.values()) {
     if (spec.kind !== 'number') continue;
     const values = new Float64Array(n).fill(NaN);
@@ -165,63 +172,30 @@ export function buildTable(raw: RawTable, map: ColumnMap, method: Method): WorkT
     const src = map.fields.get(spec.name);
     if (src) {
       const results = spec.name === 'extract_conc' ? { reader: nonDetects, rows: nondetect, limits: nondetectLimit, flags: errors } : undefined;
-      readNumbers(raw, src, values, source, { analyteIndex, method, fail, numberFormat, nonDetects: results });
+      const factors = readNumbers(raw, src, values, source, { analyteIndex, method, fail, numberFormat, nonDetects: results });
+      if (factors.size > 0) molarFactors.set(spec.name, factors);
     }
     numbers.set(spec.name, values);
     sources.set(spec.name, source);
   }
 
-  // Defaults and method data, then per-row checks that need several fields.
-  // Columns and the method's defaults are looked up once here, not per row.
+  // Empty numeric cells filled by each field's chain (domain/fallbacks.ts: the workbook's as-used
+  // formulas follow the same chain), then per-row checks that need several fields.
   const get = (f: CanonicalField) => numbers.get(f)!;
-  const column = (f: CanonicalField) => ({ values: numbers.get(f)!, source: sources.get(f)! });
-  const fill = (c: { values: Float64Array; source: Uint8Array }, r: number, value: number | undefined) => {
-    if (value === undefined || Number.isNaN(value) || !Number.isNaN(c.values[r]!)) return;
-    c.values[r] = value;
-    c.source[r] = ValueSource.Default;
-  };
+  fillFallbacks({ n, numbers, sources, analyteIndex, method });
   const cols = {
-    extractions: column('extractions'),
-    dilution: column('dilution'),
-    sampleVolume: column('sample_volume'),
-    solventVolume: column('solvent_volume'),
-    k: column('partition_coeff'),
-    pka: column('pka'),
-    ph: column('ph'),
-    rl: column('reporting_limit'),
-    finalVolume: column('final_volume'),
+    k: get('partition_coeff'),
+    pka: get('pka'),
+    ph: get('ph'),
   };
-  const logKs = get('log_k');
   const spikes = get('spike_conc');
   const required = (['extract_conc', 'sample_volume', 'solvent_volume'] as const).map((f) => [f, get(f)] as const);
   const headerOf = (f: CanonicalField) => map.fields.get(f)?.header ?? f;
-  const defaults = {
-    extractions: numberDefault(method, 'extractions') ?? 1,
-    dilution: numberDefault(method, 'dilution') ?? 1,
-    sampleVolume: numberDefault(method, 'sample_volume'),
-    solventVolume: numberDefault(method, 'solvent_volume'),
-    k: numberDefault(method, 'partition_coeff'),
-    pka: numberDefault(method, 'pka'),
-    ph: numberDefault(method, 'ph'),
-    rl: method.defaults.reporting_limit ?? numberDefault(method, 'reporting_limit'),
-  };
   const acid = texts.get('acid_base')!;
   const acidCanon = new Array<string>(n);
   const abSrc = map.fields.get('acid_base');
   for (let r = 0; r < n; r++) {
     const a: AnalyteInfo | undefined = analyteIndex[r]! >= 0 ? method.analytes[analyteIndex[r]!] : undefined;
-    fill(cols.extractions, r, defaults.extractions);
-    fill(cols.dilution, r, defaults.dilution);
-    fill(cols.sampleVolume, r, defaults.sampleVolume);
-    fill(cols.solventVolume, r, defaults.solventVolume);
-    const logK = logKs[r]!;
-    fill(cols.k, r, Number.isNaN(logK) ? undefined : 10 ** logK);
-    fill(cols.k, r, a?.partition_coeff ?? defaults.k);
-    fill(cols.pka, r, a?.pka ?? defaults.pka);
-    fill(cols.ph, r, a?.ph ?? defaults.ph);
-    fill(cols.rl, r, a?.reporting_limit ?? defaults.rl);
-    fill(cols.finalVolume, r, cols.extractions.values[r]! * cols.solventVolume.values[r]!);
-
     let ab: AcidBase | undefined = parseAcidBase(acid[r]!);
     if (ab === undefined) {
       fail(r, abSrc?.header ?? 'acid_base', 'expected acid, base or neutral', acid[r]);
@@ -231,9 +205,9 @@ export function buildTable(raw: RawTable, map: ColumnMap, method: Method): WorkT
     }
     acidCanon[r] = ab;
     if (rowError[r] || carried[r]) continue;
-    if (ab !== 'neutral' && !Number.isNaN(cols.k.values[r]!)) {
-      if (Number.isNaN(cols.ph.values[r]!)) fail(r, headerOf('ph'), `expected a pH for an ionisable analyte (${ab})`);
-      else if (Number.isNaN(cols.pka.values[r]!)) fail(r, headerOf('pka'), `expected a pKa for an ionisable analyte (${ab})`);
+    if (ab !== 'neutral' && !Number.isNaN(cols.k[r]!)) {
+      if (Number.isNaN(cols.ph[r]!)) fail(r, headerOf('ph'), `expected a pH for an ionisable analyte (${ab})`);
+      else if (Number.isNaN(cols.pka[r]!)) fail(r, headerOf('pka'), `expected a pKa for an ionisable analyte (${ab})`);
     }
     for (const [f, values] of required) {
       // A non-detect is a result: its concentration is empty on purpose.
@@ -250,13 +224,62 @@ export function buildTable(raw: RawTable, map: ColumnMap, method: Method): WorkT
         else fail(r, header, want, String(spike));
       }
     }
-    if (!rowError[r] && Number.isNaN(cols.k.values[r]!)) {
+    if (!rowError[r] && Number.isNaN(cols.k[r]!)) {
       notes.push({ row: r, column: 'extraction_efficiency_pct', message: 'no partition coefficient: extraction efficiency taken as 100 %' });
     }
   }
   texts.set('acid_base', acidCanon);
 
-  return { rowCount: n, numbers, texts, sources, sampleType, analyteIndex, rowError, carried, numberFormat, nondetect, nondetectLimit, errors: sortByRow(errors), notes };
+  return { rowCount: n, numbers, texts, sources, sampleType, analyteIndex, rowError, carried, numberFormat, nondetect, nondetectLimit, molarFactors, errors: sortByRow(errors), notes };
+}
+
+/**
+ * Fill every empty numeric cell by its field's chain (domain/fallbacks.ts), in FILL_ORDER so that a
+ * product reads factors already filled; a filled cell's source is ValueSource.Default.
+ */
+function fillFallbacks(t: { n: number; numbers: Map<string, Float64Array>; sources: Map<string, Uint8Array>; analyteIndex: Int32Array; method: Method }): void {
+  const { n, numbers, sources, analyteIndex, method } = t;
+  const logK = numbers.get('log_k')!;
+  for (const field of FILL_ORDER) {
+    const values = numbers.get(field)!;
+    const source = sources.get(field)!;
+    const chain = fallbacksOf(field);
+    // Each step as a per-row value (NaN: nothing here, try the next).
+    const steps = chain.map((step): ((r: number) => number) | undefined => {
+      switch (step.kind) {
+        case 'ten-to-log-k':
+          return (r) => 10 ** logK[r]!;
+        case 'analyte': {
+          const byAnalyte = method.analytes.map((a) => a[step.key] ?? NaN);
+          if (byAnalyte.every(Number.isNaN)) return undefined;
+          return (r) => (analyteIndex[r]! >= 0 ? byAnalyte[analyteIndex[r]!]! : NaN);
+        }
+        case 'method-reporting-limit': {
+          const v = method.defaults.reporting_limit;
+          return v === undefined ? undefined : () => v;
+        }
+        case 'field-default': {
+          const v = numberDefault(method, field) ?? step.otherwise;
+          return v === undefined ? undefined : () => v;
+        }
+        case 'product': {
+          const [a, b] = [numbers.get(step.of[0])!, numbers.get(step.of[1])!];
+          return (r) => a[r]! * b[r]!;
+        }
+      }
+    }).filter((f): f is (r: number) => number => f !== undefined);
+    if (steps.length === 0) continue;
+    for (let r = 0; r < n; r++) {
+      if (!Number.isNaN(values[r]!)) continue;
+      for (const step of steps) {
+        const v = step(r);
+        if (Number.isNaN(v)) continue;
+        values[r] = v;
+        source[r] = ValueSource.Default;
+        break;
+      }
+    }
+  }
 }
 
 function numberDefault(method: Method, field: CanonicalField): number | undefined {
@@ -277,7 +300,7 @@ function readNumbers(
     /** For the result column: the non-detect words, and where to mark them. */
     nonDetects?: { reader: NonDetectReader; rows: Uint8Array; limits: Float64Array; flags: Flag[] };
   },
-): void {
+): Map<number, number> {
   const cells = raw.columns[src.column]!;
   const check = NUMERIC_CHECKS[src.field];
   const perAnalyte = new Map<number, number | string>();
@@ -350,6 +373,10 @@ function readNumbers(
     values[r] = parsed.value * factor;
     source[r] = ValueSource.Worklist;
   }
+  // The factors used through a molar mass, by analyte (src.factor covers every other conversion).
+  const used = new Map<number, number>();
+  for (const [ai, f] of perAnalyte) if (typeof f === 'number') used.set(ai, f);
+  return used;
 }
 
 function sortByRow<T extends { row: number }>(xs: T[]): T[] {

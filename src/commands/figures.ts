@@ -78,7 +78,12 @@ async function runFigures(opts: FiguresCliOptions): Promise<string> {
 export function describeEntry(e: FigureEntry): string {
   const lines = [`${e.method}, ${e.analyte}${e.unit ? ` (${e.unit})` : ''}`];
   const cref = e.spikeUncertaintyStated ? `u(Cref) ${fmt(e.uncertainty.uCrefPct)} % as the method states` : 'u(Cref) 0 %: the method states no spike_uncertainty_pct';
-  lines.push(`  Measurement uncertainty (Nordtest TR 537), lcs and matrix spikes: ${describeU(e.uncertainty, 'lcs recoveries', 'ms and msd recoveries')}; ${cref}`);
+  if (e.levels.length > 0 && e.uncertainty.nRw === 0 && e.uncertainty.nBias === 0) {
+    // A bioanalytical method: no lcs or matrix spikes at all, so the figures are per qc level.
+    lines.push(`  Measurement uncertainty (Nordtest TR 537), per qc level (no lcs or matrix spikes recorded); ${cref}`);
+  } else {
+    lines.push(`  Measurement uncertainty (Nordtest TR 537), lcs and matrix spikes: ${describeU(e.uncertainty, 'lcs recoveries', 'ms and msd recoveries')}; ${cref}`);
+  }
   for (const l of e.levels) lines.push(`  qc level ${l.level || '(none)'}: ${describeU(l.uncertainty, `recoveries at ${l.level || 'no level'}`, 'the same recoveries (their mean)')}`);
   if (e.fixedExpandedPct !== undefined) lines.push(`  The method states a fixed U of ${fmt(e.fixedExpandedPct)} % (k = 2); results carry that one`);
   const m = e.mdl;

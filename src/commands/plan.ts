@@ -8,12 +8,22 @@
  * - the pH at which the analyte is at least 99 % neutral, beside the common-practice
  *   rule of thumb of 2 pH units past the pKa.
  * The arithmetic is chemistry/extraction-plan.ts; this module reads options and chooses words.
+ *
+ * With `--target-mdl C --history FILE --analyte A` it plans the detection limit instead: the
+ * present MDL from the QC history (figures/) and the sample volume estimated to bring it under
+ * C, where that can be supported (figures/mdl-target.ts). A target U is refused with the reason:
+ * the Nordtest route measures the uncertainty a procedure gives; it offers no way back from a
+ * target to a change of procedure.
  */
 import { significant } from '../format.js';
 import { InvalidArgumentError, Option, type Command } from 'commander';
 import { distributionRatio, neutralFraction } from '../chemistry/partition.js';
 import { efficiencyTable, neutralPh, portionsFor, solventVolumeFor } from '../chemistry/extraction-plan.js';
 import { StopError } from '../errors.js';
+import { readHistoryWithMethods } from '../history/store.js';
+import { computeFigures, rowsInPeriod, settingsFromHistory, type Period } from '../figures/figures.js';
+import { planMdlTarget, SPIKE_TIMES_MDL, type MdlTargetPlan } from '../figures/mdl-target.js';
+import { periodOf } from './figures.js';
 import { EXIT, type CommandIo } from './io.js';
 
 /** The neutral fraction the pH advice aims at. */
@@ -210,6 +220,12 @@ interface PlanCliOptions {
   target: number;
   maxPortions: number;
   json?: boolean;
+  targetMdl?: number;
+  targetU?: number;
+  history?: string;
+  analyte?: string;
+  method?: string;
+  until?: string;
 }
 
 export function registerPlanCommand(program: Command, io: CommandIo): Command {
@@ -229,8 +245,23 @@ export function registerPlanCommand(program: Command, io: CommandIo): Command {
     .addOption(new Option('--target <fraction>', 'fraction to extract, e.g. 0.99 or 99%').argParser(parseTarget).default(0.99, '0.99'))
     .addOption(new Option('--max-portions <n>', 'most portions to tabulate').argParser(number('a whole number')).default(6))
     .option('--json', 'print the plan as JSON')
-    .action((opts: PlanCliOptions) => {
+    .addOption(new Option('--target-mdl <conc>', "a method detection limit to reach, in the method's concentration unit: plans the sample volume from the QC history (with --history and --analyte)").argParser(number('a concentration above 0', (x) => x > 0)))
+    .addOption(new Option('--target-u <pct>', 'an expanded uncertainty to reach, percent (refused: see the message)').argParser(number('a percentage above 0', (x) => x > 0)))
+    .option('--history <file>', 'with --target-mdl: the QC history written by "recalc --history"')
+    .option('--analyte <name>', 'with --target-mdl: the analyte (any case)')
+    .option('--method <name>', 'with --target-mdl: the method, when the history holds the analyte under more than one')
+    .option('--until <date>', 'with --target-mdl: the end of the 24 months the MDL is taken from (default now)')
+    .action(async (opts: PlanCliOptions) => {
       try {
+        if (opts.targetU !== undefined) throw new StopError('usage', TARGET_U_REFUSED);
+        if (opts.targetMdl !== undefined) {
+          const plan = await planFromHistory(opts);
+          stdout(opts.json ? JSON.stringify(plan, (_k, v) => (typeof v === 'number' && !Number.isFinite(v) ? null : v), 2) + '\n' : formatMdlPlan(plan));
+          io.exit(EXIT.ok);
+          return;
+        }
+        const mdlOnly = (['history', 'analyte', 'method', 'until'] as const).find((k) => opts[k] !== undefined);
+        if (mdlOnly) throw new StopError('usage', `--${mdlOnly} belongs to --target-mdl: expected --target-mdl with it`);
         const report = planExtraction({
           k: opts.k,
           logK: opts.logK,
@@ -250,6 +281,66 @@ export function registerPlanCommand(program: Command, io: CommandIo): Command {
         io.exit(EXIT.stop);
       }
     });
+}
+
+/** Why a target U gives no plan, in words (issue 16, point 4: say so where the procedure does not support it). */
+export const TARGET_U_REFUSED =
+  '--target-u: no plan for a target expanded uncertainty: the Nordtest route (TR 537) measures the uncertainty a procedure gives, from its control and matrix spike recoveries; it offers no way back from a target U to a change of sample volume, solvent or pH. Run "phasebook figures" to see which part (u(Rw) or the bias) dominates';
+
+/** The MDL plan: the present figures of one method and analyte from the history, then planMdlTarget. */
+export async function planFromHistory(opts: PlanCliOptions, now: Date = new Date()): Promise<MdlTargetPlan & { history: string; period: Period }> {
+  const extraction = (['k', 'logK', 'pka', 'acid', 'base', 'ph', 'solventVolume'] as const).find((k) => opts[k] !== undefined);
+  if (extraction) throw new StopError('usage', `--target-mdl plans the sample volume from the QC history: expected no extraction options with it, got --${extraction.replace(/[A-Z]/g, (c) => `-${c.toLowerCase()}`)}`);
+  if (opts.history === undefined || opts.analyte === undefined) throw new StopError('usage', '--target-mdl: expected --history FILE and --analyte NAME with it');
+  const period = periodOf({ until: opts.until }, now);
+  const { rows, methods } = await readHistoryWithMethods(opts.history);
+  const inPeriod = rowsInPeriod(rows, period);
+  const entries = computeFigures(inPeriod, settingsFromHistory(inPeriod, methods));
+  const wanted = opts.analyte.trim().toLowerCase();
+  let found = entries.filter((e) => e.analyte.toLowerCase() === wanted);
+  if (found.length === 0) {
+    const names = [...new Set(entries.map((e) => e.analyte))].map((a) => `"${a}"`).join(', ');
+    throw new StopError('usage', `--analyte: expected an analyte the history holds in the 24 months to ${period.until.slice(0, 10)} (${names || 'none'}), got "${opts.analyte}"`);
+  }
+  if (opts.method !== undefined) {
+    const byMethod = found.filter((e) => e.method === opts.method);
+    if (byMethod.length === 0) throw new StopError('usage', `--method: expected one of the methods the history holds "${found[0]!.analyte}" under (${found.map((e) => `"${e.method}"`).join(', ')}), got "${opts.method}"`);
+    found = byMethod;
+  } else if (found.length > 1) {
+    throw new StopError('usage', `--analyte "${opts.analyte}": the history holds it under more than one method (${found.map((e) => `"${e.method}"`).join(', ')}): expected --method`);
+  }
+  const entry = found[0]!;
+  if (!Number.isFinite(entry.mdl.mdl)) {
+    throw new StopError('input', `no present MDL for "${entry.analyte}" (method "${entry.method}") to plan from: ${entry.mdl.reasons.join('; ')}`, { file: opts.history });
+  }
+  return { history: opts.history, period, ...planMdlTarget(entry, { target: opts.targetMdl!, sampleVolume: opts.sampleVolume }) };
+}
+
+export function formatMdlPlan(p: MdlTargetPlan & { history: string; period: Period }): string {
+  const u = p.unit;
+  const out = [
+    `Plan for an MDL of ${fmt(p.target)} ${u}: ${p.analyte}, method ${p.method}, from ${p.history} (runs of ${p.period.since.slice(0, 10)} to ${p.period.until.slice(0, 10)})`,
+    `Present MDL (40 CFR 136 App. B Rev. 2): ${fmt(p.mdl)} ${u}, the larger of MDL_s ${fmt(p.mdlS)} and ${Number.isFinite(p.mdlB) ? `MDL_b ${fmt(p.mdlB)}` : 'MDL_b (does not apply)'}; sample volume now ${fmt(p.sampleVolume)} mL`,
+  ];
+  if (p.outcome === 'met') {
+    out.push(`The present MDL already meets the target: nothing to change.`);
+  } else if (p.outcome === 'not_supported') {
+    out.push(`No sample volume to propose: ${p.reasons.join('; ')}`);
+  } else {
+    out.push(
+      `Estimated: a sample of at least ${fmt(ceilSignificant(p.neededSampleVolume!, 4))} mL brings MDL_s to ${fmt(p.target)} ${u} (MDL_s × ${fmt(p.sampleVolume)} mL / target)`,
+      ...p.assumptions.map((a) => `  assuming ${a}`),
+      `  spike the new determination at ${fmt(p.spikeLevel![0])} to ${fmt(p.spikeLevel![1])} ${u} (${SPIKE_TIMES_MDL[0]} to ${SPIKE_TIMES_MDL[1]} times the estimated MDL, Rev. 2 §2(a))`,
+      'A new sample volume changes the method: 40 CFR 136 App. B Rev. 2 asks for the MDL to be determined again after such a change. This is an estimate to plan that determination, not an MDL.',
+    );
+  }
+  return out.join('\n') + '\n';
+}
+
+/** x rounded up to `sig` significant figures (a volume that must not fall short). */
+function ceilSignificant(x: number, sig: number): number {
+  const scale = 10 ** (Math.floor(Math.log10(x)) - sig + 1);
+  return Math.ceil(x / scale - 1e-9) * scale;
 }
 
 /** A number option; `accept` narrows it, so commander's message names the option and the value. */

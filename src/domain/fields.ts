@@ -97,3 +97,8 @@ export function headerKey(text: string): string {
     .toLowerCase()
     .replace(/[^\p{L}\p{N}]+/gu, '');
 }
+
+/** Columns a formula may read besides the canonical fields and other formulas (their kind, and what they hold). */
+export const DERIVED_COLUMNS: Record<string, { kind: 'number' | 'text'; description: string }> = {
+  surrogate: { kind: 'number', description: '1 when the method marks the analyte as a surrogate, else 0' },
+};

@@ -105,4 +105,6 @@ export interface ReportingOptions {
   rounding: Rounding;
   /** The words for a result above the calibration range. */
   aboveRange: string;
+  /** A sample result that carries an expanded uncertainty reads "x ± U" (qc/reported.ts); default false. */
+  withUncertainty: boolean;
 }

@@ -1,14 +1,11 @@
-import { FIELD_SPECS } from '../domain/fields.js';
+import { DERIVED_COLUMNS, FIELD_SPECS } from '../domain/fields.js';
 import { StopError } from '../errors.js';
 import type { Note } from '../issues.js';
 import type { FormulaDef, Method } from '../domain/method.js';
 import { compileFormula, FormulaError, type CompiledFormula, type EvalContext, type SymbolKind } from './formula.js';
 import { dependencyOrder } from './order.js';
 
-/** Columns a formula may read besides the canonical fields and other formulas. */
-export const DERIVED_COLUMNS: Record<string, { kind: SymbolKind; description: string }> = {
-  surrogate: { kind: 'number', description: '1 when the method marks the analyte as a surrogate, else 0' },
-};
+export { DERIVED_COLUMNS } from '../domain/fields.js';
 
 export interface CompiledMethod {
   /** In the method's (output) order. */

@@ -29,12 +29,14 @@ export const GENERIC_QC: QcOptions = {
 
 /**
  * Reporting: 3 significant figures (common practice), ties rounded half to even
- * (ISO 80000-1:2009 Annex B, from memory), "> range" above the calibration range.
+ * (ISO 80000-1:2009 Annex B, from memory), "> range" above the calibration range,
+ * a result without its expanded uncertainty.
  */
 export const GENERIC_REPORTING: ReportingOptions = {
   significantFigures: 3,
   rounding: 'half-even',
   aboveRange: '> range',
+  withUncertainty: false,
 };
 
 /**

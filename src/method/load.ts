@@ -257,6 +257,7 @@ export function parseMethod(text: string, options: { file: string }): Method {
       significantFigures: raw.reporting?.significant_figures ?? GENERIC_REPORTING.significantFigures,
       rounding: raw.reporting?.rounding ?? GENERIC_REPORTING.rounding,
       aboveRange: raw.reporting?.above_range ?? GENERIC_REPORTING.aboveRange,
+      withUncertainty: raw.reporting?.with_uncertainty ?? GENERIC_REPORTING.withUncertainty,
     },
     calibration: { includesExtraction: raw.calibration?.includes_extraction ?? false },
     figures: {
@@ -377,7 +378,7 @@ interface RawMethod {
     run_rule_per_level?: number;
   };
   internal_standard?: { window?: number[]; reference?: SampleType[] };
-  reporting?: { significant_figures?: number; rounding?: Rounding; above_range?: string };
+  reporting?: { significant_figures?: number; rounding?: Rounding; above_range?: string; with_uncertainty?: boolean };
   calibration?: { includes_extraction?: boolean };
   figures?: { min_points_rw?: number; min_points_bias?: number };
   formulas: Array<{ name: string; expr: string; unit?: string; description?: string }>;

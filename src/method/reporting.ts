@@ -19,6 +19,9 @@ export function reportingSentence(method: Method): string {
   return (
     `reported_result: ${r.significantFigures} significant figures, ties rounded ${roundingWords(method)}, ` +
     'from the value as a spreadsheet keeps it (15 significant digits); "< RL" with the reporting limit for a sample, duplicate or blank below it or not detected; ' +
-    `"${r.aboveRange}" with the dilution that brings the extract into range above the calibration range`
+    `"${r.aboveRange}" with the dilution that brings the extract into range above the calibration range` +
+    (r.withUncertainty
+      ? '; a sample result with an expanded uncertainty reads "x ± U", U to two significant figures and x to the same decimal place (GUM, JCGM 100:2008, 7.2.6)'
+      : '')
   );
 }

@@ -25,6 +25,8 @@ export interface QcInput {
   nondetectLimit?: Float64Array;
   /** In-house limits from the QC history, used when the method asks for them. */
   inHouse?: InHouseLimits;
+  /** The absolute expanded uncertainty of each sample result (figures/expanded.ts; NaN where none), for "x ± U". */
+  expandedUncertainty?: Float64Array;
 }
 
 /**

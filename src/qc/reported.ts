@@ -13,12 +13,15 @@ import { ROW_RULES } from './row-rules.js';
  *   into range ("> range (needs dilution ≥ 3)");
  * - otherwise the pre-extraction concentration rounded to the method's significant
  *   figures, trailing zeros kept ("0.0500", "153", "15200");
+ * - when the method asks for it (`reporting.with_uncertainty`), a result that carries an
+ *   expanded uncertainty U reads "x ± U" (withUncertainty below) instead;
  * - empty where there is no result (input error, calibrator, unknown type).
  * Spiked controls (lcs, ms, qc, surrogates …) report their number even below the
  * RL: their recovery is what is judged (common practice).
  */
 export function reportedResults(ctx: QcContext): string[] {
-  const { significantFigures: sig, rounding, aboveRange } = ctx.method.reporting;
+  const { significantFigures: sig, rounding, aboveRange, withUncertainty: plusMinus } = ctx.method.reporting;
+  const expanded = plusMinus ? ctx.input.expandedUncertainty : undefined;
   const dilution = ctx.input.numbers.get('dilution');
   const out = new Array<string>(ctx.rowCount).fill('');
   for (let r = 0; r < ctx.rowCount; r++) {
@@ -38,7 +41,8 @@ export function reportedResults(ctx: QcContext): string[] {
     } else if (censored && Number.isFinite(rl) && Number.isFinite(x) && x < rl) {
       out[r] = `< ${fmt(rl)}`;
     } else if (Number.isFinite(x)) {
-      out[r] = roundToSignificant(x, sig, rounding);
+      const u = expanded ? expanded[r]! : NaN;
+      out[r] = u > 0 && Number.isFinite(u) ? withUncertainty(x, u, rounding) : roundToSignificant(x, sig, rounding);
     }
   }
   return out;
@@ -58,6 +62,32 @@ export function dilutionToRange(dilution: number, extract: number, top: number):
 }
 
 /**
+ * "x ± U": U rounded to two significant figures, x rounded to the same decimal place
+ * as U (10.05762 with U 0.027 → "10.058 ± 0.027"; 1234.5 with U 153.4 → "1230 ± 150").
+ * GUM (JCGM 100:2008) 7.2.6: an uncertainty is quoted to at most two significant digits,
+ * and the estimate is rounded to be consistent with it (its example: y = 10.057 62 Ω with
+ * u_c = 27 mΩ is given as 10.058 Ω). NIST GLP 9 (NISTIR 6969, 2019) words the same steps:
+ * U to two significant digits, the result to the same decimal places. The GUM allows rounding
+ * U up; phasebook rounds to the nearest, ties as the method says. Both are rounded from their
+ * values at 15 significant digits. U must be finite and above 0.
+ */
+export function withUncertainty(x: number, u: number, rounding: Rounding): string {
+  const mode = roundingMode(rounding);
+  const U = new Decimal(u.toPrecision(15)).toSignificantDigits(2, mode);
+  // The place of U's second significant digit, as a power of ten (after rounding: 0.0996 → 0.10, place −2).
+  const place = U.e - 1;
+  const scale = new Decimal(10).pow(place);
+  let X = new Decimal(x.toPrecision(15)).div(scale).toDecimalPlaces(0, mode).mul(scale);
+  if (X.isZero()) X = new Decimal(0); // no "-0.00"
+  const decimals = Math.max(0, -place);
+  return `${X.toFixed(decimals)} ± ${U.toFixed(decimals)}`;
+}
+
+function roundingMode(rounding: Rounding): Decimal.Rounding {
+  return rounding === 'half-even' ? Decimal.ROUND_HALF_EVEN : Decimal.ROUND_HALF_UP; // decimal.js: HALF_UP is away from zero
+}
+
+/**
  * x rounded to `sig` significant figures, as text with its trailing zeros
  * (0.00461 → "0.00461", 6.19 → "6.19", 2 → "2.00", 15234 → "15200"). The value
  * rounded is x as a spreadsheet keeps it, at 15 significant digits, so that
@@ -67,7 +97,7 @@ export function dilutionToRange(dilution: number, extract: number, top: number):
 export function roundToSignificant(x: number, sig: number, rounding: Rounding): string {
   if (!Number.isFinite(x)) return '';
   if (x === 0) return '0';
-  const mode = rounding === 'half-even' ? Decimal.ROUND_HALF_EVEN : Decimal.ROUND_HALF_UP; // decimal.js: HALF_UP is away from zero
+  const mode = roundingMode(rounding);
   const d = new Decimal(x.toPrecision(15)).toSignificantDigits(sig, mode);
   const exponent = d.e; // the power of ten of the first significant digit
   return exponent >= sig - 1 ? d.toFixed(0) : d.toFixed(sig - 1 - exponent);

@@ -15,7 +15,7 @@ import { randomBytes } from 'node:crypto';
 import { mkdtempSync, rmSync } from 'node:fs';
 import { copyFile, link, lstat, open, readdir, realpath, rename, rm, stat, unlink } from 'node:fs/promises';
 import { basename, dirname, join, resolve } from 'node:path';
-import { StopError, fsReason } from '../errors.js';
+import { Interrupted, StopError, fsReason } from '../errors.js';
 import { pushTo } from '../group.js';
 import { LOCK_NAME, lockFolder, releaseAllLocksSync, type FolderLock } from './folder-lock.js';
 
@@ -250,7 +250,7 @@ async function commitLocked(jobs: readonly WriteJob[], options: AtomicWriteOptio
   }
 
   // 3. Rename into place, keeping a backup of each replaced file until all are in.
-  //    A signal here waits (see onSignal): the set is rolled back, then the process exits.
+  //    A signal here waits (see interruptArrived): the set is rolled back, then commitAll throws Interrupted.
   let done = 0;
   const setAside: { path: string; aside: string }[] = [];
   renaming++;
@@ -317,13 +317,14 @@ async function commitLocked(jobs: readonly WriteJob[], options: AtomicWriteOptio
       }
     }
     await removeAll([...tempFolders.values(), ...backups.filter((b): b is string => b !== null), ...setAside.map((a) => a.aside)]);
+    if (deferredExit !== null) {
+      const code = deferredExit;
+      deferredExit = null;
+      throw new Interrupted(code);
+    }
     throw err;
   } finally {
     renaming--;
-    if (renaming === 0 && deferredExit !== null) {
-      removeLiveTempFiles();
-      process.exit(deferredExit);
-    }
   }
   await removeAll([...tempFolders.values(), ...backups.filter((b): b is string => b !== null), ...setAside.map((a) => a.aside)]);
   await fsyncFolders(targets);
@@ -353,41 +354,29 @@ let deferredExit: number | null = null;
 let outputsInPlace = false;
 let interruptedAfterCommit = false;
 
-/**
- * A signal while outputs are being renamed into place would leave a mix of new
- * and old outputs (and delete the backups of the replaced ones), so it waits:
- * commitAll puts every output back as it was, then exits with the signal's code.
- * After a commit has put every output in place, an interrupt lets the run finish (it
- * has nothing slow left) and says so. At any other time the temp files are removed and
- * the process exits at once.
- */
-const onSignal = (code: number) => () => {
-  if (renaming > 0) {
-    deferredExit = code;
-    return;
-  }
-  if (outputsInPlace && !interruptedAfterCommit) {
-    // The outputs are complete and what is left (recording the history, the summary) takes no
-    // time: the run finishes and exits as a completed run; a second interrupt stops it at once.
-    interruptedAfterCommit = true;
-    process.stderr.write('phasebook: interrupted after the outputs were complete; finishing the run\n');
-    return;
-  }
-  removeLiveTempFiles();
-  process.exit(code);
-};
-const onSigint = onSignal(130);
-const onSigterm = onSignal(143);
+/** What an interrupt may do at this moment (interruptArrived). */
+export type InterruptDecision = 'deferred' | 'finishing' | 'now';
 
 /**
- * Remove live temp files when the process is interrupted (SIGINT, SIGTERM) or
- * exits; after a signal the process exits with 128 + the signal number (130 for
- * SIGINT, 143 for SIGTERM). Safe to call more than once: each handler is added once.
+ * The writer's word on an interrupt (SIGINT, SIGTERM) that just arrived with exit code `code`; the
+ * command line owns the signals and acts on it (cli-signals.ts). This module never exits the process.
+ * - 'deferred': outputs are being renamed into place, and stopping now would leave a mix of new and old
+ *   outputs (and lose the backups of the replaced ones): commitAll puts every output back as it was and
+ *   throws Interrupted(code).
+ * - 'finishing': a commit has put every output in place and what is left (recording the history, the
+ *   summary) takes no time: the run may finish as a completed run. Said once; the next interrupt is 'now'.
+ * - 'now': nothing is half done; remove the live temp files (removeLiveTempFiles) and stop.
  */
-export function installInterruptCleanup(): void {
-  if (!process.listeners('SIGINT').includes(onSigint)) process.on('SIGINT', onSigint);
-  if (!process.listeners('SIGTERM').includes(onSigterm)) process.on('SIGTERM', onSigterm);
-  if (!process.listeners('exit').includes(removeLiveTempFiles)) process.on('exit', removeLiveTempFiles);
+export function interruptArrived(code: number): InterruptDecision {
+  if (renaming > 0) {
+    deferredExit = code;
+    return 'deferred';
+  }
+  if (outputsInPlace && !interruptedAfterCommit) {
+    interruptedAfterCommit = true;
+    return 'finishing';
+  }
+  return 'now';
 }
 
 /**

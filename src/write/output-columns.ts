@@ -65,5 +65,6 @@ export function computedHeader(name: string, unit: string): string {
 export function reportedWithMark(values: readonly string[], method: Method, decimal: '.' | ','): readonly string[] {
   if (decimal === '.') return values;
   const words = method.reporting.aboveRange;
-  return values.map((v) => (v.startsWith(words) ? v : v.replace('.', ',')));
+  // Every mark: "x ± U" holds two numbers.
+  return values.map((v) => (v.startsWith(words) ? v : v.replaceAll('.', ',')));
 }

@@ -77,7 +77,7 @@ describe('describeMethod on the shipped methods', () => {
     // The control types shown are those the lab's codes name.
     expect(water).toContain('control types shown: lcs, lcsd, ms, msd, dup (the types the lab codes name)');
     expect(plasma).toContain('control types shown: qc (the types the lab codes name)');
-    expect(generic).toContain('control types shown: lcs, lcsd, ms, msd, dup, qc\n');
+    expect(generic).toContain('control types shown: lcs, lcsd, ms, msd, dup, qc, mdl\n');
   });
 
   it('shows the qc levels with their own limits (FDA BMV 2018 / ICH M10: ±15 %, ±20 % at the LLOQ)', () => {
@@ -126,6 +126,56 @@ describe('describeMethod on small methods', () => {
     expect(text).toContain('no partition coefficient: from the worklist, else the extraction is taken as complete (E = 100 %)');
     expect(text).toContain('Reporting limit where an analyte names none: 0.5 ng/mL');
     expect(text).toContain('blank: result below the reporting limit 0.5 ng/mL');
+  });
+});
+
+describe("method check shows the mdl limits and the lab's own figures settings (issue 16)", () => {
+  const text = describeText(
+    [
+      'name: figs',
+      'sample_types:',
+      '  MB: blank',
+      '  BS: lcs',
+      '  LLS: mdl',
+      'analytes:',
+      '  Atrazine: { spike_uncertainty_pct: 1.5, limits: { mdl: { recovery: [50, 150] } } }',
+      '  Simazine: { expanded_uncertainty_pct: 18 }',
+      '  Terbutryn-d5: { surrogate: true }',
+      'limits:',
+      '  mdl: { recovery: [40, 160] }',
+      'reporting: { with_uncertainty: true }',
+      'figures: { min_points_rw: 25, min_points_bias: 8 }',
+      'formulas:',
+      '  - { name: x, expr: extract_conc }',
+    ].join('\n'),
+  );
+
+  it('lists mdl among the control types with its limits, analyte over method', () => {
+    expect(text).toContain('control types shown: lcs, mdl (the types the lab codes name)');
+    expect(limitsBlock(text, 'Atrazine')).toMatch(/mdl +recovery 50–150 % +\(recovery from analyte Atrazine mdl\)/);
+    expect(limitsBlock(text, 'Simazine')).toMatch(/mdl +recovery 40–160 % +\(recovery from method mdl\)/);
+  });
+
+  it('shows the mdl type of a method that names no codes but sets mdl limits', () => {
+    const t = describeText(['name: m', 'sample_types:', '  BS: lcs', 'limits:', '  mdl: { recovery: [40, 160] }', 'formulas:', '  - { name: x, expr: extract_conc }'].join('\n'));
+    expect(t).toContain('control types shown: lcs, mdl (the types the lab codes name)');
+  });
+
+  it('gives the points the figures need, u(Cref) and any fixed U per analyte, and how results are reported', () => {
+    const section = text.slice(text.indexOf("The lab's own figures"), text.indexOf('Formula columns'));
+    expect(section).toContain('u(Rw) from 25 lcs recoveries at least (each qc level from as many of its own), the bias from 8 ms and msd recoveries at least');
+    expect(section).toContain('detection limit (40 CFR 136 App. B Rev. 2): from 7 or more mdl rows (low-level spiked blanks) and 7 or more method blanks');
+    expect(section).toContain('reported results: "x ± U" where a sample result carries an expanded uncertainty (reporting.with_uncertainty)');
+    expect(section).toMatch(/Atrazine +u\(Cref\) 1\.5 % +U from the QC history/);
+    expect(section).toMatch(/Simazine +u\(Cref\) 0 % \(no spike_uncertainty_pct\) +fixed U 18 % \(k = 2; expanded_uncertainty_pct\), over any history/);
+    expect(section).not.toContain('Terbutryn-d5');
+  });
+
+  it('gives the defaults when the method says nothing (20 and 6 points, no "± U")', () => {
+    const section = describeText('name: d\nformulas:\n  - { name: x, expr: extract_conc }\n');
+    expect(section).toContain('u(Rw) from 20 lcs recoveries at least (each qc level from as many of its own), the bias from 6 ms and msd recoveries at least');
+    expect(section).toContain('reported results: without their expanded uncertainty (reporting.with_uncertainty: false); the U has its own column');
+    expect(section).toContain('the method names no analytes: u(Cref) 0 % and the U from the QC history for every analyte');
   });
 });
 

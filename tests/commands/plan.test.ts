@@ -158,3 +158,24 @@ describe('plan refuses bad input', () => {
     expect(() => planExtraction({ k: 3, sampleVolume: 10, target: 0.99, maxPortions: 2.5 })).toThrow(StopError);
   });
 });
+
+describe('plan with a target figure (issue 16, point 4)', () => {
+  it.each([
+    [['--target-u', '10', '--sample-volume', '1000'], '--target-u: no plan for a target expanded uncertainty: the Nordtest route (TR 537) measures the uncertainty a procedure gives'],
+    [['--target-mdl', '0.01', '--sample-volume', '1000'], '--target-mdl: expected --history FILE and --analyte NAME with it'],
+    [['--target-mdl', '0.01', '--sample-volume', '1000', '--k', '3', '--history', 'h.db', '--analyte', 'A'], '--target-mdl plans the sample volume from the QC history: expected no extraction options with it, got --k'],
+    [['--target-mdl', '0.01', '--sample-volume', '1000', '--solvent-volume', '60', '--history', 'h.db', '--analyte', 'A'], 'expected no extraction options with it, got --solvent-volume'],
+    [['--k', '3', '--sample-volume', '100', '--history', 'h.db'], '--history belongs to --target-mdl: expected --target-mdl with it'],
+    [['--target-mdl', '0.01', '--sample-volume', '1000', '--history', 'no-such-history.db', '--analyte', 'A'], 'no-such-history.db'],
+  ])('refuses %j with the reason', async (args, message) => {
+    const r = await plan(args);
+    expect(r.code).toBe(2);
+    expect(r.stderr).toContain(message);
+  });
+
+  it('refuses a target MDL of 0 as a usage error naming the option', async () => {
+    const r = await plan(['--target-mdl', '0', '--sample-volume', '1000']);
+    expect(r.error ?? r.stderr).toBeTruthy();
+    expect(String(r.error ?? r.stderr)).toContain('expected a concentration above 0, got "0"');
+  });
+});

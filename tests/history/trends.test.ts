@@ -1,17 +1,15 @@
-import { spawnSync } from 'node:child_process';
 import { createHash } from 'node:crypto';
-import { copyFileSync, existsSync, mkdtempSync, readFileSync, rmSync } from 'node:fs';
+import { copyFileSync, mkdtempSync, readFileSync, rmSync } from 'node:fs';
 import { tmpdir } from 'node:os';
-import { join, resolve } from 'node:path';
+import { join } from 'node:path';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { registerTrendsCommand } from '../../src/commands/trends.js';
 import { runCommand } from '../helpers/command.js';
 import { StopError } from '../../src/errors.js';
 import type { HistoryRow } from '../../src/history/records.js';
-import { recordRun } from '../../src/history/store.js';
 import { buildTrends, inHouseLimitsOf, readTrends, trendsIncludingRun, trendsJson, type TrendJson } from '../../src/history/trends.js';
 import { inHouseKey } from '../../src/qc/limits.js';
-import { REFERENCE_LCS, lcsRun, recalcRows, runTime } from '../report/fixtures.js';
+import { REFERENCE_LCS, lcsHistories, lcsRun, recalcRows, runTime } from '../report/fixtures.js';
 
 const JSON_KEYS = ['analyte', 'sample_type', 'qc_level', 'n', 'mean', 'sd', 'warning_low', 'warning_high', 'control_low', 'control_high', 'rules'];
 
@@ -26,18 +24,7 @@ const sha = (path: string) => createHash('sha256').update(readFileSync(path)).di
 
 beforeAll(async () => {
   dir = mkdtempSync(join(tmpdir(), 'phasebook-trends-'));
-  nineteen = join(dir, 'nineteen.db');
-  twenty = join(dir, 'twenty.db');
-  twentyTwo = join(dir, 'twenty-two.db');
-  for (let i = 1; i <= 20; i++) {
-    const result = await recalcRows(dir, `run-${i}.csv`, lcsRun(i, REFERENCE_LCS[i - 1]!));
-    if (i === 20) copyFileSync(twenty, nineteen);
-    await recordRun(twenty, result, { timestamp: runTime(i) });
-  }
-  copyFileSync(twenty, twentyTwo);
-  for (const [i, rec] of [[21, 112], [22, 113]] as const) {
-    await recordRun(twentyTwo, await recalcRows(dir, `run-${i}.csv`, lcsRun(i, rec)), { timestamp: runTime(i) });
-  }
+  ({ nineteen, twenty, twentyTwo } = await lcsHistories(dir));
 }, 120_000);
 
 afterAll(() => rmSync(dir, { recursive: true, force: true }));
@@ -252,26 +239,5 @@ describe('the trends command', () => {
     const err = await run(['--history', twenty, '--analyte', 'Simazine']).catch((e: unknown) => e);
     expect(err).toBeInstanceOf(StopError);
     expect((err as StopError).describe()).toBe(`${twenty}: no control recoveries of analyte "Simazine" in the history; it holds "Atrazine"`);
-  });
-});
-
-describe('the built CLI', () => {
-  const cli = resolve('dist/cli.js');
-  beforeAll(() => {
-    if (!existsSync(cli)) throw new Error('dist/cli.js is missing: run `npm run build` first (npm test does)');
-  });
-
-  it('runs "phasebook trends --history FILE --json" and exits 0', () => {
-    const res = spawnSync(process.execPath, [cli, 'trends', '--history', twentyTwo, '--json'], { encoding: 'utf8' });
-    expect(res.stderr).toBe('');
-    expect(res.status).toBe(0);
-    expect((JSON.parse(res.stdout) as TrendJson[])[0]!.rules).toHaveLength(3);
-  });
-
-  it('exits 2 with a clear message for a file that is not a history', () => {
-    const res = spawnSync(process.execPath, [cli, 'trends', '--history', join(dir, 'run-1.csv')], { encoding: 'utf8' });
-    expect(res.status).toBe(2);
-    expect(res.stderr).toContain(`phasebook: ${join(dir, 'run-1.csv')}: expected a phasebook QC history, got a file that is not an SQLite database`);
-    expect(res.stdout).toBe('');
   });
 });

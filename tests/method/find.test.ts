@@ -1,22 +1,12 @@
-import { mkdirSync, mkdtempSync, rmSync, writeFileSync } from 'node:fs';
-import { tmpdir } from 'node:os';
-import { delimiter, join } from 'node:path';
+import { rmSync } from 'node:fs';
+import { join } from 'node:path';
 import { afterAll, describe, expect, it } from 'vitest';
 import { StopError } from '../../src/errors.js';
 import { listMethods, resolveMethod, SHIPPED_METHODS } from '../../src/method/find.js';
-import { runCli } from '../helpers/cli.js';
+import { methodFolders } from '../helpers/method-folders.js';
 
-const dir = mkdtempSync(join(tmpdir(), 'phasebook-find-'));
+const { dir, lab, other, env } = methodFolders();
 afterAll(() => rmSync(dir, { recursive: true, force: true }));
-const lab = join(dir, 'lab');
-const other = join(dir, 'other');
-mkdirSync(lab);
-mkdirSync(other);
-const method = (name: string, title: string) => `name: ${name}\ntitle: "${title}"\nformulas:\n  - name: y\n    expr: extract_conc * 2\n`;
-writeFileSync(join(lab, 'river-pesticides.yaml'), method('river-pesticides', 'River pesticides (invented lab)'));
-writeFileSync(join(lab, 'surface-water.yml'), method('surface-water', "The lab's own surface-water method"));
-writeFileSync(join(other, 'river-pesticides.yaml'), method('river-pesticides', 'Shadowed by the first folder'));
-const env = { PHASEBOOK_METHODS: [lab, join(dir, 'missing-folder'), other].join(delimiter) };
 
 describe('resolveMethod', () => {
   it.each([
@@ -53,21 +43,5 @@ describe('listMethods', () => {
       ['generic-lle', 'Generic liquid-liquid extraction', 'shipped'],
       ['plasma-amitriptyline', 'Amitriptyline and nortriptyline in plasma by alkaline LLE (Tarnmoor Clinical Bioanalysis, demo)', 'shipped'],
     ]);
-  });
-});
-
-describe('through the built CLI, from another folder', () => {
-  it('recalc -m NAME finds the shipped method', () => {
-    const out = join(dir, 'out');
-    const r = runCli(['recalc', join(process.cwd(), 'samples/kestrel-brook-2026-11.csv'), '-m', 'surface-water', '-o', out, '--outputs', 'csv'], { cwd: dir });
-    expect(r.code).toBe(0);
-    expect(r.stderr).toContain('with method surface-water;');
-  });
-
-  it('method list prints the names and titles on stdout', () => {
-    const r = runCli(['method', 'list'], { cwd: dir, env });
-    expect(r.code).toBe(0);
-    expect(r.stdout.split('\n')[0]).toBe('river-pesticides      River pesticides (invented lab)  [' + join(lab, 'river-pesticides.yaml') + ']');
-    expect(r.stdout).toContain('generic-lle           Generic liquid-liquid extraction\n');
   });
 });

@@ -4,7 +4,8 @@ import { join } from 'node:path';
 import fc from 'fast-check';
 import { afterAll, describe, expect, it } from 'vitest';
 import { recalculateData } from '../../src/index.js';
-import { dilutionToRange, roundToSignificant } from '../../src/qc/reported.js';
+import { dilutionToRange, roundToSignificant, withUncertainty } from '../../src/qc/reported.js';
+import { reportedWithMark } from '../../src/write/output-columns.js';
 
 describe('roundToSignificant', () => {
   // Ties: ISO 80000-1:2009 Annex B rule for rounding half to even (from memory: 12.25 → 12.2, 12.35 → 12.4);
@@ -47,6 +48,32 @@ describe('roundToSignificant', () => {
       }),
       { numRuns: 2000 },
     );
+  });
+});
+
+describe('withUncertainty: "x ± U"', () => {
+  // GUM (JCGM 100:2008) 7.2.6: U to at most two significant digits, the estimate rounded to be consistent with it;
+  // its own example, y = 10.057 62 with u_c = 0.027, is given as 10.058 (the standard's text). The other rows apply the same
+  // rule by hand: U to two significant figures, x to U's last decimal place; ties as the method says (ISO 80000-1, above).
+  it.each([
+    [10.05762, 0.027, 'half-even', '10.058 ± 0.027'],
+    [0.123456, 0.0148147, 'half-even', '0.123 ± 0.015'],
+    [1.23456, 0.0996, 'half-even', '1.23 ± 0.10'], // U rounds up to the next power of ten: two decimals, not three
+    [1234.5, 153.4, 'half-even', '1230 ± 150'],
+    [98765, 4321, 'half-even', '98800 ± 4300'],
+    [5.5, 1.234, 'half-even', '5.5 ± 1.2'],
+    [42, 10, 'half-even', '42 ± 10'],
+    [1.0125, 0.0125, 'half-even', '1.012 ± 0.012'],
+    [1.0125, 0.0125, 'half-away-from-zero', '1.013 ± 0.013'],
+    [-0.0004, 0.0101, 'half-even', '0.000 ± 0.010'],
+    [-0.0234, 0.0049, 'half-even', '-0.0234 ± 0.0049'],
+  ] as const)('%d with U %d, ties %s: %s', (x, u, rounding, expected) => {
+    expect(withUncertainty(x, u, rounding)).toBe(expected);
+  });
+
+  it('writes both numbers with a decimal comma in a CSV whose worklist used one', () => {
+    const method = { reporting: { aboveRange: '> range' } } as Parameters<typeof reportedWithMark>[1];
+    expect(reportedWithMark(['0.123 ± 0.015', '< 0.05', '> range (needs dilution ≥ 2.5)'], method, ',')).toEqual(['0,123 ± 0,015', '< 0,05', '> range (needs dilution ≥ 2.5)']);
   });
 });
 
@@ -93,5 +120,48 @@ describe('reported_result on a worklist (issue 14, point 5)', () => {
       'MB-1': '< 0.05',
       'LCS-1': '0.0400',
     });
+  });
+});
+
+describe('reported_result with its expanded uncertainty (reporting.with_uncertainty, issue 16)', () => {
+  const dir = mkdtempSync(join(tmpdir(), 'phasebook-reported-u-'));
+  afterAll(() => rmSync(dir, { recursive: true, force: true }));
+  const base = readFileSync('templates/surface-water.yaml', 'utf8').replace('  Naphthalene:\n    partition_coeff: 1800\n', '  Naphthalene:\n    partition_coeff: 1800\n    expanded_uncertainty_pct: 12\n');
+  const header = 'Sample Name,QC Code,Spiked From,Prep Batch,Compound,Extract Result (ng/mL),Sample Vol (mL),DCM per Portion (mL),Portions,Final Vol (mL),Dilution,Extraction pH,Spike Added (ug/L)';
+  const rows = [
+    'S-1,SAMP,,B1,Naphthalene,123.456,1000,60,3,1,1,,', // 0.123456 ug/L; U = 12 % of it = 0.0148
+    'S-2,SAMP,,B1,Naphthalene,20,1000,60,3,1,1,,', // below the RL 0.05: "< 0.05", no U to show
+    'S-3,SAMP,,B1,Naphthalene,ND,1000,60,3,1,1,,',
+    'S-4,SAMP,,B1,Naphthalene,12000,1000,60,3,1,2,,', // above the range
+    'S-5,SAMP,,B1,Quinoline,150,1000,60,3,1,1,11.0,', // an analyte without a U: three significant figures as before
+    'LCS-1,BS,,B1,Naphthalene,1900,1000,60,3,1,1,,2.0', // a control carries no U
+  ];
+  const run = async (withU: boolean) => {
+    const method = join(dir, `method-${withU}.yaml`);
+    writeFileSync(method, withU ? base.replace('qc:\n', 'reporting:\n  with_uncertainty: true\n\nqc:\n') : base);
+    const result = await recalculateData([header, ...rows].join('\n'), { method, name: 'reported-u' });
+    const ids = result.table.texts.get('sample_id')!;
+    return { result, byId: Object.fromEntries(ids.map((id, r) => [`${id} ${result.table.texts.get('analyte')![r]}`, result.qc.reported[r]])) };
+  };
+
+  it('reads "x ± U" on a sample result that carries a U, and nowhere else', async () => {
+    const { result, byId } = await run(true);
+    expect(byId).toMatchObject({
+      'S-1 Naphthalene': '0.123 ± 0.015',
+      'S-2 Naphthalene': '< 0.05',
+      'S-3 Naphthalene': '< 0.05',
+      'S-4 Naphthalene': '> range (needs dilution ≥ 5)',
+      'LCS-1 Naphthalene': '1.90',
+    });
+    expect(byId['S-5 Quinoline']).toMatch(/^0\.\d\d\d$/);
+    // The U shown is the one in the expanded_uncertainty column: 12 % of the result (the method's fixed U).
+    const x = result.computed.get('pre_extraction_conc')![0]!;
+    expect(result.uncertainty!.expanded[0]).toBeCloseTo(0.12 * x, 15);
+    expect(withUncertainty(x, result.uncertainty!.expanded[0]!, 'half-even')).toBe(byId['S-1 Naphthalene']);
+  });
+
+  it('keeps the significant figures when the method does not ask for it', async () => {
+    const { byId } = await run(false);
+    expect(byId['S-1 Naphthalene']).toBe('0.123');
   });
 });

@@ -6,7 +6,7 @@
  * equals its extract_conc: pre = C·V_final/V_aq = C/100 ng/mL, and
  * recovery = pre/spike × 100 = C (DESIGN.md §4 formulas).
  */
-import { writeFileSync } from 'node:fs';
+import { copyFileSync, writeFileSync } from 'node:fs';
 import { join, resolve } from 'node:path';
 import { recordRun } from '../../src/history/store.js';
 import { trendsIncludingRun, type TrendSeries } from '../../src/history/trends.js';
@@ -113,4 +113,24 @@ export function inventedRecoveries(count: number, shift: number, options: { long
     low: i === count - 1 ? Number.NaN : 70,
     high: i === count - 1 ? Number.NaN : 130,
   }));
+}
+
+/**
+ * Three QC histories in `dir`: `twenty` (20 runs, LCS recoveries REFERENCE_LCS in run order), `twentyTwo`
+ * (the same, then two more at 112 and 113 %) and `nineteen` (the first 19 runs only).
+ */
+export async function lcsHistories(dir: string): Promise<{ nineteen: string; twenty: string; twentyTwo: string }> {
+  const nineteen = join(dir, 'nineteen.db');
+  const twenty = join(dir, 'twenty.db');
+  const twentyTwo = join(dir, 'twenty-two.db');
+  for (let i = 1; i <= 20; i++) {
+    const result = await recalcRows(dir, `run-${i}.csv`, lcsRun(i, REFERENCE_LCS[i - 1]!));
+    if (i === 20) copyFileSync(twenty, nineteen);
+    await recordRun(twenty, result, { timestamp: runTime(i) });
+  }
+  copyFileSync(twenty, twentyTwo);
+  for (const [i, rec] of [[21, 112], [22, 113]] as const) {
+    await recordRun(twentyTwo, await recalcRows(dir, `run-${i}.csv`, lcsRun(i, rec)), { timestamp: runTime(i) });
+  }
+  return { nineteen, twenty, twentyTwo };
 }

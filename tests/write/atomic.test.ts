@@ -2,9 +2,9 @@ import { existsSync } from 'node:fs';
 import { mkdir, mkdtemp, readdir, readFile, rm, writeFile } from 'node:fs/promises';
 import { tmpdir } from 'node:os';
 import { basename, dirname, join } from 'node:path';
-import { afterAll, afterEach, beforeEach, describe, expect, it, vi } from 'vitest';
+import { afterAll, beforeEach, describe, expect, it, vi } from 'vitest';
 import { StopError } from '../../src/errors.js';
-import { commitAll, installInterruptCleanup, liveTempFiles, removeLiveTempFiles, writeFileAtomic } from '../../src/write/atomic.js';
+import { commitAll, liveTempFiles, removeLiveTempFiles, writeFileAtomic } from '../../src/write/atomic.js';
 import { stopOf } from '../helpers/stop.js';
 
 let root: string;
@@ -204,78 +204,6 @@ describe('commitAll', () => {
     else expect(await readFile(a, 'utf8')).toBe(oldA);
     expect((await readdir(dir)).sort()).toEqual(oldA === null ? ['b.csv'] : ['a.xlsx', 'b.csv']);
     expect(liveTempFiles()).toEqual([]);
-  });
-});
-
-describe('installInterruptCleanup', () => {
-  const events = ['SIGINT', 'SIGTERM', 'exit'] as const;
-  let before: Record<string, Function[]>;
-
-  beforeEach(() => {
-    before = Object.fromEntries(events.map((e) => [e, process.listeners(e)]));
-  });
-  afterEach(() => {
-    // Remove what the test installed so the test worker keeps its own handlers only.
-    for (const e of events) {
-      for (const l of process.listeners(e)) if (!before[e]!.includes(l)) process.removeListener(e, l as () => void);
-    }
-    vi.restoreAllMocks();
-  });
-
-  const added = (e: (typeof events)[number]) => process.listeners(e).filter((l) => !before[e]!.includes(l));
-
-  it('installs one handler per event however often it is called', () => {
-    installInterruptCleanup();
-    installInterruptCleanup();
-    for (const e of events) expect(added(e)).toHaveLength(1);
-  });
-
-  it.each([
-    ['SIGINT', 130],
-    ['SIGTERM', 143],
-  ] as const)('on %s removes live temp files, then exits with %d', async (signal, code) => {
-    // Exit codes: 128 + signal number (common practice; POSIX shells report a death by signal that way).
-    installInterruptCleanup();
-    const [handler] = added(signal);
-    const exit = vi.spyOn(process, 'exit').mockImplementation((() => undefined) as never);
-    const target = join(dir, 'out.csv');
-    let tmpSeen = '';
-    const run = writeFileAtomic(target, async (tmp) => {
-      tmpSeen = tmp;
-      await writeFile(tmp, 'partial');
-      expect(existsSync(tmp)).toBe(true);
-      (handler as () => void)();
-      expect(existsSync(tmp)).toBe(false);
-    });
-    await expect(run).rejects.toBeDefined(); // exit was mocked, so the write goes on and fails
-    expect(exit).toHaveBeenCalledWith(code);
-    expect(tmpSeen).not.toBe('');
-    expect(existsSync(target)).toBe(false);
-    expect(await readdir(dir)).toEqual([]);
-    expect(liveTempFiles()).toEqual([]);
-  });
-});
-
-describe('an interrupt after the outputs are in place', () => {
-  it('lets the run finish and says so; a second interrupt stops it at once', async () => {
-    const events = ['SIGINT', 'SIGTERM', 'exit'] as const;
-    const before = Object.fromEntries(events.map((e) => [e, process.listeners(e)]));
-    installInterruptCleanup();
-    const handler = process.listeners('SIGINT').find((l) => !before.SIGINT!.includes(l)) as () => void;
-    const exit = vi.spyOn(process, 'exit').mockImplementation((() => undefined) as never);
-    const said = vi.spyOn(process.stderr, 'write').mockImplementation(() => true);
-    try {
-      await commitAll([{ target: join(dir, 'done.csv'), write: text('x') }]);
-      handler();
-      expect(exit).not.toHaveBeenCalled();
-      expect(said).toHaveBeenCalledWith('phasebook: interrupted after the outputs were complete; finishing the run\n');
-      expect(await readFile(join(dir, 'done.csv'), 'utf8')).toBe('x');
-      handler();
-      expect(exit).toHaveBeenCalledWith(130);
-    } finally {
-      for (const e of events) for (const l of process.listeners(e)) if (!before[e]!.includes(l)) process.removeListener(e, l as () => void);
-      vi.restoreAllMocks();
-    }
   });
 });
 

@@ -15,15 +15,12 @@ import type { CellValue, PlannedCell, SheetPlan } from '../../src/write/workbook
 import {
   NO_HISTORY,
   POINTS_TITLE,
-  SERIES_HEADERS,
   SERIES_TITLE,
   TRENDS_SHEET,
   planTrendsSheet,
 } from '../../src/write/workbook/trends-sheet.js';
-import { disposeLibreOfficeProfile, isLibreOfficeAvailable, recalcWithLibreOffice } from '../helpers/libreoffice.js';
 import { REFERENCE_LCS, REPORT_RUN, reportScenario } from '../report/fixtures.js';
-import { close, editCopy, plain, readBook, rowWith, tempDir } from '../verify/workbook-fixtures.js';
-import { skipWithout } from '../helpers/tools.js';
+import { editCopy, readBook, rowWith, tempDir } from '../verify/workbook-fixtures.js';
 
 let dir: string;
 let current: RecalcResult;
@@ -38,10 +35,7 @@ beforeAll(async () => {
   await writeWorkbook(workbook, current, { run: RUN, history: { file: join(dir, 'history.db'), series: history } });
 }, 180_000);
 
-afterAll(async () => {
-  await disposeLibreOfficeProfile();
-  rmSync(dir, { recursive: true, force: true });
-});
+afterAll(() => rmSync(dir, { recursive: true, force: true }));
 
 /** Every row of a plan as cells. */
 function rows(plan: SheetPlan): (PlannedCell | undefined)[][] {
@@ -215,34 +209,4 @@ describe('the written Trends sheet', () => {
     expect(d.length).toBeGreaterThan(0);
     expect(d[0]).toMatchObject({ address: 'E10' });
   });
-
-  it.skipIf(skipWithout('LibreOffice', isLibreOfficeAvailable()))(
-    'LibreOffice recalculates the series table to the engine numbers from wrong cached values',
-    async () => {
-      const stale = join(dir, 'stale.xlsx');
-      await editCopy(workbook, stale, (wb) => {
-        wb.getWorksheet(TRENDS_SHEET)!.eachRow((row) =>
-          row.eachCell((c) => {
-            const v = c.value as { formula?: string } | null;
-            if (v && typeof v === 'object' && v.formula) c.value = { formula: v.formula, result: -987654.321 } as ExcelJS.CellFormulaValue;
-          }),
-        );
-      });
-      const wb = await readBook(await recalcWithLibreOffice(stale));
-      const ws = wb.getWorksheet(TRENDS_SHEET)!;
-      const first = rowWith(ws, SERIES_TITLE) + 2;
-      const json = trendsJson(history);
-      json.forEach((s, i) => {
-        const r = ws.getRow(first + i);
-        const got = [4, 5, 6, 7, 8, 9, 10].map((c) => plain(r.getCell(c)));
-        const want = [s.n, s.mean, s.sd, s.warning_low, s.warning_high, s.control_low, s.control_high];
-        got.forEach((g, k) => {
-          const w = want[k];
-          if (w === null) expect(g === null || g === '', `${s.analyte} ${s.sample_type} ${SERIES_HEADERS[k + 3]}`).toBe(true);
-          else expect(close(g as number, w), `${s.analyte} ${s.sample_type} ${SERIES_HEADERS[k + 3]}: ${g} vs ${w}`).toBe(true);
-        });
-      });
-    },
-    300_000,
-  );
 });

@@ -19,7 +19,7 @@ import { calibrationSentence, reportingSentence } from '../../method/reporting.j
 import type { AnalyteInfo, ControlKind, Method } from '../../domain/method.js';
 
 /** Control types in the order a reader expects them. */
-const CONTROL_KINDS: readonly ControlKind[] = ['lcs', 'lcsd', 'ms', 'msd', 'dup', 'qc'];
+const CONTROL_KINDS: readonly ControlKind[] = ['lcs', 'lcsd', 'ms', 'msd', 'dup', 'qc', 'mdl'];
 
 /** Defaults the engine applies when neither worklist nor method gives a value (DESIGN.md §4). */
 const DESIGN_DEFAULTS: Partial<Record<CanonicalField, string>> = {
@@ -47,6 +47,7 @@ export function describeMethod(method: Method, compiled: CompiledMethod): string
     limitsSection(method),
     qcSection(method),
     reportingSection(method),
+    figuresSection(method),
     formulasSection(method, compiled),
   ];
   const warnings = judgingWarnings(method);
@@ -74,7 +75,8 @@ export function judgingWarnings(method: Method): string[] {
   if (usesBlank && !rlSomewhere) {
     out.push('blanks: no reporting limit anywhere (defaults.reporting_limit, an analyte\'s reporting_limit, or a reporting_limit column): a blank is judged only where its row gives one');
   }
-  for (const kind of controlKindsUsed(method)) {
+  // An mdl row is there for the detection limit; recovery limits for it are the method's choice, not a gap.
+  for (const kind of controlKindsUsed(method).filter((k) => k !== 'mdl')) {
     const set = method.limits[kind];
     if (kind === 'dup' ? set?.rpd_max === undefined : !set?.recovery) {
       out.push(`${kind}: no ${kind === 'dup' ? 'RPD limit (rpd_max)' : 'recovery limits'} in the method: such rows are not judged unless an analyte gives them`);
@@ -213,6 +215,8 @@ function limitsSection(method: Method): string[] {
 function controlKindsUsed(method: Method): ControlKind[] {
   if (method.sampleTypes.size === 0) return [...CONTROL_KINDS];
   const named = new Set<string>(method.sampleTypes.values());
+  // `mdl` is always accepted by its own name: a method that sets limits for it uses it.
+  if (method.limits.mdl || method.analytes.some((a) => a.limits.mdl)) named.add('mdl');
   return CONTROL_KINDS.filter((k) => named.has(k));
 }
 
@@ -238,6 +242,27 @@ function qcSection(method: Method): string[] {
 
 function reportingSection(method: Method): string[] {
   return ['Calibration and reporting', `  calibration: ${calibrationSentence(method)}`, `  ${reportingSentence(method)}`];
+}
+
+/** What `phasebook figures` and `recalc --history` take from the method (figures/): points needed, u(Cref), a fixed U. */
+function figuresSection(method: Method): string[] {
+  const f = method.figures;
+  const lines = [
+    "The lab's own figures (phasebook figures, recalc --history)",
+    `  measurement uncertainty (Nordtest TR 537): u(Rw) from ${f.minPointsRw} lcs recoveries at least (each qc level from as many of its own), the bias from ${f.minPointsBias} ms and msd recoveries at least (figures.min_points_rw, figures.min_points_bias); U = 2 · u_c`,
+    '  detection limit (40 CFR 136 App. B Rev. 2): from 7 or more mdl rows (low-level spiked blanks) and 7 or more method blanks',
+    `  reported results: ${method.reporting.withUncertainty ? '"x ± U" where a sample result carries an expanded uncertainty (reporting.with_uncertainty)' : 'without their expanded uncertainty (reporting.with_uncertainty: false); the U has its own column'}`,
+  ];
+  const rows: string[][] = [];
+  for (const a of method.analytes) {
+    if (a.surrogate) continue;
+    const cref = a.spike_uncertainty_pct === undefined ? 'u(Cref) 0 % (no spike_uncertainty_pct)' : `u(Cref) ${num(a.spike_uncertainty_pct)} %`;
+    const fixed = a.expanded_uncertainty_pct === undefined ? 'U from the QC history' : `fixed U ${num(a.expanded_uncertainty_pct)} % (k = 2; expanded_uncertainty_pct), over any history`;
+    rows.push([a.name, cref, fixed]);
+  }
+  if (rows.length) lines.push(...table(rows).map((l) => `    ${l}`));
+  else lines.push('  the method names no analytes: u(Cref) 0 % and the U from the QC history for every analyte');
+  return lines;
 }
 
 function formulasSection(method: Method, compiled: CompiledMethod): string[] {

@@ -13,6 +13,7 @@
  * as text in an XLSX) gets the engine's value and a note saying so. Rows with an input
  * error, and a values-only sheet, get the engine's values.
  */
+import { fallbacksOf } from '../../domain/fallbacks.js';
 import { FIELD_SPECS, SAMPLE_TYPES, type CanonicalField } from '../../domain/fields.js';
 import { parseAcidBase } from '../../chemistry/partition.js';
 import type { RecalcResult } from '../../pipeline.js';
@@ -118,37 +119,41 @@ export function asUsedPlanner(result: RecalcResult, ctx: AsUsedContext): AsUsedP
     };
   }
 
-  // Numeric fields.
+  // Numeric fields: an empty cell takes the field's chain (domain/fallbacks.ts), as the engine does.
   const numFmt = ctx.numFmt;
   const values = table.numbers.get(field)!;
-  const numericDefault = (f: CanonicalField): string | undefined => refs.fieldDefault(f);
+  const chain = fallbacksOf(field as CanonicalField);
   const logK = result.columnMap.fields.get('log_k');
-  /** The formula for an empty cell; 'text' when a cell it reads holds text a formula cannot use. */
-  const whenEmpty = (r: number, R: number): string | undefined | 'text' => {
+  /** The formula for an empty cell from step i of the chain on; 'text' when a cell it reads holds text a formula cannot use. */
+  const fromStep = (i: number, r: number, R: number): string | undefined | 'text' => {
+    const step = chain[i];
+    if (step === undefined) return undefined;
+    const next = () => fromStep(i + 1, r, R);
     const ai = table.analyteIndex[r]!;
-    switch (field) {
-      case 'final_volume': {
-        const e = layout.asUsed.get('extractions')!.letter + R;
-        const s = layout.asUsed.get('solvent_volume')!.letter + R;
-        return `IF(OR(${e}="",${s}=""),"",${e}*${s})`;
-      }
-      case 'partition_coeff': {
-        const fromMethod = (ai >= 0 ? refs.analyte(ai, 'partition_coeff') : undefined) ?? numericDefault('partition_coeff');
-        if (!logK) return fromMethod;
+    switch (step.kind) {
+      case 'field-default':
+        return refs.fieldDefault(field as CanonicalField) ?? next();
+      case 'analyte':
+        return (ai >= 0 ? refs.analyte(ai, step.key) : undefined) ?? next();
+      case 'method-reporting-limit':
+        return refs.defaultReportingLimit ?? next();
+      case 'ten-to-log-k': {
+        if (!logK) return next();
         const raw = ctx.inputValue(logK.column, r);
         if (raw !== null && typeof raw !== 'number') return 'text';
+        const rest = next();
+        if (rest === 'text') return rest;
         const L = `${ctx.inputLetter(logK.column)}${R}`;
-        return `IF(${L}="",${fromMethod ?? '""'},10^${L})`;
+        return `IF(${L}="",${rest ?? '""'},10^${L})`;
       }
-      case 'pka':
-      case 'ph':
-        return (ai >= 0 ? refs.analyte(ai, field) : undefined) ?? numericDefault(field);
-      case 'reporting_limit':
-        return (ai >= 0 ? refs.analyte(ai, 'reporting_limit') : undefined) ?? refs.defaultReportingLimit ?? numericDefault(field);
-      default:
-        return numericDefault(field as CanonicalField);
+      case 'product': {
+        const e = layout.asUsed.get(step.of[0])!.letter + R;
+        const s = layout.asUsed.get(step.of[1])!.letter + R;
+        return `IF(OR(${e}="",${s}=""),"",${e}*${s})`;
+      }
     }
   };
+  const whenEmpty = (r: number, R: number): string | undefined | 'text' => fromStep(0, r, R);
   return {
     column,
     plan: (r, R, live) => {

@@ -9,8 +9,8 @@
  * Cells the Results formulas reference (analyte data, field defaults, look-up
  * ranges) are handed back as absolute references in MethodRefs.
  */
+import { designDefault, fallbackWords } from '../../domain/fallbacks.js';
 import { FIELD_SPECS, SAMPLE_TYPES, type CanonicalField } from '../../domain/fields.js';
-import { conversionFactor } from '../../columns/units.js';
 import { calibrationSentence, roundingWords } from '../../method/reporting.js';
 import type { ControlKind, LimitSet, LimitTable, Method } from '../../domain/method.js';
 import type { RecalcResult } from '../../pipeline.js';
@@ -87,21 +87,20 @@ export interface MethodRefs {
   lookupKeys: { sampleTypeCodes: string[]; analyteNames: string[] };
 }
 
-/** Numeric defaults phasebook itself applies (DESIGN.md §4) when the method names none. */
-const DESIGN_DEFAULTS: Partial<Record<CanonicalField, number>> = { extractions: 1, dilution: 1 };
-
-const WHEN_EMPTY: Partial<Record<CanonicalField, string>> = {
+/** What fills an empty text cell; numeric fields say their chain (domain/fallbacks.ts). */
+const WHEN_EMPTY_TEXT: Partial<Record<CanonicalField, string>> = {
   sample_type: 'sample (or the field default)',
   batch_id: 'one batch',
-  extractions: 'the default',
-  final_volume: 'extractions × solvent_volume',
-  dilution: 'the default',
-  partition_coeff: "10^log_k of the row, else the analyte's partition_coeff (Analytes), else the default; none: E = 100 %",
-  ph: "the analyte's ph (Analytes), else the default",
-  pka: "the analyte's pka (Analytes), else the default",
   acid_base: "the analyte's acid_base (Analytes), else neutral",
-  reporting_limit: "the analyte's reporting limit (Analytes), else the method's default reporting limit, else the default",
 };
+
+/** A field's "when the cell is empty" words. */
+function whenEmptyWords(spec: { name: CanonicalField; kind: 'text' | 'number'; required: boolean }, hasDefault: boolean): string {
+  const chain = spec.kind === 'number' ? fallbackWords(spec.name, { hasDefault }) : '';
+  const words = WHEN_EMPTY_TEXT[spec.name] ?? chain;
+  if (words === '') return spec.required ? 'required' : 'empty';
+  return spec.name === 'partition_coeff' ? `${words}; none: E = 100 %` : words;
+}
 
 export interface MethodSheet {
   plan: SheetPlan;
@@ -144,9 +143,9 @@ export function planMethodSheet(result: RecalcResult, options: { formulaForms?: 
     const cfg = method.fields.get(spec.name);
     // The engine fills a numeric field only from a numeric default (columns/table.ts).
     const methodDefault = spec.kind === 'number' && typeof cfg?.default !== 'number' ? undefined : cfg?.default;
-    const designDefault = DESIGN_DEFAULTS[spec.name];
-    const dflt = methodDefault ?? designDefault ?? null;
-    const from = methodDefault !== undefined ? 'method' : designDefault !== undefined ? 'phasebook' : null;
+    const ownDefault = designDefault(spec.name);
+    const dflt = methodDefault ?? ownDefault ?? null;
+    const from = methodDefault !== undefined ? 'method' : ownDefault !== undefined ? 'phasebook' : null;
     const unit = spec.dimension === 'none' ? '' : spec.dimension === 'volume' ? vol : conc;
     let factor: CellValue = null;
     if (src && spec.kind === 'number') factor = src.factor ?? 'per analyte (from its molar mass)';
@@ -162,7 +161,7 @@ export function planMethodSheet(result: RecalcResult, options: { formulaForms?: 
       cfg?.aliases.length ? cfg.aliases.join('; ') : null,
       dflt,
       from,
-      WHEN_EMPTY[spec.name] ?? (spec.required ? 'required' : 'empty'),
+      whenEmptyWords(spec, methodDefault !== undefined),
     ]);
   }
   b.table(
@@ -367,12 +366,6 @@ export function rowFactor(result: RecalcResult, field: CanonicalField, row: numb
   const src = result.columnMap.fields.get(field);
   if (!src) return undefined;
   if (src.factor !== undefined) return src.factor;
-  const ai = result.table.analyteIndex[row]!;
-  const molarMass = ai >= 0 ? result.method.analytes[ai]!.molar_mass : undefined;
-  if (!molarMass) return undefined;
-  try {
-    return conversionFactor(src.fromUnit, src.toUnit, { molarMass });
-  } catch {
-    return undefined;
-  }
+  // Through the analyte's molar mass: the factor the columns stage used for this row's analyte.
+  return result.table.molarFactors.get(field)?.get(result.table.analyteIndex[row]!);
 }

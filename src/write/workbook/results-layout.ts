@@ -7,8 +7,7 @@
  * sheet's planner (results-sheet.ts), the as-used cells (as-used.ts), the digest's column
  * checks and verify all place cells by this one layout.
  */
-import { FIELD_SPECS, type CanonicalField } from '../../domain/fields.js';
-import { DERIVED_COLUMNS, compileMethod } from '../../engine/evaluate.js';
+import { DERIVED_COLUMNS, FIELD_SPECS, type CanonicalField } from '../../domain/fields.js';
 import type { RecalcResult } from '../../pipeline.js';
 import { computedHeader, outputColumns, reportedHeader } from '../output-columns.js';
 import { columnLetter } from './cells.js';
@@ -78,7 +77,7 @@ export function asUsedHeader(field: string, unit: string): string {
  * solvent_volume).
  */
 export function asUsedFields(result: RecalcResult): string[] {
-  const compiled = compileMethod(result.method);
+  const compiled = result.compiled;
   const used = new Set<string>();
   for (const f of compiled.formulas) for (const d of f.dependencies) used.add(d);
   if (used.has('final_volume')) {

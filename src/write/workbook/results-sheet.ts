@@ -22,11 +22,10 @@
  * form is written as its value with a note. Above a row limit (an option) the whole
  * sheet holds values only, and the Summary and Provenance sheets say so.
  */
+import type { MathNode } from 'mathjs';
 import { groupBy } from '../../group.js';
 import { hash } from 'node:crypto';
 import { FIELD_SPECS, isCanonicalField, type CanonicalField } from '../../domain/fields.js';
-import { parseNumberCell } from '../../columns/numbers.js';
-import { compileMethod } from '../../engine/evaluate.js';
 import { FAILING_CODES, type Flag } from '../../issues.js';
 import type { RecalcResult } from '../../pipeline.js';
 import type { RawCell } from '../../read/types.js';
@@ -92,8 +91,8 @@ export function inputCellWriter(result: RecalcResult): (column: number, row: num
     if (typeof v === 'number') return Number.isFinite(v) ? v : String(v);
     if (v === '') return null;
     if (csv && numericField[column]) {
-      const parsed = parseNumberCell(v, format);
-      if (parsed.ok && Number.isFinite(parsed.value)) return parsed.value;
+      const parsed = result.readNumber(v);
+      if (parsed !== undefined) return parsed;
     } else if (csv && !textField[column]) {
       const plain = format.decimal === ',' && /^-?\d+,\d+$/.test(v) ? v.replace(',', '.') : v;
       if (PLAIN_NUMBER.test(plain) && String(Number(plain)) === plain) return Number(plain);
@@ -176,8 +175,8 @@ export function planResultsSheet(result: RecalcResult, options: ResultsOptions):
   const inputLetter = (column: number) => columnLetter(inputColumn(column));
 
   // Formula templates, per formula column and per (parent row?, pair row?).
-  const compiled = compileMethod(result.method);
-  const nodes = compiled.formulas.map((f) => f.node);
+  const compiled = result.compiled;
+  const nodes = compiled.formulas.map((f) => f.node as MathNode); // the engine's parsed trees (opaque in RecalcResult)
   const isText = (s: string) => FIELD_SPECS.get(s as CanonicalField)?.kind === 'text';
   const cellColumn = (s: string) => (layout.asUsed.get(s) ?? layout.computed.get(s))?.column;
   const templates: Template[][] = nodes.map(() => []);

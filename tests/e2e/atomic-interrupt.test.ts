@@ -1,7 +1,8 @@
 /**
  * Ctrl-C in the one moment the CLI test cannot aim at: while commitAll renames a
  * set of outputs into place. The signal must wait, the set must go back to the
- * previous outputs, and the process must then exit 130 with no temp or backup
+ * previous outputs, commitAll must then throw Interrupted, and the process exit 130
+ * (the command line's signal handlers, src/cli-signals.ts) with no temp or backup
  * file left (issue 5, "nothing lost").
  *
  * A child process runs the built module (dist/write/atomic.js) with
@@ -17,6 +18,7 @@ import { describe, expect, it } from 'vitest';
 import { ROOT, tempDir } from '../helpers/cli.js';
 
 const ATOMIC = join(ROOT, 'dist/write/atomic.js');
+const SIGNALS = join(ROOT, 'dist/cli-signals.js');
 
 function script(folder: string, force: boolean): string {
   return `
@@ -33,10 +35,18 @@ function script(folder: string, force: boolean): string {
     };
     syncBuiltinESMExports();
     (async () => {
-      const { commitAll, installInterruptCleanup } = await import(${JSON.stringify(pathToFileURL(ATOMIC).href)});
-      installInterruptCleanup();
+      const { commitAll } = await import(${JSON.stringify(pathToFileURL(ATOMIC).href)});
+      const { installSignalHandlers } = await import(${JSON.stringify(pathToFileURL(SIGNALS).href)});
+      installSignalHandlers();
       const job = (name) => ({ target: ${JSON.stringify(folder)} + '/' + name, write: (tmp) => fsp.writeFile(tmp, 'new ' + name) });
-      await commitAll([job('a.csv'), job('b.xlsx'), job('c.html')], { force: ${force} });
+      try {
+        await commitAll([job('a.csv'), job('b.xlsx'), job('c.html')], { force: ${force} });
+      } catch (err) {
+        // As the command line does: the writer put the outputs back and says so; the exit code is the signal's.
+        if (err.name !== 'Interrupted') throw err;
+        process.exitCode = err.exitCode;
+        return;
+      }
       process.stdout.write('finished without the signal');
     })();
   `;

@@ -12,7 +12,7 @@ import { chromium, type Browser } from 'playwright-core';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { htmlReportJobs } from '../../src/report/html.js';
 import { commitAll } from '../../src/write/atomic.js';
-import { EVIL_ANALYTE, EVIL_BATCH, EVIL_SAMPLE, REPORT_RUN, reportScenario } from './fixtures.js';
+import { EVIL_ANALYTE, EVIL_BATCH, EVIL_SAMPLE, REPORT_RUN, reportScenario } from '../report/fixtures.js';
 import { skipWithout } from '../helpers/tools.js';
 
 const CHROMIUM = '/usr/bin/chromium';

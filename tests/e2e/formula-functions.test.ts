@@ -10,11 +10,11 @@ import { mkdtempSync, rmSync } from 'node:fs';
 import { tmpdir } from 'node:os';
 import { dirname, join } from 'node:path';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
-import { compileFormula, FormulaError, type SymbolKind } from '../src/engine/formula.js';
-import { FORMULA_FUNCTIONS } from '../src/formula-functions.js';
-import { toSheetFormula, type SheetFormulaContext } from '../src/write/sheet-formula.js';
-import { disposeLibreOfficeProfile, isLibreOfficeAvailable, recalcWithLibreOffice } from './helpers/libreoffice.js';
-import { skipWithout } from './helpers/tools.js';
+import { compileFormula, FormulaError, type SymbolKind } from '../../src/engine/formula.js';
+import { FORMULA_FUNCTIONS } from '../../src/formula-functions.js';
+import { toSheetFormula, type SheetFormulaContext } from '../../src/write/sheet-formula.js';
+import { disposeLibreOfficeProfile, isLibreOfficeAvailable, recalcWithLibreOffice } from '../helpers/libreoffice.js';
+import { skipWithout } from '../helpers/tools.js';
 
 /** An argument: a number, null for an empty cell, or a text (the acid_base argument). */
 type Arg = number | null | string;

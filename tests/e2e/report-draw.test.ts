@@ -12,7 +12,7 @@ import type { TopLevelSpec } from 'vega-lite';
 import type { TrendSeries } from '../../src/history/trends.js';
 import { controlChartSpec, recoveryChartSpec } from '../../src/report/charts.js';
 import { renderSvg } from '../../src/report/svg.js';
-import { inventedRecoveries, reportScenario } from './fixtures.js';
+import { inventedRecoveries, reportScenario } from '../report/fixtures.js';
 
 type Draw = typeof import('../../src/report/draw.js');
 let draw: Draw;
