@@ -27,5 +27,23 @@ figure.chart svg { display: block; max-width: 100%; height: auto; }
 figcaption { color: var(--muted); font-size: 12px; margin-top: 4px; }
 .note { color: var(--muted); }
 footer { margin-top: 40px; color: var(--muted); font-size: 12px; }
-@media print { main { padding: 0; } figure.chart { break-inside: avoid; } h2 { break-after: avoid; } }
+@media print {
+  @page { size: A4; margin: 14mm 12mm 16mm; }
+  body { font-size: 11px; }
+  main { max-width: none; padding: 0; }
+  h1 { font-size: 18px; }
+  h2 { font-size: 14px; margin-top: 18px; }
+  h2, h3 { break-after: avoid; }
+  table { font-size: 10px; }
+  th, td { padding: 2px 5px; }
+  thead { display: table-header-group; }
+  tr, dl.facts, ul.reasons li, ul.failed li { break-inside: avoid; }
+  th, tr.current td { background: none; }
+  th { border-bottom: 1.5px solid var(--ink); }
+  tr.current td { font-weight: 600; }
+  #recoveries, #history, #uncertainty { break-before: page; }
+  figure.chart { break-inside: avoid; overflow: visible; }
+  figure.chart svg { max-width: 100%; max-height: 200mm; width: auto; }
+  footer { margin-top: 16px; }
+}
 `;

@@ -40,6 +40,7 @@ import {
 import { decideFormat, type NumberFormat } from '../columns/number-format.js';
 import { QC_SHEET } from '../write/workbook/qc-sheet.js';
 import { RESULTS_SHEET, WORKLIST_ROW_HEADER } from '../write/workbook/results-sheet.js';
+import { FIRST_INPUT_COLUMN, inputColumn } from '../write/workbook/results-layout.js';
 import { SUMMARY_SHEET } from '../write/workbook/summary-sheet.js';
 import { MIN_POINTS } from '../history/trends.js';
 import { TRENDS_SHEET } from '../write/workbook/trends-sheet.js';
@@ -219,7 +220,7 @@ export async function verifyWorkbook(path: string, options: VerifyOptions = {}):
   differences.push(...compareSheet(plan.method, methodSheet, { recomputed }));
   const resultsWidth = plan.results.layout.columns.length;
   differences.push(...missingRows(stored, provenance, raw));
-  const columnChecks = new ColumnChecks(plan.results.layout.inputCount);
+  const columnChecks = new ColumnChecks(plan.results.layout.inputCount, FIRST_INPUT_COLUMN);
   const resultsDifferences = compareSheet(plan.results.plan, results, {
     recomputed,
     onStoredRow: (_r, cells) => {
@@ -281,9 +282,9 @@ function namedInputChanges(
       const cell = stored.get(col.column);
       const p = planned?.cells[col.column - 1];
       if (!src || !cell || cell.noCachedValue || p?.formula === undefined || sameValue(p.value, cell.value)) continue;
-      const address = `${columnLetter(src.column + 1)}${sheetRow}`;
+      const address = `${columnLetter(inputColumn(src.column))}${sheetRow}`;
       if (named.some((n) => n.address === address)) continue;
-      const now = stored.get(src.column + 1)?.value ?? null;
+      const now = stored.get(inputColumn(src.column))?.value ?? null;
       const unit = /\[([^\]]+)\]$/.exec(col.header)?.[1];
       named.push({
         ...d,
@@ -304,7 +305,7 @@ function namedInputChanges(
         named.push({
           ...d,
           address: `${letter}${sheetRow}`,
-          label: `column ${JSON.stringify(at.result.raw.headers[column - 1] ?? '')}`,
+          label: `column ${JSON.stringify(at.result.raw.headers[column - FIRST_INPUT_COLUMN] ?? '')}`,
           message:
             (certain
               ? 'changed after writing (its row check and column check no longer match)'
@@ -483,16 +484,16 @@ function rebuildWorklist(
   const n = options.inputCount;
   const header = results.row(1);
   const headers: string[] = [];
-  for (let c = 1; c <= n; c++) {
-    const v = header.get(c)?.value;
+  for (let i = 0; i < n; i++) {
+    const v = header.get(inputColumn(i))?.value;
     headers.push(v === null || v === undefined ? '' : String(v));
   }
-  const worklistRowColumn = n + 1;
+  const worklistRowColumn = inputColumn(n);
   const columns: RawCell[][] = headers.map(() => []);
   const rowNumbers: number[] = [];
   for (let r = 2; r <= results.lastRow; r++) {
     const cells = results.row(r);
-    for (let c = 1; c <= n; c++) columns[c - 1]!.push(cells.get(c)?.value ?? null);
+    for (let i = 0; i < n; i++) columns[i]!.push(cells.get(inputColumn(i))?.value ?? null);
     const wr = cells.get(worklistRowColumn)?.value;
     rowNumbers.push(typeof wr === 'number' && Number.isInteger(wr) && wr > 0 ? wr : r);
   }
@@ -556,7 +557,7 @@ function missingRows(stored: StoredWorkbook, provenance: StoredSheet, raw: RawTa
     if (!expectedSet.has(w)) {
       out.push({
         sheet: RESULTS_SHEET,
-        address: `A${i + 2}`,
+        address: `${columnLetter(inputColumn(raw.headers.length))}${i + 2}`,
         label: WORKLIST_ROW_HEADER,
         message: `worklist row ${w} was not in the workbook as written (added?)`,
       });

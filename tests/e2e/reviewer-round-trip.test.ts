@@ -112,33 +112,33 @@ describe.skipIf(!ready)('the reviewer round trip', () => {
   }, 120_000);
 
   it('an input typed over (openpyxl): exit 1, its cell, column, sample and value named by the row and column checks', () => {
-    // Results!G7 is "Sample Vol (mL)" of "KB-03 Footbridge", 1000 when written (samples/kestrel-brook-2026-11.csv).
+    // Results!L7 is "Sample Vol (mL)" of "KB-03 Footbridge", 1000 when written (samples/kestrel-brook-2026-11.csv).
     const changed = join(dir, 'input-changed.xlsx');
-    openpyxlSave(workbook, changed, `ws('Results')['G7'] = 900`);
+    openpyxlSave(workbook, changed, `ws('Results')['L7'] = 900`);
     const r = runCli(['verify', changed]);
     expect(r.code).toBe(1);
     const lines = r.stdout.trimEnd().split('\n');
     // openpyxl kept no results, so nothing saved shows the old value: the row and column checks name the cell.
     expect(lines[0]).toBe(
-      'Results!G7, worklist row 7, sample "KB-03 Footbridge", column "Sample Vol (mL)": changed after writing (its row check and column check no longer match): ' +
+      'Results!L7, worklist row 7, sample "KB-03 Footbridge", column "Sample Vol (mL)": changed after writing (its row check and column check no longer match): ' +
         'the cell holds 900; the value as written is not kept in the workbook (the saving program recalculated or dropped the results that showed it)',
     );
-    expect(lines[1]).toMatch(/^Results!AJ7, worklist row 7, sample "KB-03 Footbridge", row check: stored "[0-9a-f]{16}", expected "[0-9a-f]{16}"$/);
+    expect(lines[1]).toMatch(/^Results!AL7, worklist row 7, sample "KB-03 Footbridge", row check: stored "[0-9a-f]{16}", expected "[0-9a-f]{16}"$/);
     expect(lines).toContain('Summary!T17, mean E %: stored 99.98786757959796, expected 99.98815441777488');
     expect(r.stderr).toMatch(/: \d+ differences; the integrity digest does not match/);
   });
 
   it('two inputs typed over in two rows and columns (openpyxl): each row names both candidate cells', () => {
     const changed = join(dir, 'two-inputs-changed.xlsx');
-    openpyxlSave(workbook, changed, `ws('Results')['G7'] = 900; ws('Results')['F9'] = 2.5`);
+    openpyxlSave(workbook, changed, `ws('Results')['L7'] = 900; ws('Results')['K9'] = 2.5`);
     const r = runCli(['verify', changed]);
     expect(r.code).toBe(1);
-    const lines = r.stdout.trimEnd().split('\n').filter((l) => /^Results!(F|G)\d+,/.test(l));
+    const lines = r.stdout.trimEnd().split('\n').filter((l) => /^Results!(K|L)\d+,/.test(l));
     expect(lines).toEqual([
-      expect.stringMatching(/^Results!F7, .*: this cell or G7 changed after writing \(the row check names the row, the column checks columns F, G\): the cell holds 358\.3;/),
-      expect.stringMatching(/^Results!G7, .*: this cell or F7 changed after writing .*: the cell holds 900;/),
-      expect.stringMatching(/^Results!F9, worklist row 9, sample "KB-05 Ford", .*: this cell or G9 changed after writing .*: the cell holds 2\.5;/),
-      expect.stringMatching(/^Results!G9, .*: this cell or F9 changed after writing .*: the cell holds 1000;/),
+      expect.stringMatching(/^Results!K7, .*: this cell or L7 changed after writing \(the row check names the row, the column checks columns K, L\): the cell holds 358\.3;/),
+      expect.stringMatching(/^Results!L7, .*: this cell or K7 changed after writing .*: the cell holds 900;/),
+      expect.stringMatching(/^Results!K9, worklist row 9, sample "KB-05 Ford", .*: this cell or L9 changed after writing .*: the cell holds 2\.5;/),
+      expect.stringMatching(/^Results!L9, .*: this cell or K9 changed after writing .*: the cell holds 1000;/),
     ]);
   });
 
@@ -146,24 +146,24 @@ describe.skipIf(!ready)('the reviewer round trip', () => {
     const changed = join(dir, 'input-changed-exceljs.xlsx');
     const { editCopy } = await import('../verify/workbook-fixtures.js');
     await editCopy(workbook, changed, (wb) => {
-      wb.getWorksheet('Results')!.getCell('G7').value = 900;
+      wb.getWorksheet('Results')!.getCell('L7').value = 900;
     });
     const r = runCli(['verify', changed]);
     expect(r.code).toBe(1);
     expect(r.stdout.split('\n')[0]).toBe(
-      'Results!G7, worklist row 7, sample "KB-03 Footbridge", column "Sample Vol (mL)": typed over after writing: the cell holds 900; ' +
-        'when written, the formulas read it as 1000 mL (the saved result of Results!Q7)',
+      'Results!L7, worklist row 7, sample "KB-03 Footbridge", column "Sample Vol (mL)": typed over after writing: the cell holds 900; ' +
+        'when written, the formulas read it as 1000 mL (the saved result of Results!V7)',
     );
   });
 
   it('a computed cell changed (openpyxl), then saved by LibreOffice: exit 1, its formula and both values', async () => {
     const changed = join(dir, 'computed-changed.xlsx');
-    openpyxlSave(workbook, changed, `ws('Results')['AD7'] = 0.5`);
+    openpyxlSave(workbook, changed, `ws('Results')['AI7'] = 0.5`);
     const saved = await recalcWithLibreOffice(changed);
     const r = runCli(['verify', saved]);
     expect(r.code).toBe(1);
     expect(r.stdout).toMatch(
-      /^Results!AD7, worklist row 7, sample "KB-03 Footbridge", pre_extraction_conc \[ug\/L\]: the formula was replaced by a value: stored 0\.5, expected =IF\(OR\(P7="".* giving 0\.3583\d*$/m,
+      /^Results!AI7, worklist row 7, sample "KB-03 Footbridge", pre_extraction_conc \[ug\/L\]: the formula was replaced by a value: stored 0\.5, expected =IF\(OR\(U7="".* giving 0\.3583\d*$/m,
     );
   }, 120_000);
 
@@ -209,13 +209,13 @@ describe.skipIf(!ready)('the reviewer round trip', () => {
 
     // Changed after signing (openpyxl, then LibreOffice): both signatures fail, the cell is named, exit 1.
     const edited = join(dir, 'signed-then-changed.xlsx');
-    openpyxlSave(final, edited, `ws('Results')['F7'] = 0.4`);
+    openpyxlSave(final, edited, `ws('Results')['K7'] = 0.4`);
     const after = await recalcWithLibreOffice(edited);
     const v = runCli(['verify', after, '--trust', keys.analyst!.pub, '--trust', keys.reviewer!.pub]);
     expect(v.code).toBe(1);
     expect(v.stdout).toMatch(/^Signatures!A5, signature by "Ada Quill, analyst" .*: not valid: it does not match the content and the signatures before it \(changed since it was signed\?\), by a trusted key$/m);
     expect(v.stdout).toMatch(/^Signatures!A6, signature by "Bo Reyes, reviewer" .*: not valid: /m);
-    expect(v.stdout).toMatch(/^Results!AJ7, worklist row 7, sample "KB-03 Footbridge", row check: /m);
+    expect(v.stdout).toMatch(/^Results!AL7, worklist row 7, sample "KB-03 Footbridge", row check: /m);
     expect(v.stderr).toMatch(/; 2 signatures: 2 not valid\n$/);
 
     // sign refuses a workbook that no longer verifies, and leaves it as it was.

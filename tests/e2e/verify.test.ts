@@ -32,16 +32,16 @@ describe('phasebook verify', () => {
   it('exits 1 with one line per difference: sheet, cell, worklist row, sample id, the two values', async () => {
     const copy = join(dir, 'typed-over.xlsx');
     await editCopy(workbook, copy, (wb) => {
-      wb.getWorksheet('Results')!.getCell('G7').value = 900; // KB-03 Footbridge, was 1000.0 mL
+      wb.getWorksheet('Results')!.getCell('L7').value = 900; // KB-03 Footbridge, was 1000.0 mL
     });
     const r = runCli(['verify', copy]);
     expect(r.code).toBe(1);
     const lines = r.stdout.trimEnd().split('\n');
     expect(lines[0]).toBe(
-      'Results!G7, worklist row 7, sample "KB-03 Footbridge", column "Sample Vol (mL)": typed over after writing: the cell holds 900; ' +
-        'when written, the formulas read it as 1000 mL (the saved result of Results!Q7)',
+      'Results!L7, worklist row 7, sample "KB-03 Footbridge", column "Sample Vol (mL)": typed over after writing: the cell holds 900; ' +
+        'when written, the formulas read it as 1000 mL (the saved result of Results!V7)',
     );
-    expect(lines).toContain('Results!Q7, worklist row 7, sample "KB-03 Footbridge", sample_volume (as used) [mL] from column G: =IF(G7="","",G7) gives 900, but the cell holds 1000');
+    expect(lines).toContain('Results!V7, worklist row 7, sample "KB-03 Footbridge", sample_volume (as used) [mL] from column L: =IF(L7="","",L7) gives 900, but the cell holds 1000');
     // exceljs, saving the edit, keeps no result for a formula whose result is empty text: those are recomputed, and said so.
     expect(r.stderr).toMatch(/^phasebook verify: .*: \d+ differences; the integrity digest does not match; \d+ formula cells had no saved result \(the program that saved the workbook dropped them\) and were recomputed\n$/);
     expect(r.stderr).toContain(`${copy}: ${lines.length} differences;`);
@@ -54,7 +54,7 @@ describe('phasebook verify', () => {
   it('--json: one document with every difference, the same lines, and the exit code unchanged', async () => {
     const copy = join(dir, 'typed-over-json.xlsx');
     await editCopy(workbook, copy, (wb) => {
-      wb.getWorksheet('Results')!.getCell('G7').value = 900;
+      wb.getWorksheet('Results')!.getCell('L7').value = 900;
     });
     const plain = runCli(['verify', copy, '--quiet']);
     const r = runCli(['verify', copy, '--json']);
@@ -65,12 +65,12 @@ describe('phasebook verify', () => {
     expect(doc.differences.map((d: { line: string }) => d.line)).toEqual(plain.stdout.trimEnd().split('\n'));
     expect(doc.differences).toContainEqual({
       sheet: 'Results',
-      cell: 'Q7',
+      cell: 'V7',
       worklist_row: 7,
       sample_id: 'KB-03 Footbridge',
-      label: 'sample_volume (as used) [mL] from column G',
-      message: '=IF(G7="","",G7) gives 900, but the cell holds 1000',
-      line: 'Results!Q7, worklist row 7, sample "KB-03 Footbridge", sample_volume (as used) [mL] from column G: =IF(G7="","",G7) gives 900, but the cell holds 1000',
+      label: 'sample_volume (as used) [mL] from column L',
+      message: '=IF(L7="","",L7) gives 900, but the cell holds 1000',
+      line: 'Results!V7, worklist row 7, sample "KB-03 Footbridge", sample_volume (as used) [mL] from column L: =IF(L7="","",L7) gives 900, but the cell holds 1000',
     });
     const untouched = JSON.parse(runCli(['verify', workbook, '--json']).stdout);
     expect(untouched).toMatchObject({ exit_code: 0, untouched: true, digest_matches: true, differences: [] });

@@ -66,25 +66,25 @@ describe('each kind of edit is found and named', () => {
   it('a volume typed over: the value the formulas used, what follows from it, and the row check', async () => {
     // Row 7 is the sample "KB-03 Footbridge" (samples/kestrel-brook-2026-11.csv), 1000.0 mL.
     const path = await edited((wb) => {
-      wb.getWorksheet('Results')!.getCell('G7').value = 900;
+      wb.getWorksheet('Results')!.getCell('L7').value = 900;
     });
     const report = await verifyWorkbook(path);
     const text = lines(report.differences);
     // The input cell first, with both values, then the row check, then what follows from it.
     expect(text[0]).toBe(
-      'Results!G7, worklist row 7, sample "KB-03 Footbridge", column "Sample Vol (mL)": typed over after writing: the cell holds 900; ' +
-        'when written, the formulas read it as 1000 mL (the saved result of Results!Q7)',
+      'Results!L7, worklist row 7, sample "KB-03 Footbridge", column "Sample Vol (mL)": typed over after writing: the cell holds 900; ' +
+        'when written, the formulas read it as 1000 mL (the saved result of Results!V7)',
     );
-    expect(text[1]).toMatch(/^Results!AJ7, worklist row 7, sample "KB-03 Footbridge", row check: stored "[0-9a-f]{16}", expected "[0-9a-f]{16}"$/);
-    expect(text).toContain('Results!Q7, worklist row 7, sample "KB-03 Footbridge", sample_volume (as used) [mL] from column G: =IF(G7="","",G7) gives 900, but the cell holds 1000');
-    expect(text.some((l) => /^Results!AD7, worklist row 7, sample "KB-03 Footbridge", pre_extraction_conc \[ug\/L\]: =IF\(.* gives 0\.398\d*, but the cell holds 0\.3583/.test(l))).toBe(true);
+    expect(text[1]).toMatch(/^Results!AL7, worklist row 7, sample "KB-03 Footbridge", row check: stored "[0-9a-f]{16}", expected "[0-9a-f]{16}"$/);
+    expect(text).toContain('Results!V7, worklist row 7, sample "KB-03 Footbridge", sample_volume (as used) [mL] from column L: =IF(L7="","",L7) gives 900, but the cell holds 1000');
+    expect(text.some((l) => /^Results!AI7, worklist row 7, sample "KB-03 Footbridge", pre_extraction_conc \[ug\/L\]: =IF\(.* gives 0\.398\d*, but the cell holds 0\.3583/.test(l))).toBe(true);
     expect(text.some((l) => l.startsWith('Provenance!B'))).toBe(true);
     expect(report.digestMatches).toBe(false);
   });
 
   it('a result pasted as a value: the formula was replaced, even with the same number', async () => {
     const path = await edited((wb) => {
-      const c = wb.getWorksheet('Results')!.getCell('AD7');
+      const c = wb.getWorksheet('Results')!.getCell('AI7');
       c.value = c.result as number;
     });
     const report = await verifyWorkbook(path);
@@ -92,7 +92,7 @@ describe('each kind of edit is found and named', () => {
     expect(report.differences).toHaveLength(2);
     expect(formatDifference(report.differences[1]!)).toMatch(/^Provenance!B\d+, integrity digest/);
     expect(formatDifference(report.differences[0]!)).toMatch(
-      /^Results!AD7, worklist row 7, sample "KB-03 Footbridge", pre_extraction_conc \[ug\/L\]: the formula was replaced by a value: stored (0\.3583\d*), expected =IF\(OR\(P7="".* giving (0\.3583\d*)$/,
+      /^Results!AI7, worklist row 7, sample "KB-03 Footbridge", pre_extraction_conc \[ug\/L\]: the formula was replaced by a value: stored (0\.3583\d*), expected =IF\(OR\(U7="".* giving (0\.3583\d*)$/,
     );
     // The same number on both sides: only the formula is gone.
     const m = /stored (\S+), .* giving (\S+)$/.exec(formatDifference(report.differences[0]!))!;
@@ -101,12 +101,12 @@ describe('each kind of edit is found and named', () => {
 
   it('a formula edited', async () => {
     const path = await edited((wb) => {
-      const c = wb.getWorksheet('Results')!.getCell('AD7');
-      c.value = { formula: 'P7*2', result: c.result } as ExcelJS.CellFormulaValue;
+      const c = wb.getWorksheet('Results')!.getCell('AI7');
+      c.value = { formula: 'U7*2', result: c.result } as ExcelJS.CellFormulaValue;
     });
     const text = lines((await verifyWorkbook(path)).differences);
     expect(text).toHaveLength(1);
-    expect(text[0]).toMatch(/^Results!AD7, worklist row 7, sample "KB-03 Footbridge", pre_extraction_conc \[ug\/L\]: the formula was changed: stored =P7\*2, expected =IF\(/);
+    expect(text[0]).toMatch(/^Results!AI7, worklist row 7, sample "KB-03 Footbridge", pre_extraction_conc \[ug\/L\]: the formula was changed: stored =U7\*2, expected =IF\(/);
   });
 
   it('a deleted row: the row is missing, and the rows and counts no longer match', async () => {
@@ -154,8 +154,8 @@ describe('each kind of edit is found and named', () => {
     const text = lines((await verifyWorkbook(path)).differences);
     expect(text.some((l) => /^Method!B\d+, SHA-256 of the method file: stored "695148ae/.test(l))).toBe(true);
     expect(text.some((l) => /^Provenance!B\d+, method SHA-256: stored "695148ae/.test(l))).toBe(true);
-    expect(text).toContain('Results!AG3, worklist row 3, sample "MB-2611-A-LCS", flags: stored (empty), expected "REC_HIGH"');
-    expect(text).toContain('Results!AH3, worklist row 3, sample "MB-2611-A-LCS", qc_status: stored "pass", expected "fail"');
+    expect(text).toContain('Results!D3, worklist row 3, sample "MB-2611-A-LCS", flags: stored (empty), expected "REC_HIGH"');
+    expect(text).toContain('Results!E3, worklist row 3, sample "MB-2611-A-LCS", qc_status: stored "pass", expected "fail"');
   });
 
   it('a method text that no longer reads as a method is named, and nothing is recomputed', async () => {
@@ -176,10 +176,10 @@ describe('each kind of edit is found and named', () => {
     // Raise a volume and put the consequences in, as a recalculating program would save them.
     const path = await edited((wb) => {
       const ws = wb.getWorksheet('Results')!;
-      ws.getCell('G9').value = 1000.5;
+      ws.getCell('L9').value = 1000.5;
     });
     const text = lines((await verifyWorkbook(path)).differences);
-    expect(text.some((l) => l.startsWith('Results!AJ9, worklist row 9, sample "KB-05 Ford", row check:'))).toBe(true);
+    expect(text.some((l) => l.startsWith('Results!AL9, worklist row 9, sample "KB-05 Ford", row check:'))).toBe(true);
   });
 });
 
@@ -284,7 +284,7 @@ describe('worklists with more to carry', () => {
     });
     const report = await verifyWorkbook(changed);
     const text = lines(report.differences);
-    expect(text).toContain('Results!AG2, worklist row 2, sample "L1", flags: stored "REC_HIGH", expected (empty)');
+    expect(text).toContain('Results!D2, worklist row 2, sample "L1", flags: stored "REC_HIGH", expected (empty)');
     expect(report.digestMatches).toBe(false);
   });
 });

@@ -85,20 +85,48 @@ describe('sheets', () => {
 });
 
 describe('Results layout', () => {
-  it('starts with the worklist columns verbatim and in order, then the worklist row', () => {
+  it('leads with what a reviewer reads first, then the worklist columns verbatim and in order, then the worklist row', () => {
     const ws = kestrel.wb.getWorksheet('Results')!;
-    const headers = kestrel.result.raw.headers;
-    headers.forEach((h, i) => expect(plain(ws.getCell(1, i + 1))).toBe(h));
-    expect(plain(ws.getCell(1, headers.length + 1))).toBe('worklist row');
-    expect(plain(ws.getCell(2, headers.length + 1))).toBe(2);
+    expect([1, 2, 3, 4, 5].map((c) => plain(ws.getCell(1, c)))).toEqual(['sample_id', 'analyte', 'reported_result [ug/L]', 'flags', 'qc_status']);
+    const { result } = kestrel;
+    for (let r = 0; r < result.rowsOut; r++) {
+      const row = ws.getRow(r + 2);
+      expect(plain(row.getCell(1)) ?? '', `A${r + 2}`).toBe(result.table.texts.get('sample_id')![r]);
+      expect(plain(row.getCell(2)) ?? '', `B${r + 2}`).toBe(result.table.texts.get('analyte')![r]);
+      expect(plain(row.getCell(3)) ?? '', `C${r + 2}`).toBe(result.qc.reported[r]);
+      expect(plain(row.getCell(4)) ?? '', `D${r + 2}`).toBe(result.rowFlags[r]);
+      expect(plain(row.getCell(5)) ?? '', `E${r + 2}`).toBe(result.qc.status[r]);
+    }
+    // Row 3 of samples/kestrel-brook-2026-11.csv (read by eye from the file): the LCS of 2,4-dichlorophenol.
+    expect([plain(ws.getCell('A3')), plain(ws.getCell('B3'))]).toEqual(['MB-2611-A-LCS', '2,4-Dichlorophenol']);
+    const headers = result.raw.headers;
+    headers.forEach((h, i) => expect(plain(ws.getCell(1, i + 6))).toBe(h));
+    expect(plain(ws.getCell(1, headers.length + 6))).toBe('worklist row');
+    expect(plain(ws.getCell(2, headers.length + 6))).toBe(2);
   });
 
-  it('carries every column of the results CSV under the same header, in the same relative order', () => {
+  it('groups the worklist columns and the as-used columns apart, so that each folds away (outline level 1), and keeps them open', () => {
     const ws = kestrel.wb.getWorksheet('Results')!;
-    const positions = outputColumns(kestrel.result).map((c) => headerColumn(ws, c.header));
+    const layout = resultsLayout(kestrel.result);
+    const levels = layout.columns.map((c) => ws.getColumn(c.column).outlineLevel);
+    expect(levels).toEqual(layout.columns.map((c) => (c.kind === 'input' || c.kind === 'as-used' ? 1 : 0)));
+    expect(levels.slice(0, 5)).toEqual([0, 0, 0, 0, 0]);
+    expect(levels.filter((l) => l === 1).length).toBe(kestrel.result.raw.headers.length + layout.asUsed.size);
+    // The worklist row, between the groups, keeps them two.
+    expect(ws.getColumn(layout.worklistRow.column).outlineLevel).toBe(0);
+    expect(layout.columns.every((c) => !ws.getColumn(c.column).hidden)).toBe(true);
+  });
+
+  it('carries every column of the results CSV under the same header: reported_result, flags and qc_status lead, the rest in the same relative order', () => {
+    const ws = kestrel.wb.getWorksheet('Results')!;
+    const columns = outputColumns(kestrel.result);
+    const lead = (['reported_result', 'flags', 'qc_status'] as const).map((role) => columns.find((c) => c.role === role)!);
+    expect(lead.map((c) => headerColumn(ws, c.header))).toEqual([3, 4, 5]);
+    const positions = columns.filter((c) => !lead.includes(c)).map((c) => headerColumn(ws, c.header));
+    expect(positions.length).toBe(columns.length - 3);
     expect([...positions].sort((a, b) => a - b)).toEqual(positions);
+    expect(positions[0]).toBe(6);
     expect(positions).toContain(headerColumn(ws, 'pre_extraction_conc [ug/L]'));
-    expect(positions).toContain(headerColumn(ws, 'qc_status'));
   });
 
   it('puts an "as used" column, with the method unit, for every field the formulas read, between inputs and computed columns', () => {
@@ -112,11 +140,11 @@ describe('Results layout', () => {
 
   it('keeps text as text (a leading zero, a leading "=") and numbers as numbers', () => {
     const ws = canonical.wb.getWorksheet('Results')!;
-    expect(ws.getCell('A2').value).toBe('007');
-    expect(ws.getCell('A4').value).toBe('=SUM(A1)');
-    expect(ws.getCell('A4').type).toBe(ExcelJS.ValueType.String);
-    expect(ws.getCell('F2').value).toBe(6);
-    expect(ws.getCell('F13').value).toBe('ten'); // the bad cell, verbatim
+    expect(ws.getCell('F2').value).toBe('007');
+    expect(ws.getCell('F4').value).toBe('=SUM(A1)');
+    expect(ws.getCell('F4').type).toBe(ExcelJS.ValueType.String);
+    expect(ws.getCell('K2').value).toBe(6);
+    expect(ws.getCell('K13').value).toBe('ten'); // the bad cell, verbatim
   });
 
   it('gives every computed cell of a row without input errors a formula, its cached value the engine value', () => {
@@ -142,10 +170,10 @@ describe('Results layout', () => {
     const ws = kestrel.wb.getWorksheet('Results')!;
     // LCS row 3: "BS" is the lab's code for lcs (templates/surface-water.yaml).
     const type = ws.getCell(3, headerColumn(ws, 'sample_type (as used)'));
-    expect(type.formula).toMatch(/^IF\(TRIM\(B3\)="","sample",VLOOKUP\(LOWER\(TRIM\(B3\)\),Method!\$A\$\d+:\$B\$\d+,2,FALSE\)\)$/);
+    expect(type.formula).toMatch(/^IF\(TRIM\(G3\)="","sample",VLOOKUP\(LOWER\(TRIM\(G3\)\),Method!\$A\$\d+:\$B\$\d+,2,FALSE\)\)$/);
     expect(type.result).toBe('lcs');
     const extractions = ws.getCell(3, headerColumn(ws, 'extractions (as used)'));
-    expect(extractions.formula).toMatch(/^IF\(I3="",Method!\$I\$\d+,I3\)$/);
+    expect(extractions.formula).toMatch(/^IF\(N3="",Method!\$I\$\d+,N3\)$/);
     // No worklist column for K: the analyte's partition coefficient on the Method sheet.
     const k = ws.getCell(3, headerColumn(ws, 'partition_coeff (as used)'));
     expect(k.formula).toMatch(/^Method!\$C\$\d+$/);
@@ -182,7 +210,7 @@ describe('marks', () => {
   });
 
   it('an input error marks the bad cell itself', () => {
-    const c = canonical.wb.getWorksheet('Results')!.getCell('F13');
+    const c = canonical.wb.getWorksheet('Results')!.getCell('K13');
     expect(fillOf(c)).toBe(COLOURS.fail);
     expect(noteText(c)).toContain('INPUT_ERROR: row 13, column "extract_conc": expected a number, got "ten"');
   });
@@ -418,7 +446,8 @@ describe('cells a spreadsheet could not take as written', () => {
     const path = join(dir, 'text.xlsx');
     await writeWorkbook(path, result, { run: RUN });
     const ws = (await readBook(path)).getWorksheet('Results')!;
-    expect([2, 3, 4].map((r) => plain(ws.getCell(r, 1)))).toEqual(['  padded id  ', 'two\nlines', 'code_x0041_']);
+    // The worklist's first column is the sheet's sixth, after the five leading ones.
+    expect([2, 3, 4].map((r) => plain(ws.getCell(r, 6)))).toEqual(['  padded id  ', 'two\nlines', 'code_x0041_']);
   });
 
   it('text longer than a cell holds (32,767 characters) is cut there, with a note; the workbook still verifies', async () => {
@@ -429,7 +458,7 @@ describe('cells a spreadsheet could not take as written', () => {
     });
     const path = join(dir, 'long-text.xlsx');
     await writeWorkbook(path, result, { run: RUN });
-    const c = (await readBook(path)).getWorksheet('Results')!.getCell('A2');
+    const c = (await readBook(path)).getWorksheet('Results')!.getCell('F2');
     expect(String(plain(c))).toBe('x'.repeat(32_767));
     expect(noteText(c)).toMatch(/^This cell of the worklist holds 40000 characters; a spreadsheet cell holds 32767/);
     expect((await verifyWorkbook(path)).differences).toEqual([]);
@@ -465,10 +494,10 @@ describe('cells a spreadsheet could not take as written', () => {
     const path = join(dir, 'from-xlsx.xlsx');
     await writeWorkbook(path, result, { run: RUN });
     const out = (await readBook(path)).getWorksheet('Results')!;
-    expect(out.getCell('E2').value).toBe('100');
+    expect(out.getCell('J2').value).toBe('100');
     const used = out.getCell(2, headerColumn(out, 'sample_volume (as used) [mL]'));
     expect(used.value).toBe(100);
-    expect(noteText(used)).toContain('The worklist cell E2 holds text ("100")');
-    expect(out.getCell('D3').value).toBe(5); // a formula cell of the worklist: its value
+    expect(noteText(used)).toContain('The cell J2 (the worklist\'s column "sample_volume", as written) holds text ("100")');
+    expect(out.getCell('I3').value).toBe(5); // a formula cell of the worklist: its value
   });
 });

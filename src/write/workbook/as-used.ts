@@ -38,8 +38,8 @@ export interface AsUsedPlanner {
 
 const WILDCARDS = /[*?~]/;
 
-function literalNote(cellRef: string, value: CellValue): string {
-  return `The worklist cell ${cellRef} holds text (${JSON.stringify(value)}), which a spreadsheet formula cannot read the way phasebook does; the value phasebook read from it is written here.`;
+function literalNote(cellRef: string, header: string, value: CellValue): string {
+  return `The cell ${cellRef} (the worklist's column ${JSON.stringify(header)}, as written) holds text (${JSON.stringify(value)}), which a spreadsheet formula cannot read the way phasebook does; the value phasebook read from it is written here.`;
 }
 
 export function asUsedPlanner(result: RecalcResult, ctx: AsUsedContext): AsUsedPlanner {
@@ -163,13 +163,13 @@ export function asUsedPlanner(result: RecalcResult, ctx: AsUsedContext): AsUsedP
       if (!live) return { value, numFmt };
       const empty = whenEmpty(r, R);
       if (!src) {
-        if (empty === 'text') return cell(value, { numFmt, mark: 'note', note: literalNote(`${ctx.inputLetter(logK!.column)}${R}`, ctx.inputValue(logK!.column, r)) });
+        if (empty === 'text') return cell(value, { numFmt, mark: 'note', note: literalNote(`${ctx.inputLetter(logK!.column)}${R}`, logK!.header, ctx.inputValue(logK!.column, r)) });
         return empty === undefined ? cell(value, { numFmt }) : cell(value ?? '', { numFmt, formula: empty });
       }
       const ref = `${X}${R}`;
       const raw = ctx.inputValue(src.column, r);
-      if (raw !== null && typeof raw !== 'number') return cell(value, { numFmt, mark: 'note', note: literalNote(ref, raw) });
-      if (empty === 'text') return cell(value, { numFmt, mark: 'note', note: literalNote(`${ctx.inputLetter(logK!.column)}${R}`, ctx.inputValue(logK!.column, r)) });
+      if (raw !== null && typeof raw !== 'number') return cell(value, { numFmt, mark: 'note', note: literalNote(ref, src.header, raw) });
+      if (empty === 'text') return cell(value, { numFmt, mark: 'note', note: literalNote(`${ctx.inputLetter(logK!.column)}${R}`, logK!.header, ctx.inputValue(logK!.column, r)) });
       const k = rowFactor(result, field as CanonicalField, r);
       if (k === undefined) return cell(value, { numFmt });
       const used = k === 1 ? ref : `${ref}*${formulaNumber(k)}`;

@@ -58,6 +58,8 @@ export interface SheetPlan {
   name: string;
   /** Column widths in characters. */
   widths: readonly number[];
+  /** Outline level per column (0 or absent: none); a group of level-1 columns folds away in a spreadsheet program. */
+  outlineLevels?: readonly number[];
   /** Rows frozen at the top (and columns at the left). */
   frozen?: { rows: number; columns?: number };
   /** Filter buttons on this 1-based header row, over `columns` columns. */

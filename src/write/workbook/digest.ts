@@ -142,12 +142,14 @@ export class IntegrityDigest {
     if (this.version === 3) {
       const width = Math.max(values.length, options.formulas.length);
       const checks = options.columnChecks;
-      const inputs = checks?.columns ?? 0;
+      // The input columns, 0-based: [first, end).
+      const first = checks ? checks.firstColumn - 1 : 0;
+      const end = checks ? first + checks.columns : 0;
       let line = '[';
       for (let c = 0; c < width; c++) {
         if (c > 0) line += ',';
         const text = options.formulas[c] === true ? '{"f":1}' : canonicalJson(values[c]);
-        if (c < inputs) checks!.addCell(c, text);
+        if (c >= first && c < end) checks!.addCell(c - first, text);
         line += text;
       }
       this.pending += `${line}]\n`;
@@ -222,12 +224,19 @@ export class ColumnChecks {
   /** Cell texts not yet hashed, per column (arrays joined in batches: a string grown cell by cell costs more). */
   private readonly pending: string[][];
 
-  constructor(readonly columns: number) {
+  /**
+   * `columns` input columns, the first of them at the sheet's 1-based column `firstColumn`
+   * (results-layout.ts FIRST_INPUT_COLUMN).
+   */
+  constructor(
+    readonly columns: number,
+    readonly firstColumn: number,
+  ) {
     this.hashes = Array.from({ length: columns }, () => createHash('sha256'));
     this.pending = Array.from({ length: columns }, () => []);
   }
 
-  /** One cell of input column `c` (0-based), as the JSON text of its canonical value (IntegrityDigest passes it on). */
+  /** One cell of input column `c` (0-based among the input columns), as the JSON text of its canonical value (IntegrityDigest passes it on). */
   addCell(c: number, text: string): void {
     const pending = this.pending[c]!;
     pending.push(text);
@@ -245,7 +254,7 @@ export class ColumnChecks {
     const parts: string[] = [];
     for (let c = 0; c < this.columns; c++) {
       this.flush(c);
-      parts.push(`${columnLetter(c + 1)} ${this.hashes[c]!.digest('hex').slice(0, 8)}`);
+      parts.push(`${columnLetter(this.firstColumn + c)} ${this.hashes[c]!.digest('hex').slice(0, 8)}`);
     }
     return parts.join(', ');
   }

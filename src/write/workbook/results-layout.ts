@@ -1,8 +1,11 @@
 /**
- * Where each column of the Results sheet is (DESIGN.md §6): the worklist's columns, the
- * worklist row, the as-used columns, the computed columns, flags, qc_status,
- * reported_result and the row check. The sheet's planner (results-sheet.ts), the as-used
- * cells (as-used.ts) and verify all place cells by this one layout.
+ * Where each column of the Results sheet is (DESIGN.md §6). What a reviewer reads first
+ * leads: sample_id, analyte, reported_result, flags, qc_status; then the worklist's
+ * columns verbatim, the worklist row, the as-used columns, the computed columns (and the
+ * expanded uncertainty) and the row check. The verbatim and the as-used columns form an
+ * outline group each (outline level 1), so a spreadsheet program folds them away. The
+ * sheet's planner (results-sheet.ts), the as-used cells (as-used.ts), the digest's column
+ * checks and verify all place cells by this one layout.
  */
 import { DERIVED_COLUMNS, FIELD_SPECS, type CanonicalField } from '../../domain/fields.js';
 import type { RecalcResult } from '../../pipeline.js';
@@ -13,7 +16,7 @@ export const RESULTS_SHEET = 'Results';
 export const WORKLIST_ROW_HEADER = 'worklist row';
 export const ROW_CHECK_HEADER = 'row check';
 
-export type ResultsColumnKind = 'input' | 'worklist-row' | 'as-used' | 'computed' | 'uncertainty' | 'flags' | 'qc-status' | 'reported' | 'row-check';
+export type ResultsColumnKind = 'sample' | 'analyte' | 'input' | 'worklist-row' | 'as-used' | 'computed' | 'uncertainty' | 'flags' | 'qc-status' | 'reported' | 'row-check';
 
 export interface ResultsColumn {
   kind: ResultsColumnKind;
@@ -27,12 +30,31 @@ export interface ResultsColumn {
   field?: string;
   /** computed: the formula column's name. */
   name?: string;
+  /** 1 for a column that folds away with its group (the verbatim inputs, the as-used columns), else 0. */
+  outlineLevel: 0 | 1;
+}
+
+/**
+ * The leading columns, before the worklist's: sample_id, analyte, reported_result, flags,
+ * qc_status. Their number is fixed, so that verify finds the input columns of a stored
+ * sheet before it has planned one.
+ */
+export const LEADING_COLUMNS = 5;
+
+/** The 1-based column of the worklist's first column on the Results sheet. */
+export const FIRST_INPUT_COLUMN = LEADING_COLUMNS + 1;
+
+/** The 1-based Results column of the worklist's column `index` (0-based). */
+export function inputColumn(index: number): number {
+  return FIRST_INPUT_COLUMN + index;
 }
 
 export interface ResultsLayout {
   columns: ResultsColumn[];
   headers: string[];
   inputCount: number;
+  sampleId: ResultsColumn;
+  analyte: ResultsColumn;
   asUsed: Map<string, ResultsColumn>;
   computed: Map<string, ResultsColumn>;
   /** The expanded uncertainty of the results and its k, when the run has one (figures/expanded.ts). */
@@ -76,13 +98,20 @@ export function fieldUnit(result: RecalcResult, field: string): string {
 
 export function resultsLayout(result: RecalcResult): ResultsLayout {
   const columns: ResultsColumn[] = [];
-  const push = (c: Omit<ResultsColumn, 'column' | 'letter'>): ResultsColumn => {
+  const push = (c: Omit<ResultsColumn, 'column' | 'letter' | 'outlineLevel'>): ResultsColumn => {
     const column = columns.length + 1;
-    const col = { ...c, column, letter: columnLetter(column) };
+    const col: ResultsColumn = { ...c, column, letter: columnLetter(column), outlineLevel: c.kind === 'input' || c.kind === 'as-used' ? 1 : 0 };
     columns.push(col);
     return col;
   };
+  const sampleId = push({ kind: 'sample', header: 'sample_id' });
+  const analyte = push({ kind: 'analyte', header: 'analyte' });
+  const reported = push({ kind: 'reported', header: reportedHeader(result.method) });
+  const flags = push({ kind: 'flags', header: 'flags' });
+  const qcStatus = push({ kind: 'qc-status', header: 'qc_status' });
+  if (columns.length !== LEADING_COLUMNS) throw new Error(`resultsLayout: ${columns.length} leading columns, LEADING_COLUMNS says ${LEADING_COLUMNS}`);
   result.raw.headers.forEach((header, i) => push({ kind: 'input', header, inputIndex: i }));
+  // Between the two groups, so that each folds on its own.
   const worklistRow = push({ kind: 'worklist-row', header: WORKLIST_ROW_HEADER });
   const asUsed = new Map<string, ResultsColumn>();
   for (const field of asUsedFields(result)) {
@@ -95,14 +124,13 @@ export function resultsLayout(result: RecalcResult): ResultsLayout {
   const uncertainty = outputColumns(result)
     .filter((c) => c.role === 'uncertainty')
     .map((c) => push({ kind: 'uncertainty', header: c.header, name: c.name }));
-  const flags = push({ kind: 'flags', header: 'flags' });
-  const qcStatus = push({ kind: 'qc-status', header: 'qc_status' });
-  const reported = push({ kind: 'reported', header: reportedHeader(result.method) });
   const rowCheck = push({ kind: 'row-check', header: ROW_CHECK_HEADER });
   return {
     columns,
     headers: columns.map((c) => c.header),
     inputCount: result.raw.headers.length,
+    sampleId,
+    analyte,
     asUsed,
     computed,
     uncertainty,

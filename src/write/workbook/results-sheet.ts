@@ -1,18 +1,21 @@
 /**
- * The Results sheet, planned row by row.
+ * The Results sheet, planned row by row (the columns' places: results-layout.ts).
  *
  * Columns, left to right:
- * 1. the worklist's columns, verbatim and in order (text stays text; a CSV cell of a
- *    numeric field, or one that is plainly a number, is stored as a number);
- * 2. `worklist row`: the row of the sample in the worklist file (messages name it);
- * 3. "as used" columns, one per canonical field the formulas read, in the method's
+ * 1. what the reviewer reads first: `sample_id` and `analyte` as the run read them,
+ *    `reported_result`, `flags` and `qc_status` (as in the CSV);
+ * 2. the worklist's columns, verbatim and in order (text stays text; a CSV cell of a
+ *    numeric field, or one that is plainly a number, is stored as a number), an
+ *    outline group that folds away;
+ * 3. `worklist row`: the row of the sample in the worklist file (messages name it);
+ * 4. "as used" columns, one per canonical field the formulas read, in the method's
  *    units and canonical codes, each a formula over the verbatim input cell (unit
  *    factor, default from the Method sheet, lab code look-up) with the engine's value
- *    cached;
- * 4. the computed columns (same headers as the results CSV), live formulas over the
- *    as-used and computed cells of the row and, for parent()/pair(), of the linked row;
- * 5. `flags`, `qc_status` (as in the CSV), and `row check`, a short hash of the row's
- *    input cells that `phasebook verify` recomputes.
+ *    cached; another outline group;
+ * 5. the computed columns (same headers as the results CSV), live formulas over the
+ *    as-used and computed cells of the row and, for parent()/pair(), of the linked row,
+ *    and the expanded uncertainty where the run has one;
+ * 6. `row check`, a short hash of the row's input cells that `phasebook verify` recomputes.
  *
  * Rows with an input error hold plain values (computed cells empty), since the
  * spreadsheet cannot know the engine's row validation. A formula with no spreadsheet
@@ -42,7 +45,7 @@ import {
 } from './cells.js';
 import type { MethodRefs } from './method-sheet.js';
 import { asUsedPlanner } from './as-used.js';
-import { asUsedFields, asUsedHeader, fieldUnit, resultsLayout, RESULTS_SHEET, ROW_CHECK_HEADER, WORKLIST_ROW_HEADER, type ResultsColumn, type ResultsColumnKind, type ResultsLayout } from './results-layout.js';
+import { asUsedFields, asUsedHeader, fieldUnit, inputColumn, resultsLayout, RESULTS_SHEET, ROW_CHECK_HEADER, WORKLIST_ROW_HEADER, type ResultsColumn, type ResultsColumnKind, type ResultsLayout } from './results-layout.js';
 import { canonicalValue } from './canonical.js';
 import type { FormatVersion } from './options.js';
 
@@ -169,7 +172,7 @@ export function planResultsSheet(result: RecalcResult, options: ResultsOptions):
     for (let c = 0; c < inputCount; c++) values.push(inputValue(c, r));
     return values;
   };
-  const inputLetter = (column: number) => columnLetter(column + 1);
+  const inputLetter = (column: number) => columnLetter(inputColumn(column));
 
   // Formula templates, per formula column and per (parent row?, pair row?).
   const compiled = result.compiled;
@@ -238,6 +241,8 @@ export function planResultsSheet(result: RecalcResult, options: ResultsOptions):
   const asUsedPlanners = [...layout.asUsed.values()].map((col) =>
     asUsedPlanner(result, { col, layout, refs, inputValue, inputLetter, numFmt: numFmt.get(col.column) }),
   );
+  const sampleIds = table.texts.get('sample_id')!;
+  const analytes = table.texts.get('analyte')!;
   const widths = layout.columns.map((col) => {
     if (col.kind === 'input') {
       const texts = [col.header];
@@ -247,6 +252,8 @@ export function planResultsSheet(result: RecalcResult, options: ResultsOptions):
       }
       return fitWidth(texts, { max: 40 });
     }
+    if (col.kind === 'sample') return fitWidth([col.header, ...sampleIds.slice(0, 500)], { min: 10, max: 30 });
+    if (col.kind === 'analyte') return fitWidth([col.header, ...analytes.slice(0, 500)], { min: 10, max: 30 });
     if (col.kind === 'flags') return fitWidth([col.header, ...result.rowFlags.slice(0, 500)], { min: 10, max: 40 });
     if (col.kind === 'row-check') return 18;
     if (col.kind === 'reported') return fitWidth([col.header, ...result.qc.reported.slice(0, 500)], { min: 10, max: 40 });
@@ -271,12 +278,12 @@ export function planResultsSheet(result: RecalcResult, options: ResultsOptions):
     labels: layout.headers,
   };
 
-  // Difference lines name an as-used cell with the worklist column it reads.
+  // Difference lines name an as-used cell, and the leading sample_id and analyte, with the worklist column it reads.
   const rowLabels = layout.columns.map((col) => {
-    const src = col.kind === 'as-used' && isCanonicalField(col.field!) ? result.columnMap.fields.get(col.field) : undefined;
-    return src ? `${col.header} from column ${columnLetter(src.column + 1)}` : col.header;
+    const field = col.kind === 'sample' ? 'sample_id' : col.kind === 'analyte' ? 'analyte' : col.kind === 'as-used' ? col.field! : undefined;
+    const src = field !== undefined && isCanonicalField(field) ? result.columnMap.fields.get(field) : undefined;
+    return src ? `${col.header} from column ${columnLetter(inputColumn(src.column))}` : col.header;
   });
-  const sampleIds = table.texts.get('sample_id')!;
   const computedColumns = result.method.formulas.map((def) => {
     const col = layout.computed.get(def.name)!;
     // Numbers that are not percentages show the method's significant figures, cell by cell (issue 14).
@@ -294,13 +301,15 @@ export function planResultsSheet(result: RecalcResult, options: ResultsOptions):
     const r = index - 1;
     const R = index + 1;
     const cells: (PlannedCell | undefined)[] = new Array(layout.columns.length);
+    cells[layout.sampleId.column - 1] = cell(sampleIds[r]! || null);
+    cells[layout.analyte.column - 1] = cell(analytes[r]! || null);
     const inputs = inputValues(r);
     for (let c = 0; c < inputs.length; c++) {
       const v = inputs[c]!;
       if (v === null) continue;
       const rawCell = raw.columns[c]![r];
       // Input values are storable already (inputCellWriter); the plain object saves a copy per cell.
-      cells[c] =
+      cells[inputColumn(c) - 1] =
         typeof rawCell === 'string' && rawCell.length > MAX_CELL_TEXT
           ? cell(v, {
               mark: 'note',
@@ -382,7 +391,9 @@ export function planResultsSheet(result: RecalcResult, options: ResultsOptions):
   const plan: SheetPlan = {
     name: RESULTS_SHEET,
     widths,
-    frozen: { rows: 1 },
+    outlineLevels: layout.columns.map((c) => c.outlineLevel),
+    // The header row, and sample_id and analyte beside every column scrolled to.
+    frozen: { rows: 1, columns: 2 },
     autoFilter: { row: 1, columns: layout.columns.length },
     rowCount: n + 1,
     row,
@@ -397,13 +408,13 @@ export function targetColumnOf(result: RecalcResult, layout: ResultsLayout, colu
   if (computed) return computed.column;
   if (isCanonicalField(column)) {
     const src = result.columnMap.fields.get(column);
-    if (src) return src.column + 1;
+    if (src) return inputColumn(src.column);
     const asUsed = layout.asUsed.get(column);
     if (asUsed) return asUsed.column;
     return layout.flags.column;
   }
   const i = result.raw.headers.indexOf(column);
-  return i >= 0 ? i + 1 : layout.flags.column;
+  return i >= 0 ? inputColumn(i) : layout.flags.column;
 }
 
 function addMark(cells: (PlannedCell | undefined)[], column: number, mark: Mark, note: string): void {
@@ -419,6 +430,16 @@ function addMark(cells: (PlannedCell | undefined)[], column: number, mark: Mark,
 
 function headerNotesFor(result: RecalcResult, layout: ResultsLayout, formulaForms: readonly string[]): Map<number, string> {
   const notes = new Map<number, string>();
+  const readFrom = (field: CanonicalField): string => {
+    const src = result.columnMap.fields.get(field);
+    return src ? `the worklist column "${src.header}" (column ${columnLetter(inputColumn(src.column))} here)` : 'the method (the worklist has no column for it)';
+  };
+  notes.set(layout.sampleId.column, `The sample as the run read it from ${readFrom('sample_id')}.`);
+  notes.set(layout.analyte.column, `The analyte as the run read it from ${readFrom('analyte')}.`);
+  notes.set(
+    layout.reported.column,
+    'The result as reported (the results CSV\'s reported_result): to the method\'s significant figures; "<" and the reporting limit below it; above the calibration range, the method\'s words and the dilution it needs.',
+  );
   notes.set(layout.worklistRow.column, 'The row of this sample in the worklist file as given; messages and the Flags sheet name it.');
   for (const col of layout.asUsed.values()) {
     const field = col.field!;

@@ -119,6 +119,59 @@ export function significantFormat(x: number, sig: number): string {
   return FIXED_FORMATS[Math.min(15, Math.max(0, sig - 1 - e))]!;
 }
 
+/** Whether a style wraps its text within the column (the headers and 'wrap'). */
+export function wrapsText(key: StyleKey | undefined): boolean {
+  return key !== undefined && BASE[key].alignment?.wrapText === true;
+}
+
+/** Points a line of the default font (11 pt) takes: a spreadsheet's default row height (15 pt; from memory). */
+export const LINE_HEIGHT = 15;
+
+/** The tallest row a spreadsheet program keeps, in points (Excel's specifications and limits: 409; from memory). */
+export const MAX_ROW_HEIGHT = 409;
+
+/**
+ * The lines a text takes when wrapped in a column `width` characters wide, broken between words as a
+ * spreadsheet program breaks it (a word longer than a line takes several). A column's width counts the
+ * digit "0" of the default font, and most text runs about as wide or narrower; a line is taken to hold
+ * nine tenths of the width, so that the estimate errs towards a row taller than needed, never shorter.
+ */
+export function wrappedLines(text: string, width: number): number {
+  const perLine = Math.max(1, Math.floor(width * 0.9));
+  let lines = 0;
+  for (const paragraph of text.split('\n')) {
+    let used = 0;
+    let count = 1;
+    for (const word of paragraph.split(' ')) {
+      const w = word.length;
+      if (used > 0 && used + 1 + w <= perLine) {
+        used += 1 + w;
+        continue;
+      }
+      if (used > 0) count++;
+      // A word longer than a line fills lines of its own; what remains starts the next.
+      count += Math.floor(Math.max(0, w - 1) / perLine);
+      used = w - Math.floor(Math.max(0, w - 1) / perLine) * perLine;
+    }
+    lines += count;
+  }
+  return lines;
+}
+
+/**
+ * The height (points) a row needs so that its wrapped cells show every line, and so that no wrapped
+ * text runs over the row below; undefined when every wrapped cell fits on one line (the default height).
+ */
+export function wrappedRowHeight(cells: readonly ({ value: unknown; style?: StyleKey } | undefined)[], widths: readonly number[]): number | undefined {
+  let lines = 1;
+  for (let j = 0; j < cells.length; j++) {
+    const c = cells[j];
+    if (c === undefined || !wrapsText(c.style) || typeof c.value !== 'string') continue;
+    lines = Math.max(lines, wrappedLines(c.value, widths[j] ?? 8.43));
+  }
+  return lines > 1 ? Math.min(MAX_ROW_HEIGHT, lines * LINE_HEIGHT) : undefined;
+}
+
 /** A width (characters) that fits the longest of the texts, within limits. */
 export function fitWidth(texts: Iterable<string>, options: { min?: number; max?: number } = {}): number {
   const min = options.min ?? 8;

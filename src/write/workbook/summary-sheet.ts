@@ -161,6 +161,10 @@ export function planSummarySheet(
 
   b.title('Legend', 'section');
   const legendRows: (ReturnType<typeof cell> | string)[][] = MARK_LEGEND.map((m) => [cell(m === 'fail' ? 'fails' : m === 'inform' ? 'informs' : 'note', { mark: m }), MARK_MEANINGS[m]]);
+  legendRows.push([
+    cell('read first', { style: 'header-status' }),
+    'Results: sample_id, analyte, reported_result, flags and qc_status lead the sheet (the worklist row and the row check are marked so too); the worklist columns and the as-used columns after them fold away with the outline buttons above the column letters',
+  ]);
   legendRows.push([cell('worklist column', { style: 'header-input' }), 'Results: a column of the worklist, verbatim']);
   legendRows.push([cell('as used', { style: 'header-as-used' }), 'Results: the value a formula reads, in the method units and codes (a formula over the worklist cell)']);
   legendRows.push([cell('computed', { style: 'header-computed' }), "Results: a formula column of the method, a live formula with the engine's value cached"]);

@@ -26,8 +26,9 @@ import enums from 'exceljs/lib/doc/enums.js';
 import { columnLetter, escapeForXlsx, sheetText, type CellValue, type PlannedCell, type PlannedRow, type SheetPlan } from './cells.js';
 import { ColumnChecks, IntegrityDigest } from './digest.js';
 import { printSettings } from './print.js';
+import { FIRST_INPUT_COLUMN } from './results-layout.js';
 import type { WorkbookPlan } from './workbook-plan.js';
-import { styleFor } from './style.js';
+import { styleFor, wrappedRowHeight } from './style.js';
 import type { RunInfo } from './options.js';
 
 /** Text that a plain element would not keep (leading/trailing spaces, line breaks) is marked xml:space="preserve". */
@@ -171,6 +172,13 @@ async function drained(stream: unknown): Promise<void> {
   else await yieldToEventLoop();
 }
 
+/** The deepest column outline level of a sheet (0: no outline). */
+function outlineOf(plan: SheetPlan): { level: number } {
+  let level = 0;
+  for (const l of plan.outlineLevels ?? []) level = Math.max(level, l);
+  return { level };
+}
+
 async function writeSheet(
   wb: ExcelJS.stream.xlsx.WorkbookWriter,
   plan: SheetPlan,
@@ -180,8 +188,22 @@ async function writeSheet(
   const views: Partial<ExcelJS.WorksheetView>[] = plan.frozen
     ? [{ state: 'frozen', ySplit: plan.frozen.rows, xSplit: plan.frozen.columns ?? 0 }]
     : [];
-  const ws = wb.addWorksheet(plan.name, { views, ...printSettings(plan, { title: options.title }) });
-  ws.columns = plan.widths.map((width) => ({ width }));
+  const outline = outlineOf(plan);
+  const ws = wb.addWorksheet(plan.name, {
+    views,
+    ...printSettings(plan, { title: options.title }),
+    ...(outline.level > 0 ? { properties: { outlineLevelCol: outline.level, outlineProperties: { summaryBelow: true, summaryRight: false } } } : {}),
+  });
+  ws.columns = plan.widths.map((width, i) => {
+    const outlineLevel = plan.outlineLevels?.[i] ?? 0;
+    return outlineLevel > 0 ? { width, outlineLevel } : { width };
+  });
+  // exceljs 4.4 marks every column at the sheet's outline level collapsed (Column.collapsed:
+  // outlineLevel >= properties.outlineLevelCol), which tells a spreadsheet program the group
+  // is folded while its columns show. The sheet's level is already written (sheetFormatPr,
+  // when the sheet was added); the value exceljs keeps is raised past every column's level
+  // so that the columns are written open.
+  if (outline.level > 0) ws.properties.outlineLevelCol = outline.level + 1;
   if (plan.autoFilter) {
     ws.autoFilter = { from: { row: plan.autoFilter.row, column: 1 }, to: { row: plan.autoFilter.row, column: plan.autoFilter.columns } };
   }
@@ -236,7 +258,8 @@ async function writeSheet(
         sheet._sheetCommentsWriter.addComments(comments);
       }
       if (!xml) continue;
-      const text = `<row r="${r}">${xml}</row>`;
+      const height = wrappedRowHeight(cells, plan.widths);
+      const text = height === undefined ? `<row r="${r}">${xml}</row>` : `<row r="${r}" ht="${height}" customHeight="1">${xml}</row>`;
       // A UTF-16 unit is at most 3 bytes of UTF-8.
       if (used > 0 && used + text.length * 3 > CHUNK) await flush();
       if (text.length * 3 > CHUNK) {
@@ -267,6 +290,8 @@ async function writeSheet(
         budget.left--;
       }
     }
+    const height = wrappedRowHeight(cells, plan.widths);
+    if (height !== undefined) row.height = height;
     row.commit();
     forgetWrittenFormulas(ws);
     if (i % 2000 === 1999) await yieldToEventLoop();
@@ -303,7 +328,7 @@ export async function writePlannedWorkbook(
     const digest = new IntegrityDigest({ version: plan.format >= 4 ? 3 : 2 });
     const values: CellValue[] = [];
     const formulas: boolean[] = [];
-    const columnChecks = new ColumnChecks(plan.results.layout.inputCount);
+    const columnChecks = new ColumnChecks(plan.results.layout.inputCount, FIRST_INPUT_COLUMN);
 
     await writeSheet(wb, plan.summary, { budget, rowWriter, title });
     await writeSheet(wb, plan.results.plan, {

@@ -158,8 +158,9 @@ describe('digest 3 (workbook format 4) and the column checks', () => {
     expect(reference15(x)).toBe(want);
   });
 
-  it('hashes the described lines: numbers to 15 significant digits, formula cells as {"f":1}; columns checked one by one', () => {
-    const checks = new ColumnChecks(4);
+  it('hashes the described lines: numbers to 15 significant digits, formula cells as {"f":1}; input columns checked one by one', () => {
+    // Three input columns from column B on (the Results sheet's leading columns come before its inputs).
+    const checks = new ColumnChecks(3, 2);
     const digest = new IntegrityDigest({ version: 3 });
     for (const row of rows) digest.addResultsRow(row, { formulas, approximate: [], columnChecks: checks });
     digest.addMethod('ab'.repeat(32), [['lcs', 70.00000000000001]]);
@@ -170,12 +171,13 @@ describe('digest 3 (workbook format 4) and the column checks', () => {
     lines.push(`method ${'ab'.repeat(32)}`, '["lcs",70]', 'trends');
     expect(digest.hex()).toBe(createHash('sha256').update(lines.map((l) => `${l}\n`).join(''), 'utf8').digest('hex'));
 
-    const expected = [0, 1, 2, 3]
+    const expected = [1, 2, 3]
       .map((c) => `${'ABCD'[c]} ${createHash('sha256').update(rows.map((row) => `${text(row[c]!)}\n`).join(''), 'utf8').digest('hex').slice(0, 8)}`)
       .join(', ');
     const got = checks.text();
     expect(got).toBe(expected);
-    expect(parseColumnChecks(got)?.get('B')).toBe(expected.split(', ')[1]!.slice(2));
+    expect(parseColumnChecks(got)?.get('C')).toBe(expected.split(', ')[1]!.slice(2));
+    expect(parseColumnChecks(got)?.has('A')).toBe(false);
     expect(parseColumnChecks('A 1234')).toBeUndefined();
   });
 });
