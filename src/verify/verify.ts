@@ -27,7 +27,7 @@ import { FLAGS_SHEET } from '../write/workbook/flags-sheet.js';
 import { IN_HOUSE_TITLE, LIMITS_TITLE, LINE_ENDS_KEY, METHOD_SHEET, METHOD_TEXT_TITLE, UNCERTAINTY_POINTS_TITLE, lineEndOf } from '../write/workbook/method-sheet.js';
 import { uncertaintyFromPoints, type UncertaintyPoint, type UncertaintyTable } from '../figures/expanded.js';
 import { inHouseKey, type InHouseLimits } from '../qc/limits.js';
-import { WORKBOOK_FORMATS, type FormatVersion } from '../write/workbook/options.js';
+import { WORKBOOK_FORMAT } from '../write/workbook/options.js';
 import { SHEET_ORDER, planWorkbook } from '../write/workbook/workbook-plan.js';
 import {
   FORMULAS_LIVE,
@@ -84,7 +84,8 @@ export interface SignOffEntry {
   text: string;
 }
 
-const NEWEST_FORMAT = Math.max(...Object.keys(WORKBOOK_FORMATS).map(Number));
+/** The version number of the one layout this phasebook writes and reads. */
+const FORMAT_VERSION = Number(WORKBOOK_FORMAT.split(' ')[1]);
 
 const notPhasebook = (path: string, why: string) => new StopError('input', `is not a phasebook workbook: ${why}`, { file: path });
 
@@ -97,15 +98,14 @@ export async function verifyWorkbook(path: string, options: VerifyOptions = {}):
     throw notPhasebook(path, `cell ${PROVENANCE_SHEET}!A1 holds ${showValue(marker.get(1)?.value)}, expected "${PROVENANCE_MARKER}"`);
   }
   const formatName = marker.get(2)?.value;
-  const format = formatVersionOf(formatName);
-  if (format === undefined) {
-    const readable = Object.values(WORKBOOK_FORMATS).map((f) => `"${f}"`).join(' and ');
+  if (formatName !== WORKBOOK_FORMAT) {
+    const readable = `"${WORKBOOK_FORMAT}"`;
     // An earlier phasebook laid its sheets out otherwise: comparing them with this version's plan would call an
     // untouched workbook changed, so it is refused with the way to check it instead.
     if (typeof formatName === 'string' && /^phasebook-workbook \d+$/.test(formatName)) {
       throw new StopError(
         'input',
-        `was written in the format "${formatName}" by ${Number(formatName.split(' ')[1]) > NEWEST_FORMAT ? 'a later' : 'an earlier'} phasebook, whose sheets this version lays out differently; ` +
+        `was written in the format "${formatName}" by ${Number(formatName.split(' ')[1]) > FORMAT_VERSION ? 'a later' : 'an earlier'} phasebook, whose sheets this version lays out differently; ` +
           `this phasebook verifies ${readable}: verify it with the phasebook version its Provenance sheet names`,
         { file: path },
       );
@@ -205,11 +205,10 @@ export async function verifyWorkbook(path: string, options: VerifyOptions = {}):
     maxNotes: needNumber(KEYS.maxNotes),
     formulas: need(KEYS.formulas) === FORMULAS_LIVE,
     readAs: needText(KEYS.readAs),
-    format,
   });
 
   // Compare sheet by sheet, taking the digest over the stored Results rows on the way.
-  const digest = new IntegrityDigest({ version: format >= 4 ? 3 : 2 });
+  const digest = new IntegrityDigest();
   const recomputed = { cells: 0 };
   const sheetOrMissing = (name: string): StoredSheet | undefined => {
     const s = stored.sheet(name);
@@ -225,10 +224,10 @@ export async function verifyWorkbook(path: string, options: VerifyOptions = {}):
     recomputed,
     onStoredRow: (_r, cells) => {
       const values = rowValues(cells, resultsWidth);
-      digest.addResultsRow(values, { formulas: formulaCells(cells), approximate: plan.approximate, columnChecks });
+      digest.addResultsRow(values, { formulas: formulaCells(cells), columnChecks });
     },
   });
-  const checks = format >= 4 ? columnChecks.text() : undefined;
+  const checks = columnChecks.text();
   differences.push(...namedInputChanges(resultsDifferences, { result, plan, results, changedColumns: changedColumns(facts.get(KEYS.columnChecks)?.value, checks) }));
   const qc = sheetOrMissing(QC_SHEET);
   if (qc) differences.push(...compareSheet(plan.qc, qc, { recomputed }));
@@ -254,7 +253,7 @@ export async function verifyWorkbook(path: string, options: VerifyOptions = {}):
  * the as-used cell that reads it, unless the saving program recalculated it). Where nothing saved tells
  * which input changed, the row check's line says so.
  */
-/** Input columns (letters) whose column check no longer matches; empty when the workbook keeps none (format 3). */
+/** Input columns (letters) whose column check no longer matches; empty when the workbook keeps none. */
 function changedColumns(stored: CellValue | undefined, recomputed: string | undefined): string[] {
   if (recomputed === undefined || typeof stored !== 'string') return [];
   const was = parseColumnChecks(stored);
@@ -335,11 +334,6 @@ function namedInputChanges(
   return out;
 }
 
-/** The workbook format a Provenance!B1 names, when verify reads it. */
-function formatVersionOf(name: CellValue | undefined): FormatVersion | undefined {
-  for (const [version, text] of Object.entries(WORKBOOK_FORMATS)) if (name === text) return Number(version) as FormatVersion;
-  return undefined;
-}
 
 /** Which cells of a stored row hold a formula, by 0-based column. */
 function formulaCells(cells: ReadonlyMap<number, StoredCell>): boolean[] {

@@ -1,5 +1,5 @@
 /**
- * The integrity digest as its description says (digest.ts, DIGEST_3_DESCRIPTION), computed here
+ * The integrity digest as its description says (digest.ts, DIGEST_DESCRIPTION), computed here
  * independently of the writer and of verify: from the cells exceljs reads back, with node's
  * SHA-256. If the writer and the description ever part ways, this fails.
  */

@@ -4,23 +4,14 @@
  * from the stored cells.
  *
  * Digest 3 (workbook format 4) is taken over the canonical content (canonical.ts),
- * so that a workbook saved unchanged by a spreadsheet program keeps it:
+ * so that a workbook saved unchanged by a spreadsheet program keeps it; one line each,
+ * "\n" after every line:
  *   `phasebook integrity digest 3`
  *   every row of the Results sheet, header included, as a JSON array with one entry
  *     per column: null for an empty cell, a number to 15 significant digits, a text,
  *     or `{"f":1}` for a formula cell, never its cached result (verify compares each
  *     formula with the one phasebook writes, by meaning, cell by cell; hashing the
  *     formulas' text here would double the digest's cost on a large sheet);
- *   then the method, limits and trends lines as below, their numbers to 15 digits.
- *
- * Digest 2 (workbook format 3, still read by verify), one line each, "\n" after every line:
- *   `phasebook integrity digest 2`
- *   every row of the Results sheet, header included: a JSON array with one entry per
- *     column: a number, a text, or null for an empty cell; numbers of the as-used and
- *     computed columns are written to 12 significant digits as JavaScript's
- *     `toPrecision(12)` writes them (so a spreadsheet that recalculates and saves its
- *     own last-digit differences does not break the digest), every other number as
- *     `String(x)` and every text as JSON;
  *   `method <SHA-256 of the method text on the Method sheet>`;
  *   every row of the acceptance limits table on the Method sheet, then of the in-house
  *     limits table where the method uses one, as a JSON array;
@@ -31,18 +22,9 @@ import { createHash, type Hash } from 'node:crypto';
 import { columnLetter, type CellValue } from './cells.js';
 import { SPREADSHEET_DIGITS, canonicalNumber, canonicalValue } from './canonical.js';
 
-export const DIGEST_HEADER = 'phasebook integrity digest 2';
-export const DIGEST_3_HEADER = 'phasebook integrity digest 3';
+export const DIGEST_HEADER = 'phasebook integrity digest 3';
 
 export const DIGEST_DESCRIPTION =
-  'SHA-256 over, one line each: "phasebook integrity digest 2"; every row of the Results sheet, header included, as a JSON array ' +
-  '(empty cells null; as-used and computed numbers to 12 significant digits as toPrecision(12) writes them, all other cells exact); "method " and the SHA-256 of ' +
-  'the method text on the Method sheet; every row of the acceptance limits table on the Method sheet (and of the in-house limits ' +
-  'table, when the method uses in-house limits) as a JSON array; "trends", then the Trends sheet\'s QC history and points-needed ' +
-  'lines and every row of its points table (values up to the recovery) as a JSON array. ' +
-  'phasebook verify recomputes it from the stored cells.';
-
-export const DIGEST_3_DESCRIPTION =
   'SHA-256 over, one line each: "phasebook integrity digest 3"; every row of the Results sheet, header included, as a JSON array ' +
   '(empty cells null, numbers to 15 significant digits, texts as they are, a formula cell as {"f":1}, never its cached result: ' +
   'phasebook verify compares every formula with the one it writes); "method " and the SHA-256 of the method text on the Method sheet; every row of the acceptance limits table ' +
@@ -59,63 +41,6 @@ function canonicalJson(v: CellValue | undefined): string {
   return v === undefined || v === null || v === '' ? 'null' : JSON.stringify(v);
 }
 
-/** The digest a workbook format records: 2 for format 3, 3 for format 4. */
-export type DigestVersion = 2 | 3;
-
-/** Empty (undefined, null or "") as null, anything else as it is. */
-function canonical(v: CellValue | undefined): CellValue {
-  return v === undefined || v === null || v === '' ? null : v;
-}
-
-/** "." and the zeros that pad an integer of `k` digits to 12 significant digits, by k. */
-const INTEGER_PADDING = Array.from({ length: 12 }, (_, k) => (k === 0 ? '' : `.${'0'.repeat(12 - k)}`));
-
-/**
- * `x.toPrecision(12)`, with a short way for integers below 10^12 (most as-used
- * values: volumes, counts), where V8's own is slow: all their digits are
- * significant, so the text is the integer followed by zeros up to 12 digits.
- */
-export function precision12(x: number): string {
-  if (Number.isInteger(x) && x > -1e12 && x < 1e12) {
-    const s = String(x); // "0" for -0, as toPrecision writes it
-    const digits = x < 0 ? s.length - 1 : s.length;
-    return digits === 12 ? s : s + INTEGER_PADDING[digits]!;
-  }
-  return x.toPrecision(12);
-}
-
-/** Most texts a column's cache holds. */
-const CACHE_LIMIT = 4096;
-
-/**
- * precision12 per Results column, remembering the texts of the values a column
- * repeats (pH, pKa, volumes: a few distinct values over many rows). Once its cache
- * is full, a column that has missed more often than it has hit stops caching.
- */
-class PrecisionTexts {
-  private readonly cache = new Map<number, string>();
-  private hits = 0;
-  private misses = 0;
-  private caching = true;
-
-  of(x: number): string {
-    if (!this.caching) return precision12(x);
-    const known = this.cache.get(x);
-    if (known !== undefined) {
-      this.hits++;
-      return known;
-    }
-    const text = precision12(x);
-    this.misses++;
-    if (this.cache.size < CACHE_LIMIT) this.cache.set(x, text);
-    else if (this.hits < this.misses) {
-      this.caching = false;
-      this.cache.clear();
-    }
-    return text;
-  }
-}
-
 /** Pending text is handed to the hash in pieces of about this many characters. */
 const PENDING_LIMIT = 1 << 16;
 
@@ -123,55 +48,24 @@ export class IntegrityDigest {
   private readonly hash: Hash = createHash('sha256');
   /** Results lines not yet hashed (one update per line would cost more than the hashing). */
   private pending = '';
-  private readonly precision: PrecisionTexts[] = [];
-  readonly version: DigestVersion;
 
-  constructor(options: { version?: DigestVersion } = {}) {
-    this.version = options.version ?? 3;
-    this.hash.update(`${this.version === 3 ? DIGEST_3_HEADER : DIGEST_HEADER}\n`, 'utf8');
+  constructor() {
+    this.hash.update(`${DIGEST_HEADER}\n`, 'utf8');
   }
 
-  /**
-   * One Results row: its values and, by column, whether a cell holds a formula.
-   * Digest 2 reads the values only, `approximate[c]` marking the as-used and computed columns.
-   */
-  addResultsRow(
-    values: readonly (CellValue | undefined)[],
-    options: { formulas: readonly (boolean | undefined)[]; approximate: readonly boolean[]; columnChecks?: ColumnChecks },
-  ): void {
-    if (this.version === 3) {
-      const width = Math.max(values.length, options.formulas.length);
-      const checks = options.columnChecks;
-      // The input columns, 0-based: [first, end).
-      const first = checks ? checks.firstColumn - 1 : 0;
-      const end = checks ? first + checks.columns : 0;
-      let line = '[';
-      for (let c = 0; c < width; c++) {
-        if (c > 0) line += ',';
-        const text = options.formulas[c] === true ? '{"f":1}' : canonicalJson(values[c]);
-        if (c >= first && c < end) checks!.addCell(c - first, text);
-        line += text;
-      }
-      this.pending += `${line}]\n`;
-      if (this.pending.length > PENDING_LIMIT) this.flush();
-      return;
-    }
-    const { approximate } = options;
-    // The JSON array of the canonical values, built directly (this runs once per row).
-    const width = Math.max(values.length, approximate.length);
+  /** One Results row: its values and, by column, whether a cell holds a formula (hashed as {"f":1}, never its result). */
+  addResultsRow(values: readonly (CellValue | undefined)[], options: { formulas: readonly (boolean | undefined)[]; columnChecks?: ColumnChecks }): void {
+    const width = Math.max(values.length, options.formulas.length);
+    const checks = options.columnChecks;
+    // The input columns, 0-based: [first, end).
+    const first = checks ? checks.firstColumn - 1 : 0;
+    const end = checks ? first + checks.columns : 0;
     let line = '[';
     for (let c = 0; c < width; c++) {
-      const v = canonical(values[c]);
       if (c > 0) line += ',';
-      // toPrecision's text is itself the rounding (and a JSON number): no round trip through a number.
-      line +=
-        v === null
-          ? 'null'
-          : typeof v === 'number'
-            ? approximate[c] === true
-              ? (this.precision[c] ??= new PrecisionTexts()).of(v)
-              : String(v)
-            : JSON.stringify(v);
+      const text = options.formulas[c] === true ? '{"f":1}' : canonicalJson(values[c]);
+      if (c >= first && c < end) checks!.addCell(c - first, text);
+      line += text;
     }
     this.pending += `${line}]\n`;
     if (this.pending.length > PENDING_LIMIT) this.flush();
@@ -195,7 +89,7 @@ export class IntegrityDigest {
   }
 
   private line(row: readonly (CellValue | undefined)[]): string {
-    return JSON.stringify(row.map((v) => (this.version === 3 ? canonicalValue(v) : canonical(v))));
+    return JSON.stringify(row.map((v) => canonicalValue(v)));
   }
 
   private flush(): void {

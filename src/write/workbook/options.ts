@@ -44,6 +44,3 @@ export const DEFAULT_MAX_NOTES = 10_000;
  */
 export const WORKBOOK_FORMAT = 'phasebook-workbook 4';
 
-/** The layouts verify reads, by version: the name in Provenance!B1. */
-export const WORKBOOK_FORMATS = { 4: WORKBOOK_FORMAT } as const;
-export type FormatVersion = keyof typeof WORKBOOK_FORMATS;

@@ -15,8 +15,8 @@ import { COMPARISON_RULE } from '../../qc/compare.js';
 import type { RawTable } from '../../read/types.js';
 import { SheetBuilder } from './builder.js';
 import { cell, type CellValue, type SheetPlan } from './cells.js';
-import { DIGEST_3_DESCRIPTION, DIGEST_DESCRIPTION } from './digest.js';
-import { WORKBOOK_FORMATS, type FormatVersion, type RunInfo } from './options.js';
+import { DIGEST_DESCRIPTION } from './digest.js';
+import { WORKBOOK_FORMAT, type RunInfo } from './options.js';
 
 export const PROVENANCE_SHEET = 'Provenance';
 export const PROVENANCE_MARKER = 'phasebook workbook';
@@ -116,17 +116,14 @@ export interface ProvenanceFacts {
   formulaRowLimit: number;
   maxNotes: number;
   digest: string;
-  /** ColumnChecks.text() of the Results input columns (format 4). */
+  /** ColumnChecks.text() of the Results input columns. */
   columnChecks?: string;
-  /** The workbook format to lay out (default the current one; verify plans a format 3 workbook as such). */
-  format?: FormatVersion;
 }
 
 export function planProvenanceSheet(result: RecalcResult, facts: ProvenanceFacts): SheetPlan {
   const b = new SheetBuilder();
   const m = result.method;
-  const format = facts.format ?? 4;
-  b.add([cell(PROVENANCE_MARKER, { style: 'title' }), WORKBOOK_FORMATS[format]], { labels: [PROVENANCE_MARKER, PROVENANCE_MARKER] });
+  b.add([cell(PROVENANCE_MARKER, { style: 'title' }), WORKBOOK_FORMAT], { labels: [PROVENANCE_MARKER, PROVENANCE_MARKER] });
   b.blank();
 
   b.title('Worklist', 'section');
@@ -183,20 +180,16 @@ export function planProvenanceSheet(result: RecalcResult, facts: ProvenanceFacts
 
   b.title('Integrity', 'section');
   b.keyValue(KEYS.digest, facts.digest);
-  b.keyValue('what the digest covers', cell(format >= 4 ? DIGEST_3_DESCRIPTION : DIGEST_DESCRIPTION, { style: 'wrap' }));
+  b.keyValue('what the digest covers', cell(DIGEST_DESCRIPTION, { style: 'wrap' }));
   b.keyValue(
     'row check',
-    format >= 4
-      ? "Results, last column: first 16 hex digits of a SHA-256 over the row's input cells as written (a JSON array, numbers to 15 significant digits)"
-      : "Results, last column: first 16 hex digits of a SHA-256 over the row's input cells as written (a JSON array)",
+    "Results, last column: first 16 hex digits of a SHA-256 over the row's input cells as written (a JSON array, numbers to 15 significant digits)",
   );
-  if (format >= 4) {
-    b.keyValue(KEYS.columnChecks, facts.columnChecks ?? '');
-    b.keyValue(
-      'what a column check covers',
-      'per input column of the Results sheet: first 8 hex digits of a SHA-256 over its cells, header included, one line each (the JSON of the value, numbers to 15 significant digits); with the row check it names an input cell changed after writing',
-    );
-  }
+  b.keyValue(KEYS.columnChecks, facts.columnChecks ?? '');
+  b.keyValue(
+    'what a column check covers',
+    'per input column of the Results sheet: first 8 hex digits of a SHA-256 over its cells, header included, one line each (the JSON of the value, numbers to 15 significant digits); with the row check it names an input cell changed after writing',
+  );
   b.keyValue('to check this workbook', `phasebook verify ${result.worklist.name.replace(/\.[^.]*$/, '')}.xlsx`);
   b.blank();
 

@@ -47,7 +47,6 @@ import type { MethodRefs } from './method-sheet.js';
 import { asUsedPlanner } from './as-used.js';
 import { asUsedFields, asUsedHeader, fieldUnit, inputColumn, resultsLayout, RESULTS_SHEET, ROW_CHECK_HEADER, WORKLIST_ROW_HEADER, type ResultsColumn, type ResultsColumnKind, type ResultsLayout } from './results-layout.js';
 import { canonicalValue } from './canonical.js';
-import type { FormatVersion } from './options.js';
 
 export { asUsedFields, asUsedHeader, resultsLayout, RESULTS_SHEET, ROW_CHECK_HEADER, WORKLIST_ROW_HEADER, type ResultsColumn, type ResultsColumnKind, type ResultsLayout };
 import { displayFormat, fitWidth, significantFormat, strongerMark } from './style.js';
@@ -105,15 +104,13 @@ export function inputCellWriter(result: RecalcResult): (column: number, row: num
  * First 16 hex digits of SHA-256 over the row's input cells as written (JSON); from workbook format 4
  * on, their canonical values (numbers to 15 significant digits, as a spreadsheet program saves them).
  */
-export function rowCheck(values: readonly CellValue[], options: { canonical?: boolean } = {}): string {
+export function rowCheck(values: readonly CellValue[]): string {
   let hashed = values;
-  if (options.canonical ?? true) {
-    // A copy only when a number is not canonical already (most inputs are short decimals).
-    for (const v of values) {
-      if (typeof v === 'number' && canonicalValue(v) !== v) {
-        hashed = values.map(canonicalValue);
-        break;
-      }
+  // A copy only when a number is not canonical already (most inputs are short decimals).
+  for (const v of values) {
+    if (typeof v === 'number' && canonicalValue(v) !== v) {
+      hashed = values.map(canonicalValue);
+      break;
     }
   }
   // One-shot hash: a Hash object per row costs more than the hashing.
@@ -155,13 +152,10 @@ export interface ResultsOptions {
   formulas: boolean;
   /** result.flags by row (shared with the QC sheet). */
   flagsByRow: ReadonlyMap<number, readonly Flag[]>;
-  /** The workbook format (default the current one): format 3 took the row check over the exact values. */
-  format?: FormatVersion;
 }
 
 export function planResultsSheet(result: RecalcResult, options: ResultsOptions): ResultsSheet {
   const { refs } = options;
-  const canonicalRowCheck = (options.format ?? 4) >= 4;
   const layout = resultsLayout(result);
   const { table, raw } = result;
   const n = result.rowsOut;
@@ -355,7 +349,7 @@ export function planResultsSheet(result: RecalcResult, options: ResultsOptions):
     cells[layout.qcStatus.column - 1] = cell(status === '' ? null : status);
     const reported = result.qc.reported[r]!;
     cells[layout.reported.column - 1] = cell(reported === '' ? null : reported);
-    cells[layout.rowCheck.column - 1] = cell(rowCheck(inputs, { canonical: canonicalRowCheck }));
+    cells[layout.rowCheck.column - 1] = cell(rowCheck(inputs));
 
     // Marks: each flag on its cell, all of the row's flags on the flags cell.
     const rowFlags = flagsByRow.get(r);

@@ -10,7 +10,7 @@ import type { CellValue, SheetPlan } from './cells.js';
 import { sha256Text } from './digest.js';
 import { planFlagsSheet } from './flags-sheet.js';
 import { inHouseRows, lineEndOf, lineEnds, limitRows, methodLines, planMethodSheet } from './method-sheet.js';
-import { DEFAULT_FORMULA_ROW_LIMIT, DEFAULT_MAX_NOTES, type FormatVersion, type RunInfo } from './options.js';
+import { DEFAULT_FORMULA_ROW_LIMIT, DEFAULT_MAX_NOTES, type RunInfo } from './options.js';
 import { describeFormat, planProvenanceSheet } from './provenance-sheet.js';
 import { planQcSheet } from './qc-sheet.js';
 import { planResultsSheet, type ResultsSheet } from './results-sheet.js';
@@ -33,12 +33,9 @@ export interface PlanOptions {
   history?: TrendsSheetInput;
   /** Points a series needs before it has limits (default MIN_POINTS). */
   minPoints?: number;
-  /** The workbook format (default the current one); verify plans a workbook of an earlier format as it was written. */
-  format?: FormatVersion;
 }
 
 export interface WorkbookPlan {
-  format: FormatVersion;
   /** The worklist's name, in every sheet's printed footer. */
   title: string;
   formulas: boolean;
@@ -50,12 +47,10 @@ export interface WorkbookPlan {
   flags: SheetPlan;
   trends: TrendsSheet;
   method: SheetPlan;
-  /** Which Results columns the digest takes to 12 significant digits (as-used and computed). */
-  approximate: boolean[];
   /** SHA-256 of the method text as the Method sheet holds it, and the limits tables (acceptance, in-house): the digest's tail. */
   methodTextSha: string;
   limits: CellValue[][];
-  /** The Provenance sheet, given the integrity digest and the column checks (format 4) taken while the Results rows were written or read. */
+  /** The Provenance sheet, given the integrity digest and the column checks taken while the Results rows were written or read. */
   provenance(digest: string, columnChecks?: string): SheetPlan;
 }
 
@@ -65,13 +60,11 @@ export function planWorkbook(result: RecalcResult, options: PlanOptions): Workbo
   const formulas = options.formulas ?? result.rowsOut <= formulaRowLimit;
   const { refs } = planMethodSheet(result);
   const flagsByRow = groupBy(result.flags, (f) => f.row);
-  const format = options.format ?? 4;
-  const results = planResultsSheet(result, { refs, formulas, flagsByRow, format });
+  const results = planResultsSheet(result, { refs, formulas, flagsByRow });
   const method = planMethodSheet(result, { formulaForms: results.formulaForms }).plan;
   const layout = results.layout;
   const sheetTextOfMethod = methodLines(result.method.text).map(sheetText).join(lineEndOf(lineEnds(result.method.text)));
   return {
-    format,
     title: result.worklist.name,
     formulas,
     formulaRowLimit,
@@ -82,7 +75,6 @@ export function planWorkbook(result: RecalcResult, options: PlanOptions): Workbo
     flags: planFlagsSheet(result, { layout }),
     trends: planTrendsSheet(result, { history: options.history, minPoints: options.minPoints ?? MIN_POINTS }),
     method,
-    approximate: layout.columns.map((c) => c.kind === 'as-used' || c.kind === 'computed' || c.kind === 'uncertainty'),
     methodTextSha: sha256Text(sheetTextOfMethod),
     limits: [
       ...limitRows(result.method),
@@ -97,7 +89,6 @@ export function planWorkbook(result: RecalcResult, options: PlanOptions): Workbo
         maxNotes,
         digest,
         columnChecks,
-        format,
       }),
   };
 }

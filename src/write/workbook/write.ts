@@ -325,7 +325,7 @@ export async function writePlannedWorkbook(
     const budget: NoteBudget = { left: plan.maxNotes };
     const title = plan.title;
     const rowWriter = options.rowWriter ?? 'direct';
-    const digest = new IntegrityDigest({ version: plan.format >= 4 ? 3 : 2 });
+    const digest = new IntegrityDigest();
     const values: CellValue[] = [];
     const formulas: boolean[] = [];
     const columnChecks = new ColumnChecks(plan.results.layout.inputCount, FIRST_INPUT_COLUMN);
@@ -343,7 +343,7 @@ export async function writePlannedWorkbook(
           values[j] = row.cells[j]?.value ?? null;
           formulas[j] = row.cells[j]?.formula !== undefined;
         }
-        digest.addResultsRow(values, { formulas, approximate: plan.approximate, columnChecks });
+        digest.addResultsRow(values, { formulas, columnChecks });
       },
     });
     await writeSheet(wb, plan.qc, { budget, rowWriter, title });
@@ -352,7 +352,7 @@ export async function writePlannedWorkbook(
     await writeSheet(wb, plan.method, { budget, rowWriter, title });
     digest.addMethod(plan.methodTextSha, plan.limits);
     digest.addTrends(plan.trends.digestRows);
-    await writeSheet(wb, plan.provenance(digest.hex(), plan.format >= 4 ? columnChecks.text() : undefined), { budget, rowWriter, title });
+    await writeSheet(wb, plan.provenance(digest.hex(), columnChecks.text()), { budget, rowWriter, title });
     await wb.commit();
   };
   const writing = write();
