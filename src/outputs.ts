@@ -5,7 +5,7 @@ import type { RecalcResult } from './pipeline.js';
 import { commitAll, type WriteJob } from './write/atomic.js';
 import { COMMA_DIALECT, writeResultsCsv, type CsvDialect } from './write/csv.js';
 import { outputColumns, reportedWithMark } from './write/output-columns.js';
-import type { RunInfo } from './write/workbook.js';
+import type { RunInfo } from './write/workbook/index.js';
 import { VERSION } from './version.js';
 import { htmlReportJobs } from './report/html.js';
 import type { TrendSeries } from './history/trends.js';
@@ -162,7 +162,7 @@ export async function writeOutputs(result: RecalcResult, options: WriteOptions):
   if (workbook) {
     // Loaded only when a workbook is written: exceljs takes a noticeable part of start-up.
     const history = options.history && { file: options.historyFile ?? 'QC history', series: options.history };
-    jobs.push({ target: paths.xlsx, write: async (tmp) => (await import('./write/workbook.js')).writeWorkbook(tmp, result, { run, history }) });
+    jobs.push({ target: paths.xlsx, write: async (tmp) => (await import('./write/workbook/index.js')).writeWorkbook(tmp, result, { run, history }) });
   }
   const written: Record<string, string[]> = {};
   if (kinds.includes('csv')) written.csv = [paths.csv];

@@ -18,7 +18,7 @@ import type { Flag } from '../issues.js';
 import type { RecalcResult } from '../pipeline.js';
 import type { GroupSummary } from '../summary/summarize.js';
 import type { WriteJob } from '../write/atomic.js';
-import type { RunInfo } from '../write/workbook.js';
+import type { RunInfo } from '../write/workbook/index.js';
 import { CONTROL_LAYERS, RECOVERY_LAYERS, UNCERTAINTY_LAYERS, controlChartSpec, recoveryChartSpec, uncertaintyChartSpec, type RecoveryPoint } from './charts.js';
 import { drawChart } from './draw.js';
 import { html, trusted, type Markup } from './markup.js';

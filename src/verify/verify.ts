@@ -44,7 +44,7 @@ import { FIRST_INPUT_COLUMN, inputColumn } from '../write/workbook/results-layou
 import { SUMMARY_SHEET } from '../write/workbook/summary-sheet.js';
 import { MIN_POINTS } from '../history/trends.js';
 import { TRENDS_SHEET } from '../write/workbook/trends-sheet.js';
-import { compareSheet, sameValue } from './compare.js';
+import { compareSheet, sameValue } from './sheet-diff.js';
 import { isCanonicalField } from '../domain/fields.js';
 import { SIGNATURES_SHEET, checkSignatures, contentDigest, readSignatures, type SignatureCheck } from './signatures.js';
 import { storedTrends } from './trends.js';

@@ -7,7 +7,7 @@ import { FIELD_SPECS } from '../../src/domain/fields.js';
 import { recalculateData } from '../../src/index.js';
 import { parseMethod } from '../../src/method/load.js';
 import { verifyWorkbook } from '../../src/verify/verify.js';
-import { writeWorkbook } from '../../src/write/workbook.js';
+import { writeWorkbook } from '../../src/write/workbook/index.js';
 
 /**
  * What fills an empty numeric cell (DESIGN.md §4), described once and read by the engine and the

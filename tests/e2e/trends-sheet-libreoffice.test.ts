@@ -7,7 +7,7 @@ import { join } from 'node:path';
 import type ExcelJS from 'exceljs';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { trendsJson, type TrendSeries } from '../../src/history/trends.js';
-import { writeWorkbook } from '../../src/write/workbook.js';
+import { writeWorkbook } from '../../src/write/workbook/index.js';
 import { SERIES_HEADERS, SERIES_TITLE, TRENDS_SHEET } from '../../src/write/workbook/trends-sheet.js';
 import { disposeLibreOfficeProfile, isLibreOfficeAvailable, recalcWithLibreOffice } from '../helpers/libreoffice.js';
 import { skipWithout } from '../helpers/tools.js';

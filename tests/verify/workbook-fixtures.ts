@@ -11,7 +11,7 @@ import ExcelJS from 'exceljs';
 import yauzl from 'yauzl';
 import { recalculate, type RecalcResult } from '../../src/pipeline.js';
 import { VERSION } from '../../src/version.js';
-import { writeWorkbook, type RunInfo, type WorkbookOptions } from '../../src/write/workbook.js';
+import { writeWorkbook, type RunInfo, type WorkbookOptions } from '../../src/write/workbook/index.js';
 
 export const ROOT = resolve(import.meta.dirname, '../..');
 

@@ -10,7 +10,7 @@ import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { buildTrends, trendsJson, type TrendRow, type TrendSeries } from '../../src/history/trends.js';
 import type { RecalcResult } from '../../src/pipeline.js';
 import { verifyWorkbook } from '../../src/verify/verify.js';
-import { writeWorkbook } from '../../src/write/workbook.js';
+import { writeWorkbook } from '../../src/write/workbook/index.js';
 import type { CellValue, PlannedCell, SheetPlan } from '../../src/write/workbook/cells.js';
 import {
   NO_HISTORY,

@@ -16,7 +16,7 @@ import { recalculate, recalculateTable, type RecalcResult } from '../../src/pipe
 import { COMPARISON_RULE } from '../../src/qc/compare.js';
 import { verifyWorkbook } from '../../src/verify/verify.js';
 import { outputColumns } from '../../src/write/output-columns.js';
-import { writeWorkbook } from '../../src/write/workbook.js';
+import { writeWorkbook } from '../../src/write/workbook/index.js';
 import { COLOURS } from '../../src/write/workbook/style.js';
 import { planWorkbook } from '../../src/write/workbook/workbook-plan.js';
 import { directRowWriterAvailable, writePlannedWorkbook } from '../../src/write/workbook/write.js';

@@ -8,13 +8,13 @@
  * to disk (write/workbook/write.ts); `phasebook verify` plans the same workbook
  * from a recomputation and compares it with what is stored.
  */
-import type { RecalcResult } from '../pipeline.js';
-import { planWorkbook } from './workbook/workbook-plan.js';
-import { writePlannedWorkbook } from './workbook/write.js';
-import type { RunInfo, WorkbookOptions } from './workbook/options.js';
+import type { RecalcResult } from '../../pipeline.js';
+import { planWorkbook } from './workbook-plan.js';
+import { writePlannedWorkbook } from './write.js';
+import type { RunInfo, WorkbookOptions } from './options.js';
 
-export type { RunInfo, WorkbookOptions } from './workbook/options.js';
-export { DEFAULT_FORMULA_ROW_LIMIT, DEFAULT_MAX_NOTES } from './workbook/options.js';
+export type { RunInfo, WorkbookOptions } from './options.js';
+export { DEFAULT_FORMULA_ROW_LIMIT, DEFAULT_MAX_NOTES } from './options.js';
 
 /** Write the workbook to `path` (a new file; outputs.ts renames it into place). */
 export async function writeWorkbook(path: string, result: RecalcResult, options: WorkbookOptions): Promise<void> {
