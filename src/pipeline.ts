@@ -21,7 +21,7 @@ import type { InHouseLimits } from './qc/limits.js';
 import { readWorklist, withSheetHint } from './read/worklist.js';
 import type { RawTable } from './read/types.js';
 import { summarize, type GroupSummary, type Verdict } from './summary/summarize.js';
-import { RESULT_COLUMN, expandedUncertaintyColumns, uncertaintyTable, type UncertaintyTable } from './figures/expanded.js';
+import { RESULT_COLUMN, expandedUncertaintyColumns, uncertaintyTable, type UncertaintyTable } from './qc/uncertainty.js';
 
 export interface RecalcOptions {
   /** Method file path, or a method already loaded. */
@@ -36,7 +36,7 @@ export interface RecalcOptions {
   onProgress?: OnProgress;
   /** In-house recovery limits from the QC history (used when the method's qc.limits is in_house). */
   inHouse?: InHouseLimits;
-  /** Expanded uncertainty per analyte from the QC history (figures/expanded.ts); a method's fixed U wins. */
+  /** Expanded uncertainty per analyte from the QC history (qc/uncertainty.ts); a method's fixed U wins. */
   uncertainty?: UncertaintyTable;
 }
 

@@ -15,7 +15,7 @@
  */
 import { openHistory, type RecordSummary } from './history/store.js';
 import { inHouseLimitsOf, trendsWithRun } from './history/trends.js';
-import { uncertaintyFromHistory } from './figures/expanded.js';
+import { uncertaintyFromHistory } from './figures/from-history.js';
 import { StopError } from './errors.js';
 import { loadMethod } from './method/load.js';
 import { recalculate, type RecalcResult } from './pipeline.js';

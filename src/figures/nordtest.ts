@@ -21,8 +21,6 @@
  */
 import { mean, sampleSd } from '../qc/stats.js';
 
-/** Coverage factor: about 95 % for a normal distribution (TR 537; GUM). */
-export const COVERAGE_K = 2;
 
 export interface UncertaintyOptions {
   /** Relative standard uncertainty of the spike, percent (default 0). */
@@ -50,9 +48,9 @@ export interface Uncertainty {
   moreBias: number;
 }
 
-import { DEFAULT_MIN_BIAS, DEFAULT_MIN_RW } from '../method/defaults.js';
+import { COVERAGE_K, DEFAULT_MIN_BIAS, DEFAULT_MIN_RW } from '../method/defaults.js';
 
-export { DEFAULT_MIN_BIAS, DEFAULT_MIN_RW };
+export { COVERAGE_K, DEFAULT_MIN_BIAS, DEFAULT_MIN_RW };
 
 /** The lcs route: u(Rw) from lcs recoveries, the bias from matrix spike recoveries (RMS). */
 export function uncertaintyFromRecoveries(rw: readonly number[], bias: readonly number[], options: UncertaintyOptions = {}): Uncertainty {

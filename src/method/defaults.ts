@@ -51,3 +51,6 @@ export const GENERIC_INTERNAL_STANDARD: { window: Range; reference: readonly Sam
 /** Points the lab's own figures need (figures/nordtest.ts): 20 lcs recoveries for u(Rw), 6 matrix spikes for the bias (issue 16). */
 export const DEFAULT_MIN_RW = 20;
 export const DEFAULT_MIN_BIAS = 6;
+
+/** The coverage factor of an expanded uncertainty: k = 2, about 95 % coverage (Nordtest TR 537; JCGM 100:2008 §6.3). */
+export const COVERAGE_K = 2;

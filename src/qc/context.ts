@@ -25,7 +25,7 @@ export interface QcInput {
   nondetectLimit?: Float64Array;
   /** In-house limits from the QC history, used when the method asks for them. */
   inHouse?: InHouseLimits;
-  /** The absolute expanded uncertainty of each sample result (figures/expanded.ts; NaN where none), for "x ± U". */
+  /** The absolute expanded uncertainty of each sample result (qc/uncertainty.ts; NaN where none), for "x ± U". */
   expandedUncertainty?: Float64Array;
 }
 

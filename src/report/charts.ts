@@ -204,7 +204,7 @@ export function controlChartSpec(series: TrendSeries, options: { isCurrent: (ind
 
 export const UNCERTAINTY_LAYERS = { reference: 'reference_line', points: 'figure_points' } as const;
 
-/** A recovery behind an expanded uncertainty (figures/expanded.ts), in run order. */
+/** A recovery behind an expanded uncertainty (qc/uncertainty.ts), in run order. */
 export interface FigurePoint {
   /** What it feeds: 'u(Rw): lcs', 'bias: ms, msd', or 'qc <level>'. */
   role: string;

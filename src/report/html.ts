@@ -23,7 +23,7 @@ import { CONTROL_LAYERS, RECOVERY_LAYERS, UNCERTAINTY_LAYERS, controlChartSpec, 
 import { drawChart } from './draw.js';
 import { html, trusted, type Markup } from './markup.js';
 import { REPORT_CSS } from './style.js';
-import { RESULT_COLUMN } from '../figures/expanded.js';
+import { RESULT_COLUMN } from '../qc/uncertainty.js';
 
 export interface ReportOptions {
   /** The batch to report (default the first batch of the worklist). */
@@ -191,7 +191,7 @@ ${historySections}
 }
 
 /**
- * The batch's sample results with their expanded uncertainty (figures/expanded.ts), and
+ * The batch's sample results with their expanded uncertainty (qc/uncertainty.ts), and
  * where each analyte's U comes from; nothing when the run has none.
  */
 async function uncertaintySection(result: RecalcResult, rows: readonly number[], analytes: readonly string[]): Promise<Markup | string> {

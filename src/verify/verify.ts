@@ -25,7 +25,8 @@ import { ColumnChecks, IntegrityDigest, parseColumnChecks, sha256Text } from '..
 import { columnNumber } from './shared-formula.js';
 import { FLAGS_SHEET } from '../write/workbook/flags-sheet.js';
 import { IN_HOUSE_TITLE, LIMITS_TITLE, LINE_ENDS_KEY, METHOD_SHEET, METHOD_TEXT_TITLE, UNCERTAINTY_POINTS_TITLE, lineEndOf } from '../write/workbook/method-sheet.js';
-import { uncertaintyFromPoints, type UncertaintyPoint, type UncertaintyTable } from '../figures/expanded.js';
+import type { UncertaintyPoint, UncertaintyTable } from '../qc/uncertainty.js';
+import { uncertaintyFromPoints } from '../figures/from-history.js';
 import { inHouseKey, type InHouseLimits } from '../qc/limits.js';
 import { WORKBOOK_FORMAT } from '../write/workbook/options.js';
 import { SHEET_ORDER, planWorkbook } from '../write/workbook/workbook-plan.js';

@@ -32,7 +32,7 @@ export function outputColumns(result: RecalcResult): OutputColumn[] {
       values: result.computed.get(def.name)!,
     });
   }
-  // The expanded uncertainty beside the concentrations, when the method or the QC history gives one (figures/expanded.ts).
+  // The expanded uncertainty beside the concentrations, when the method or the QC history gives one (qc/uncertainty.ts).
   const u = result.uncertainty;
   if (u) {
     out.push({ role: 'uncertainty', header: computedHeader(UNCERTAINTY_COLUMNS.expanded, u.unit), name: UNCERTAINTY_COLUMNS.expanded, unit: u.unit, kind: 'number', values: u.expanded });

@@ -57,7 +57,7 @@ export interface ResultsLayout {
   analyte: ResultsColumn;
   asUsed: Map<string, ResultsColumn>;
   computed: Map<string, ResultsColumn>;
-  /** The expanded uncertainty of the results and its k, when the run has one (figures/expanded.ts). */
+  /** The expanded uncertainty of the results and its k, when the run has one (qc/uncertainty.ts). */
   uncertainty: ResultsColumn[];
   worklistRow: ResultsColumn;
   flags: ResultsColumn;

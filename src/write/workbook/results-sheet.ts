@@ -30,7 +30,7 @@ import { FAILING_CODES, type Flag } from '../../issues.js';
 import type { RecalcResult } from '../../pipeline.js';
 import type { RawCell } from '../../read/types.js';
 import { UNCERTAINTY_COLUMNS } from '../output-columns.js';
-import { RESULT_COLUMN } from '../../figures/expanded.js';
+import { RESULT_COLUMN } from '../../qc/uncertainty.js';
 import { toSheetFormula } from '../sheet-formula.js';
 import {
   MAX_CELL_TEXT,

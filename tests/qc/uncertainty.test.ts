@@ -1,7 +1,8 @@
 import { readFileSync } from 'node:fs';
 import { resolve } from 'node:path';
 import { describe, expect, it } from 'vitest';
-import { expandedUncertaintyColumns, uncertaintyFromHistory, uncertaintyTable } from '../../src/figures/expanded.js';
+import { expandedUncertaintyColumns, uncertaintyTable } from '../../src/qc/uncertainty.js';
+import { uncertaintyFromHistory } from '../../src/figures/from-history.js';
 import { historyRow } from '../helpers/history-rows.js';
 import { parseMethod } from '../../src/method/load.js';
 
