@@ -252,7 +252,7 @@ async function main() {
   }
 
   let small;
-  if (opts.small) small = await timeDemo(work);
+  if (opts.small) small = await timeDemo(work, log);
   const hostile = [];
   if (opts.hostile) {
     const cases = [...HOSTILE_CASES.map((c) => ({ name: c.name, run: c.make(work, CLI, METHOD) })), ...(await xlsxHostileCases(work, CLI, METHOD))];
@@ -287,7 +287,7 @@ async function main() {
  * installing) and as a later run (the cache the first run left), the four alternating,
  * nine measured runs each after a warm-up. Start-up dominates here.
  */
-async function timeDemo(work) {
+async function timeDemo(work, log) {
   const demoArgs = (outputs) => [CLI, 'recalc', join(ROOT, 'samples', 'kestrel-brook-2026-11.csv'), '-m', join(ROOT, 'templates', 'surface-water.yaml'), '-o', join(work, 'out-demo'), '--force', '--quiet', '--outputs', outputs];
   const later = join(work, 'code-cache-later');
   const first = join(work, 'code-cache-first');
