@@ -19,10 +19,11 @@
 // Why: start-up, and install weight. Resolving and compiling some thousand files
 // (our modules, the dependencies' own, @stdlib's 350 small packages) cost more than
 // the work of a small worklist; so did parsing and compiling the one bundle on
-// every run, which the user's code cache spares from the second run on. And with the command line and the library
-// bundled, nothing of node_modules is needed at run time but the optional
-// better-sqlite3, so the packages bundled are devDependencies and a user's install
-// is phasebook alone (docs/performance.md has the numbers).
+// every run, which the user's code cache spares from the second run on. And with
+// the command line and the library bundled, nothing of node_modules is needed at
+// run time but the optional better-sqlite3, so the packages bundled are
+// devDependencies and a user's install is phasebook alone (docs/performance.md
+// has the numbers).
 //
 // A bundle is CommonJS, wrapped as Node wraps a module (V8 caches code of a
 // script, not of an ES module, on Node 20, which has no module.enableCompileCache).
