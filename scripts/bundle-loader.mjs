@@ -12,8 +12,9 @@
 // A cache file is used only when it was made from this very bundle (the build id
 // on the bundle's first line, which is a digest of the bundle, is also the file's
 // first bytes: V8 itself checks only the source's length), by the same Node
-// version, architecture and command-line flags (they name the file), and V8
-// accepts it. Otherwise the bundle is compiled as usual, and the run writes a new
+// version, architecture and flags (on the command line or in NODE_OPTIONS: they
+// name the file, so that runs with other flags keep a cache of their own), and
+// V8 accepts it. Otherwise the bundle is compiled as usual, and the run writes a new
 // cache. Any failure to read, make or write a cache is ignored: the same code
 // runs either way, only slower.
 //
@@ -71,7 +72,7 @@ function cacheFile(name, buildId) {
   const dir = cacheDir(env);
   if (dir === undefined) return undefined;
   const key = createHash('sha256')
-    .update([buildId, process.version, process.arch, process.platform, ...process.execArgv].join('\0'))
+    .update([buildId, process.version, process.arch, process.platform, env.NODE_OPTIONS ?? '', ...process.execArgv].join('\0'))
     .digest('hex')
     .slice(0, 16);
   const prefix = `${name}-`;

@@ -114,14 +114,14 @@ describe("the command line's code cache", () => {
     expect(Object.keys(cachesIn(dir))).toEqual(['cli-bundle']);
   });
 
-  it('a cache of other flags is another file: both stay', () => {
+  it('a cache of other flags, on the command line or in NODE_OPTIONS, is another file: all stay', () => {
     const dir = join(work, 'cache-flags');
     demo({ PHASEBOOK_CACHE_DIR: dir });
     const plain = cachesIn(dir)['cli-bundle']!;
-    const r = runCli(['--version'], { env: { PHASEBOOK_CACHE_DIR: dir }, nodeArgs: ['--stack-size=2000'] });
-    expect(r.code).toBe(0);
+    expect(runCli(['--version'], { env: { PHASEBOOK_CACHE_DIR: dir }, nodeArgs: ['--stack-size=2000'] }).code).toBe(0);
+    expect(runCli(['--version'], { env: { PHASEBOOK_CACHE_DIR: dir, NODE_OPTIONS: '--max-old-space-size=3000' } }).code).toBe(0);
     const names = readdirSync(dir).filter((f) => f.startsWith('cli-bundle-'));
-    expect(names).toHaveLength(2);
+    expect(names).toHaveLength(3);
     expect(names).toContain(plain.split('/').pop());
   });
 
