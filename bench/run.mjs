@@ -29,6 +29,7 @@
  * It also runs the hostile inputs of bench/hostile.mjs once each (a huge batch of failing
  * blanks, a method of 40,000 codes, ...) and judges them against their time and memory ceilings.
  */
+import { execFileSync } from 'node:child_process';
 import { existsSync, mkdirSync, readFileSync, readdirSync, rmSync, statSync, createReadStream, writeFileSync } from 'node:fs';
 import { cpus, loadavg, tmpdir, totalmem } from 'node:os';
 import { dirname, join, resolve } from 'node:path';
@@ -162,6 +163,12 @@ function machine() {
 }
 
 function gitDescribe() {
+  try {
+    // In a worktree .git is a file naming the real folder: ask git itself first.
+    return execFileSync('git', ['rev-parse', 'HEAD'], { cwd: ROOT, encoding: 'utf8', stdio: ['ignore', 'pipe', 'ignore'] }).trim().slice(0, 12);
+  } catch {
+    // no git on the PATH: read .git/HEAD below
+  }
   try {
     const head = readFileSync(join(ROOT, '.git', 'HEAD'), 'utf8').trim();
     if (!head.startsWith('ref: ')) return head.slice(0, 12);
