@@ -36,9 +36,8 @@ const ID_LENGTH = 64;
 const KEEP = 4;
 
 /**
- * Run the bundle `name` of the dist/ folder at `distUrl` (the caller's own
- * folder: the tests run copies of the entry next to links to the real files)
- * and return its exports. The bundle gets two more parameters: distUrl, by
+ * Run the bundle `name` of the dist/ folder at `distUrl` (the entry's own
+ * folder) and return its exports. The bundle gets two more parameters: distUrl, by
  * which it finds files of dist/, and a function by which it runs another bundle
  * of dist/ the same way (the chart bundle, when a report is drawn).
  *
