@@ -1,32 +1,33 @@
-// Build step (after tsc): bundle the command line and the library, and run the
-// demo once to keep V8's compiled code for the command line's bundles:
+// Build step (after tsc): bundle the command line and the library:
 // - dist/cli-bundle.js: the command line, run by the entry dist/cli.js
-//   (scripts/cli-entry.mjs, replacing tsc's), code cache dist/cli-bundle.cache;
-// - dist/chart-bundle.js: the report's chart drawing (src/report/chart-worker.ts,
-//   vega and vega-lite), run by dist/chart-worker.js (scripts/chart-worker-entry.mjs)
-//   on a worker thread, code cache dist/chart-bundle.cache. The command line's
-//   bundle holds no vega: src/report/chart-code.ts is replaced there by a version
-//   that finds the worker's entry in dist/ and, to draw on the main thread when no
-//   worker runs, loads the chart bundle;
+//   (scripts/cli-entry.mjs, replacing tsc's);
+// - dist/chart-bundle.js: the report's chart drawing (src/report/svg.ts, vega and
+//   vega-lite), loaded by the command line the first time a run draws a chart. The
+//   command line's bundle holds no vega: src/report/chart-code.ts is replaced there
+//   by a version that runs the chart bundle, so a run without a report neither
+//   reads nor compiles vega;
 // - dist/lib-bundle.js: the library (src/index.ts), with the same chart code, run by
 //   dist/index.cjs (scripts/lib-entry.cjs, for `require`); dist/index.js (for
-//   `import`, replacing tsc's) re-exports that one instance by name. No code cache:
-//   a script that uses the library loads it once and keeps it.
+//   `import`, replacing tsc's) re-exports that one instance by name.
 // All run through scripts/bundle-loader.mjs (built to dist/bundle-loader.cjs, so that
-// the CommonJS entry loads it too), which says how a cache is checked.
+// the CommonJS entry loads it too): for the command line, it keeps V8's compiled code
+// in the user's cache folder after the first run. Nothing the build writes depends
+// on the machine that built it (no code cache ships).
 // The method schema's precompiled validator gets ajv's helpers bundled into it, and
 // dist/THIRD-PARTY-LICENSES collects the license notices of every bundled package.
 //
 // Why: start-up, and install weight. Resolving and compiling some thousand files
 // (our modules, the dependencies' own, @stdlib's 350 small packages) cost more than
 // the work of a small worklist; so did parsing and compiling the one bundle on
-// every run, which the code cache spares. And with the command line and the library
-// bundled, nothing of node_modules is needed at run time but the optional
-// better-sqlite3, so the packages bundled are devDependencies and a user's install
-// is phasebook alone (docs/performance.md has the numbers).
+// every run, which the user's code cache spares from the second run on. And with
+// the command line and the library bundled, nothing of node_modules is needed at
+// run time but the optional better-sqlite3, so the packages bundled are
+// devDependencies and a user's install is phasebook alone (docs/performance.md
+// has the numbers).
 //
 // A bundle is CommonJS, wrapped as Node wraps a module (V8 caches code of a
-// script, not of an ES module, on Node 20). What stays as it is in the sources:
+// script, not of an ES module, on Node 20, which has no module.enableCompileCache).
+// What stays as it is in the sources:
 // - a dynamic `import()` of a bundled module runs that module when first needed
 //   (exceljs and the workbook checker are evaluated only by runs that use them);
 // - better-sqlite3 (a native addon, optional) is required from node_modules;
@@ -42,11 +43,9 @@
 //   `canvas` with a top-level await, which CommonJS cannot hold; and charts then
 //   come out the same whatever else is installed.
 import * as esbuild from 'esbuild';
-import { spawnSync } from 'node:child_process';
 import { createHash } from 'node:crypto';
-import { chmod, mkdir, mkdtemp, readFile, readdir, rename, rm, stat, writeFile } from 'node:fs/promises';
+import { chmod, mkdir, readFile, readdir, rename, rm, writeFile } from 'node:fs/promises';
 import { createRequire } from 'node:module';
-import { tmpdir } from 'node:os';
 import { dirname, join, relative, resolve, sep } from 'node:path';
 import { fileURLToPath } from 'node:url';
 
@@ -84,23 +83,17 @@ const noUnzipper = {
   },
 };
 
-/** The bundle's parameters holding the loader's runBundle and what the entry hands over (scripts/bundle-loader.mjs). */
+/** The bundle's parameter holding the loader's way to run another bundle (scripts/bundle-loader.mjs). */
 const RUN_BUNDLE = '__phasebook_run_bundle';
-const HANDOVER = '__phasebook_handover';
 
-// In the command line's bundle, the chart code is the chart bundle's, on a worker (maybe
-// one the entry started) or loaded here.
+// In the command line's and the library's bundles, the chart code is the chart bundle, run
+// (once: the module keeps it) when the first chart is drawn.
 const CHART_CODE = join(SRC, 'report', 'chart-code.ts');
 const CHART_CODE_IN_BUNDLE = `
-export const chartWorkerUrl = new URL('./chart-worker.js', ${DIST_URL});
+let chartModule;
 export function loadChartModule() {
-  return Promise.resolve(${RUN_BUNDLE}(${DIST_URL}, 'chart-bundle'));
-}
-let early = ${HANDOVER}.chartWorker;
-export function takeEarlyChartWorker() {
-  const worker = early;
-  early = undefined;
-  return worker;
+  chartModule ??= ${RUN_BUNDLE}(${DIST_URL}, 'chart-bundle');
+  return Promise.resolve(chartModule);
 }
 `;
 
@@ -123,7 +116,7 @@ const sources = (replaced) => ({
 });
 
 await rm(join(OUT, 'cli-chunks'), { recursive: true, force: true }); // an earlier build's layout
-await rm(join(OUT, 'bundle-loader.js'), { force: true }); // an earlier build's layout
+for (const old of ['bundle-loader.js', 'chart-worker.js', 'cli-bundle.cache', 'chart-bundle.cache']) await rm(join(OUT, old), { force: true }); // earlier builds' files
 const withChartBundle = new Map([[CHART_CODE, CHART_CODE_IN_BUNDLE]]);
 const cli = await bundle(join(SRC, 'cli.ts'), 'cli-bundle', withChartBundle);
 const lib = await bundle(join(SRC, 'index.ts'), 'lib-bundle', withChartBundle);
@@ -131,17 +124,15 @@ for (const [name, result] of [['command line', cli], ['library', lib]]) {
   const vega = Object.keys(result.metafile.inputs).find((p) => /node_modules\/vega/.test(p));
   if (vega) throw new Error(`the ${name}'s bundle must not hold vega (it is the chart bundle's): ${vega}`);
 }
-const chart = await bundle(join(SRC, 'report', 'chart-worker.ts'), 'chart-bundle', new Map());
+const chart = await bundle(join(SRC, 'report', 'svg.ts'), 'chart-bundle', new Map());
 const validator = await bundleValidator();
 await writeThirdPartyLicenses(join(OUT, 'THIRD-PARTY-LICENSES'), [cli, lib, chart, validator]);
 // The loader, then the entries: an entry never runs a half-written bundle.
 await writeLoader();
-await writeAtomically(join(OUT, 'chart-worker.js'), await readFile(join(ROOT, 'scripts', 'chart-worker-entry.mjs'), 'utf8'));
 await writeAtomically(join(OUT, 'index.cjs'), await readFile(join(ROOT, 'scripts', 'lib-entry.cjs'), 'utf8'));
 await writeAtomically(join(OUT, 'index.js'), libraryModuleEntry());
 await writeAtomically(join(OUT, 'cli.js'), await readFile(join(ROOT, 'scripts', 'cli-entry.mjs'), 'utf8'));
 await chmod(join(OUT, 'cli.js'), 0o755);
-await writeCodeCaches();
 
 /**
  * The method schema's precompiled validator (scripts/precompile-method-schema.mjs writes it to
@@ -267,7 +258,7 @@ async function bundle(entry, name, replaced) {
   if (dynamic.length > 0) throw new Error(`${name} must not import() at run time: ${dynamic.map((i) => i.path).join(', ')}`);
   // The body without tsc's shebang line, wrapped; the first line names the build.
   const body = result.outputFiles[0].text.replace(/^#!.*\n/, '');
-  const wrapped = `(function (exports, require, module, __filename, __dirname, ${DIST_URL}, ${RUN_BUNDLE}, ${HANDOVER}) {\n${body}\n})`;
+  const wrapped = `(function (exports, require, module, __filename, __dirname, ${DIST_URL}, ${RUN_BUNDLE}) {\n${body}\n})`;
   const nonAscii = /[^\x00-\x7f]/.exec(wrapped);
   if (nonAscii) {
     // esbuild leaves regular expressions and template literals as written: spell such characters with \u escapes.
@@ -276,36 +267,6 @@ async function bundle(entry, name, replaced) {
   const buildId = createHash('sha256').update(wrapped).digest('hex');
   await writeAtomically(join(OUT, `${name}.js`), `// ${buildId}\n${wrapped}`);
   return result;
-}
-
-/**
- * Run the demo with every output through the new entry, with PHASEBOOK_WRITE_CODE_CACHE
- * set: the main thread then writes dist/cli-bundle.cache, the chart worker dist/chart-bundle.cache.
- */
-async function writeCodeCaches() {
-  const caches = ['cli-bundle.cache', 'chart-bundle.cache'].map((name) => join(OUT, name));
-  for (const cache of caches) await rm(cache, { force: true });
-  const work = await mkdtemp(join(tmpdir(), 'phasebook-build-'));
-  try {
-    const demo = ['recalc', join(ROOT, 'samples', 'kestrel-brook-2026-11.csv'), '--method', join(ROOT, 'templates', 'surface-water.yaml')];
-    const run = spawnSync(process.execPath, [join(OUT, 'cli.js'), ...demo, '--out', work, '--quiet', '--outputs', 'csv,xlsx,html'], {
-      env: { ...process.env, PHASEBOOK_WRITE_CODE_CACHE: '1' },
-      encoding: 'utf8',
-    });
-    // The demo batch passes (exit 0); a QC failure (1) would still have run every part.
-    if (run.status !== 0 && run.status !== 1) throw new Error(`the demo run for the code cache failed (exit ${run.status}):\n${run.stderr}`);
-    const missing = [];
-    for (const cache of caches) {
-      try {
-        await stat(cache);
-      } catch {
-        missing.push(cache);
-      }
-    }
-    if (missing.length > 0) throw new Error(`the demo run for the code cache wrote no ${missing.join(', ')}`);
-  } finally {
-    await rm(work, { recursive: true, force: true });
-  }
 }
 
 async function writeAtomically(path, text) {

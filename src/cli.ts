@@ -24,7 +24,6 @@ import { VERSION } from './version.js';
 import { installSignalHandlers } from './cli-signals.js';
 import { CSV_DIALECTS, OUTPUT_KINDS, type CsvDialectChoice, type OutputKind } from './outputs.js';
 import { createProgress, type ProgressLine } from './progress.js';
-import { prepareChartWorker, stopChartWorker } from './report/draw.js';
 
 const debug = process.argv.includes('--debug');
 
@@ -127,11 +126,11 @@ async function recalcCommand(worklist: string, opts: RecalcCliOptions): Promise<
 async function recalcCommandQuietly(worklist: string, opts: RecalcCliOptions): Promise<number> {
   if (worklist !== '-') {
     if (opts.name !== undefined) throw new StopError('usage', '--name goes with - (a worklist on standard input); a file names its own outputs');
-    return recalcWithWorker(worklist, opts);
+    return recalcShowingProgress(worklist, opts);
   }
   const spooled = await spoolStdin(process.stdin, { name: opts.name ?? 'stdin', maxBytes: opts.maxBytes });
   try {
-    return await recalcWithWorker(spooled.path, opts, STDIN_LABEL);
+    return await recalcShowingProgress(spooled.path, opts, STDIN_LABEL);
   } catch (err) {
     throw spooled.relabel(err);
   } finally {
@@ -139,15 +138,12 @@ async function recalcCommandQuietly(worklist: string, opts: RecalcCliOptions): P
   }
 }
 
-async function recalcWithWorker(worklist: string, opts: RecalcCliOptions, label?: string): Promise<number> {
+async function recalcShowingProgress(worklist: string, opts: RecalcCliOptions, label?: string): Promise<number> {
   // On a terminal, work over a second shows a progress line on stderr (progress.ts).
   const progress = createProgress({ quiet: opts.quiet });
-  // The report's charts are drawn on a second thread, which loads vega meanwhile (report/draw.ts).
-  prepareChartWorker((opts.outputs ?? OUTPUT_KINDS).includes('html'));
   try {
     return await recalcWithProgress(worklist, opts, progress, label);
   } finally {
-    stopChartWorker();
     progress?.finish();
   }
 }

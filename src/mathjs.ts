@@ -19,9 +19,14 @@ import type { MathNode } from 'mathjs';
  *   `matrix`, which the accessor, index and assignment node classes use only
  *   when mathjs itself evaluates a tree, are stand-ins there: building them
  *   (matrices, equality, addition, ...) was two thirds of what making the
- *   parser still cost. Unit conversion factors (columns/units.ts) use the
- *   module's default instance, whose unit system is built the first time a
- *   conversion is needed.
+ *   parser still cost. Unit conversion factors (columns/units.ts) use an
+ *   instance of their own, whose unit system is built the first time a
+ *   conversion is needed. There `pow` is the one mathjs uses for two numbers
+ *   (what a unit's prefix and power need: `Unit` raises the unit's value times
+ *   its prefix to the unit's power), and `fix`, `round` and `equal`, which
+ *   `Unit` uses only to split a unit into parts or compare values, are
+ *   stand-ins: building mathjs's own (matrices, inverses, fractions, ...) was
+ *   most of what a run's first unit cost (issue 17.6). Any other use throws.
  * - Hardened as the mathjs security page advises
  *   (https://mathjs.org/docs/expressions/security.html): `parse` is captured
  *   first, then everything that defines, imports, parses or evaluates code is
@@ -74,7 +79,25 @@ for (const name of EVALUATION_ONLY) {
 const capturedParse = parser.parse;
 harden(parser);
 
-const units = defaultInstance;
+/** mathjs's `pow` for two numbers (function/arithmetic/pow.js, default config): Math.pow with its two infinity rules. */
+function powOfNumbers(x: unknown, y: unknown): number {
+  if (typeof x !== 'number' || typeof y !== 'number' || !(x >= 0 || Number.isInteger(y))) {
+    throw new Error(`pow is only available to units for a number raised to a power, got ${typeof x} ${String(x)} and ${typeof y} ${String(y)}`);
+  }
+  if ((x * x < 1 && y === Infinity) || (x * x > 1 && y === -Infinity)) return 0;
+  return Math.pow(x, y);
+}
+
+/** What `Unit` uses only to split a unit into parts or compare two values: stand-ins in the units instance. */
+const SPLIT_OR_COMPARE_ONLY = ['fix', 'round', 'equal'] as const;
+
+const units = createInstance({});
+put(units, 'pow', powOfNumbers);
+for (const name of SPLIT_OR_COMPARE_ONLY) {
+  put(units, name, () => {
+    throw new Error(`${name} is not available to unit conversion`);
+  });
+}
 harden(units);
 
 /** Parse an expression into a syntax tree; nothing is evaluated. */

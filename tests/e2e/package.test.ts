@@ -39,8 +39,9 @@ describe('the packed and installed package', () => {
   it('ships the license, the methods and the built code, and nothing of the repository besides', () => {
     const pkg = join(app, 'node_modules', 'phasebook');
     expect(readdirSync(pkg).sort()).toEqual(['LICENSE', 'README.md', 'dist', 'package.json', 'templates']);
-    // dist/: the entries, the bundles and their code caches, the loader, the precompiled method
-    // validator, the bundled code's licenses, and tsc's type declarations; none of tsc's modules.
+    // dist/: the entries, the bundles, the loader, the precompiled method validator, the bundled
+    // code's licenses, and tsc's type declarations; none of tsc's modules, and no code cache (a run
+    // keeps its own in the user's cache folder).
     const dist = join(pkg, 'dist');
     const built = readdirSync(dist, { recursive: true, withFileTypes: true })
       .filter((d) => d.isFile() && !d.name.endsWith('.d.ts'))
@@ -48,10 +49,7 @@ describe('the packed and installed package', () => {
     expect(built.sort()).toEqual([
       'THIRD-PARTY-LICENSES',
       'bundle-loader.cjs',
-      'chart-bundle.cache',
       'chart-bundle.js',
-      'chart-worker.js',
-      'cli-bundle.cache',
       'cli-bundle.js',
       'cli.js',
       'index.cjs',
@@ -59,6 +57,28 @@ describe('the packed and installed package', () => {
       'lib-bundle.js',
       'method/method-schema.validate.cjs',
     ]);
+  });
+
+  it('holds nothing of the machine that built it: no file names the folder it was built in', () => {
+    const pkg = join(app, 'node_modules', 'phasebook');
+    const files = readdirSync(pkg, { recursive: true, withFileTypes: true }).filter((d) => d.isFile());
+    expect(files.length).toBeGreaterThan(20);
+    const naming = files.map((d) => join(d.parentPath, d.name)).filter((f) => readFileSync(f, 'latin1').includes(ROOT));
+    expect(naming).toEqual([]);
+  });
+
+  it("keeps the command line's code cache in the user's cache folder, never in the package", () => {
+    const listing = () => readdirSync(join(app, 'node_modules', 'phasebook'), { recursive: true }).sort();
+    const shipped = listing();
+    const cache = join(dir, 'user-cache');
+    const r = spawnSync(bin(), ['recalc', join(ROOT, 'samples/kestrel-brook-2026-11.csv'), '-m', 'surface-water', '-o', 'cached', '--outputs', 'csv', '--quiet'], {
+      cwd: app,
+      encoding: 'utf8',
+      env: { ...process.env, PHASEBOOK_CACHE_DIR: undefined, XDG_CACHE_HOME: cache },
+    });
+    expect(r.status, r.stderr).toBe(0);
+    expect(readdirSync(join(cache, 'phasebook'))).toEqual([expect.stringMatching(/^cli-bundle-[0-9a-f]{16}\.cache$/)]);
+    expect(listing()).toEqual(shipped);
   });
 
   it('installs nothing but itself: its code is bundled, and the optional SQLite package is left out', () => {

@@ -1,8 +1,8 @@
 /**
- * Charts drawn on the chart worker must be the charts drawn on this thread, byte
- * for byte, and a drawing error must reach the caller the same way. The worker
- * runs a built file, so this test uses dist/ (npm test builds it first): the
- * worker is dist/report/chart-worker.js, started by dist/report/draw.js.
+ * drawChart (draw.ts) loads the chart code when first asked (chart-code.ts) and
+ * draws on this thread: charts asked for all at once, several sharing one
+ * compiled view (svg.ts), must each be what drawing it alone gives, byte for
+ * byte, and a drawing error must reach the caller without stopping the next.
  */
 import { mkdtempSync, rmSync } from 'node:fs';
 import { tmpdir } from 'node:os';
@@ -11,30 +11,26 @@ import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import type { TopLevelSpec } from 'vega-lite';
 import type { TrendSeries } from '../../src/history/trends.js';
 import { controlChartSpec, recoveryChartSpec } from '../../src/report/charts.js';
+import { drawChart } from '../../src/report/draw.js';
 import { renderSvg } from '../../src/report/svg.js';
 import { inventedRecoveries, reportScenario } from '../report/fixtures.js';
 
-type Draw = typeof import('../../src/report/draw.js');
-let draw: Draw;
 let dir: string;
 let history: TrendSeries[];
 
 beforeAll(async () => {
-  draw = (await import(join(import.meta.dirname, '../../dist/report/draw.js'))) as Draw;
   dir = mkdtempSync(join(tmpdir(), 'phasebook-draw-'));
   ({ history } = await reportScenario(dir));
 }, 120_000);
 
 afterAll(() => {
-  draw?.stopChartWorker();
   rmSync(dir, { recursive: true, force: true });
 });
 
-describe('drawing charts on the chart worker', () => {
-  it('draws recovery and control charts exactly as drawing them on this thread does, asked for all at once', async () => {
-    draw.prepareChartWorker(true);
+describe('drawing charts', () => {
+  it('draws recovery and control charts asked for all at once, each exactly as drawing it alone does', async () => {
     const specs: TopLevelSpec[] = [
-      // Up to six controls: the shape the worker warms up with; then wider charts.
+      // Charts of one shape (up to six controls) share a view; then wider charts.
       recoveryChartSpec(inventedRecoveries(3, 0), { analyte: 'Atrazine' }),
       recoveryChartSpec(inventedRecoveries(6, 4), { analyte: 'Simazine' }),
       recoveryChartSpec(inventedRecoveries(9, 2), { analyte: 'Atrazine' }),
@@ -42,8 +38,7 @@ describe('drawing charts on the chart worker', () => {
       ...history.map((s) => controlChartSpec(s, { isCurrent: (i) => i === s.points.length - 1 })),
     ];
     expect(history.length).toBeGreaterThan(1);
-    const drawn = await Promise.all(specs.map((spec) => draw.drawChart(spec)));
-    expect(draw.chartWorkerRunning()).toBe(true); // drawn there, not here after a failure
+    const drawn = await Promise.all(specs.map((spec) => drawChart(spec)));
     for (let i = 0; i < specs.length; i++) {
       expect(drawn[i], `chart ${i}`).toBe(await renderSvg(specs[i]!, { reuse: false }));
     }
@@ -51,7 +46,6 @@ describe('drawing charts on the chart worker', () => {
   });
 
   it('passes on the error of a chart that cannot be drawn, with the message drawing it here gives', async () => {
-    draw.prepareChartWorker(true);
     // A field type vega-lite does not know: compiling it throws.
     const bad = { data: { values: [{ a: 1 }] }, mark: 'point', encoding: { x: { field: 'a', type: 'no-such-type' } } } as unknown as TopLevelSpec;
     const here = await renderSvg(bad, { reuse: false }).then(
@@ -59,17 +53,9 @@ describe('drawing charts on the chart worker', () => {
       (err: Error) => err.message,
     );
     expect(here).not.toBe('drawn');
-    await expect(draw.drawChart(bad)).rejects.toThrow(here);
-    // The worker goes on drawing after an error.
+    await expect(drawChart(bad)).rejects.toThrow(here);
+    // Drawing goes on after an error.
     const good = recoveryChartSpec(inventedRecoveries(4, 1), { analyte: 'Atrazine' });
-    expect(await draw.drawChart(good)).toBe(await renderSvg(good, { reuse: false }));
-    expect(draw.chartWorkerRunning()).toBe(true);
-  });
-
-  it('draws on this thread after the worker is stopped', async () => {
-    draw.stopChartWorker();
-    expect(draw.chartWorkerRunning()).toBe(false);
-    const spec = recoveryChartSpec(inventedRecoveries(5, 3), { analyte: 'Simazine' });
-    expect(await draw.drawChart(spec)).toBe(await renderSvg(spec, { reuse: false }));
+    expect(await drawChart(good)).toBe(await renderSvg(good, { reuse: false }));
   });
 });
