@@ -1,3 +1,5 @@
+import { tmpdir } from 'node:os';
+import { join } from 'node:path';
 import { defineConfig } from 'vitest/config';
 
 /**
@@ -13,6 +15,8 @@ export default defineConfig({
     hookTimeout: 600_000,
     // Two cores here: keep worker count modest so CLI-spawning tests do not starve each other.
     maxWorkers: 2,
+    // The CLI's code cache (scripts/bundle-loader.mjs) goes to a folder of the test run's own, not the user's.
+    env: { PHASEBOOK_CACHE_DIR: join(tmpdir(), `phasebook-test-cache-${process.pid}`) },
     projects: [
       { extends: true, test: { name: 'unit', include: ['tests/**/*.test.ts'], exclude: ['tests/e2e/**'] } },
       { extends: true, test: { name: 'e2e', include: ['tests/e2e/**/*.test.ts'] } },

@@ -13,7 +13,7 @@ import type { TrendSeries } from '../../src/history/trends.js';
 import { controlChartSpec, recoveryChartSpec } from '../../src/report/charts.js';
 import { drawChart } from '../../src/report/draw.js';
 import { renderSvg } from '../../src/report/svg.js';
-import { inventedRecoveries, reportScenario } from '../report/fixtures.js';
+import { inventedRecoveries, reportScenario } from './fixtures.js';
 
 let dir: string;
 let history: TrendSeries[];
