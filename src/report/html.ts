@@ -67,30 +67,16 @@ export function htmlReportPaths(result: RecalcResult, options: { outDir: string;
   });
 }
 
-/** Reports being made ahead of their turn to be written (see htmlReportJobs). */
-const REPORTS_AHEAD = 2;
-
 /**
  * Write jobs for the reports, to join the other outputs in one all-or-nothing
- * commit (write/atomic.ts). A report's job begins it and the next REPORTS_AHEAD
- * ones: with a chart worker (draw.ts) their charts are drawn while this one is
- * assembled and written. At most REPORTS_AHEAD + 1 reports are held in memory.
+ * commit (write/atomic.ts). Each job makes its report when its turn comes, so one
+ * report at a time is held in memory.
  */
 export function htmlReportJobs(result: RecalcResult, options: ReportJobOptions): WriteJob[] {
-  const paths = htmlReportPaths(result, options);
-  const made: Array<Promise<string> | undefined> = [];
-  const begin = (i: number) => {
-    if (i >= paths.length || made[i] !== undefined) return;
-    const report = renderReport(result, { batch: paths[i]!.batch, history: options.history, run: options.run });
-    report.catch(() => undefined); // awaited by its own job; a commit stopped before then must not see it as unhandled
-    made[i] = report;
-  };
-  return paths.map(({ path }, i) => ({
+  return htmlReportPaths(result, options).map(({ batch, path }) => ({
     target: path,
     write: async (tmp: string) => {
-      for (let k = i; k <= i + REPORTS_AHEAD; k++) begin(k);
-      const text = await made[i]!;
-      made[i] = undefined;
+      const text = await renderReport(result, { batch, history: options.history, run: options.run });
       await writeFile(tmp, text, 'utf8');
     },
   }));
@@ -110,8 +96,7 @@ export async function renderReport(result: RecalcResult, options: ReportOptions)
   const flags = index.flags.get(batch) ?? [];
   const title = batch ? `Batch ${batch}` : `Worklist ${result.worklist.name}`;
 
-  // Every chart of the report is asked for at once: a chart worker (draw.ts) draws
-  // them one after another while this thread goes on with other outputs.
+  // The report's charts, each drawn once (draw.ts).
   const history = options.history;
   const [recoverySections, historySections, uncertainty] = await Promise.all([
     Promise.all(analytes.map((analyte) => recoverySection(result, rows, analyte))),

@@ -54,8 +54,8 @@ export interface WriteJob {
   /**
    * Jobs of one lane are written one after another, in their order; jobs of
    * different lanes at the same time (default: one lane for all). The reports
-   * have a lane of their own: their charts are drawn on another thread, so they
-   * go on while the workbook is written.
+   * have a lane of their own: one is made while the workbook's stream waits on
+   * the disk.
    */
   lane?: string;
 }
