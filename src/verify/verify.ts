@@ -20,14 +20,12 @@ import { parseMethod } from '../method/load.js';
 import type { Method } from '../domain/method.js';
 import { recalculateTable, type RecalcResult } from '../pipeline.js';
 import type { RawCell, RawTable, RowProblem } from '../read/types.js';
-import { columnLetter, isEmptyValue, type CellValue, type RowContext, type SheetPlan } from '../write/workbook/cells.js';
+import { columnLetter, isEmptyValue, titleRow, type CellValue, type RowContext, type SheetPlan } from '../write/workbook/cells.js';
 import { ColumnChecks, IntegrityDigest, parseColumnChecks, sha256Text } from '../write/workbook/digest.js';
 import { columnNumber } from './shared-formula.js';
 import { FLAGS_SHEET } from '../write/workbook/flags-sheet.js';
-import { IN_HOUSE_TITLE, LIMITS_TITLE, LINE_ENDS_KEY, METHOD_SHEET, METHOD_TEXT_TITLE, UNCERTAINTY_POINTS_TITLE, lineEndOf } from '../write/workbook/method-sheet.js';
-import type { UncertaintyPoint, UncertaintyTable } from '../qc/uncertainty.js';
+import { METHOD_SHEET, METHOD_TEXT_TITLE, readInHouseLimits, readLimitRows, readMethodText, readUncertaintyPoints } from '../write/workbook/method-sheet.js';
 import { uncertaintyFromPoints } from '../figures/from-history.js';
-import { inHouseKey, type InHouseLimits } from '../qc/limits.js';
 import { WORKBOOK_FORMAT } from '../write/workbook/options.js';
 import { SHEET_ORDER, planWorkbook } from '../write/workbook/workbook-plan.js';
 import {
@@ -44,11 +42,10 @@ import { RESULTS_SHEET, WORKLIST_ROW_HEADER } from '../write/workbook/results-sh
 import { FIRST_INPUT_COLUMN, inputColumn } from '../write/workbook/results-layout.js';
 import { SUMMARY_SHEET } from '../write/workbook/summary-sheet.js';
 import { MIN_POINTS } from '../history/trends.js';
-import { TRENDS_SHEET } from '../write/workbook/trends-sheet.js';
+import { readTrendsSheet, TRENDS_SHEET } from '../write/workbook/trends-sheet.js';
 import { compareSheet, sameValue } from './sheet-diff.js';
 import { isCanonicalField } from '../domain/fields.js';
 import { SIGNATURES_SHEET, checkSignatures, contentDigest, readSignatures, type SignatureCheck } from './signatures.js';
-import { storedTrends } from './trends.js';
 import { showValue, type Difference } from './difference.js';
 import { readStoredWorkbook, type StoredCell, type StoredSheet, type StoredWorkbook } from './read.js';
 
@@ -175,7 +172,7 @@ export async function verifyWorkbook(path: string, options: VerifyOptions = {}):
   try {
     result = recalculateTable(raw, {
       method,
-      inHouse: storedInHouseLimits(methodSheet),
+      inHouse: readInHouseLimits(methodSheet),
       uncertainty: storedUncertainty(methodSheet, method),
       worklist: {
         path: needText(KEYS.worklistName),
@@ -192,7 +189,7 @@ export async function verifyWorkbook(path: string, options: VerifyOptions = {}):
 
   // The Trends sheet's series, rebuilt from the points it lists.
   const trendsSheet = stored.sheet(TRENDS_SHEET);
-  const trends = trendsSheet ? storedTrends(trendsSheet, { defaultMinPoints: MIN_POINTS }) : undefined;
+  const trends = trendsSheet ? readTrendsSheet(trendsSheet, { defaultMinPoints: MIN_POINTS }) : undefined;
   const plan = planWorkbook(result, {
     history: trends?.history,
     minPoints: trends?.minPoints,
@@ -239,7 +236,7 @@ export async function verifyWorkbook(path: string, options: VerifyOptions = {}):
   const summary = sheetOrMissing(SUMMARY_SHEET);
   if (summary) differences.push(...compareSheet(plan.summary, summary, { recomputed }));
 
-  digest.addMethod(sha256Text(text.text), storedLimits(methodSheet));
+  digest.addMethod(sha256Text(text.text), readLimitRows(methodSheet));
   digest.addTrends(trends?.digestRows ?? []);
   const hex = digest.hex();
   const recorded = facts.get(KEYS.digest)?.value;
@@ -366,6 +363,15 @@ function signOff(stored: StoredSheet, plan: SheetPlan): SignOffEntry[] {
 }
 
 /** Column A key → column B cell of the Provenance sheet (the first time a key appears). */
+/**
+ * The expanded uncertainty derived again from the recoveries the Method sheet lists (none when it lists
+ * none), by the derivation the run used; a method's fixed U comes from the method text itself.
+ */
+function storedUncertainty(sheet: StoredSheet, method: Method) {
+  const listed = readUncertaintyPoints(sheet);
+  return listed && uncertaintyFromPoints(listed.points, { method, until: listed.until, historyFile: listed.file });
+}
+
 function keyValues(sheet: StoredSheet): Map<string, StoredCell> {
   const out = new Map<string, StoredCell>();
   for (let r = 1; r <= sheet.lastRow; r++) {
@@ -374,93 +380,6 @@ function keyValues(sheet: StoredSheet): Map<string, StoredCell> {
     if (typeof key === 'string' && !out.has(key)) out.set(key, cells.get(2) ?? { value: null });
   }
   return out;
-}
-
-/** The row whose column A holds `title`, or 0. */
-function findTitle(sheet: StoredSheet, title: string): number {
-  for (let r = 1; r <= sheet.lastRow; r++) if (sheet.row(r).get(1)?.value === title) return r;
-  return 0;
-}
-
-function readMethodText(sheet: StoredSheet): { text: string; firstRow: number } {
-  const title = findTitle(sheet, METHOD_TEXT_TITLE);
-  let ends = '\n';
-  for (let r = 1; r <= sheet.lastRow; r++) {
-    const cells = sheet.row(r);
-    if (cells.get(1)?.value === LINE_ENDS_KEY) ends = lineEndOf(String(cells.get(2)?.value ?? ''));
-  }
-  const lines: string[] = [];
-  const firstRow = title + 2;
-  if (title > 0) {
-    for (let r = firstRow; r <= sheet.lastRow; r++) {
-      const cells = sheet.row(r);
-      if (typeof cells.get(1)?.value !== 'number') break;
-      const v = cells.get(2)?.value;
-      lines.push(v === null || v === undefined ? '' : String(v));
-    }
-  }
-  return { text: lines.join(ends), firstRow };
-}
-
-/** The in-house limits the run applied, as the Method sheet recorded them (undefined when it records none). */
-function storedInHouseLimits(sheet: StoredSheet): InHouseLimits | undefined {
-  const title = findTitle(sheet, IN_HOUSE_TITLE);
-  if (title === 0) return undefined;
-  const out = new Map<string, { low: number; high: number; n: number }>();
-  for (let r = title + 2; r <= sheet.lastRow; r++) {
-    const cells = sheet.row(r);
-    if (cells.size === 0) break;
-    const [analyte, type, level, low, high, n] = [1, 2, 3, 4, 5, 6].map((c) => cells.get(c)?.value);
-    if (typeof low !== 'number' || typeof high !== 'number') continue;
-    out.set(inHouseKey(String(analyte ?? ''), String(type ?? ''), String(level ?? '')), { low, high, n: typeof n === 'number' ? n : 0 });
-  }
-  return out;
-}
-
-/**
- * The expanded uncertainty derived again from the recoveries the Method sheet lists (none
- * when it lists none); a method's fixed U comes from the method text itself.
- */
-function storedUncertainty(sheet: StoredSheet, method: Method): UncertaintyTable | undefined {
-  const title = findTitle(sheet, UNCERTAINTY_POINTS_TITLE);
-  if (title === 0) return undefined;
-  const file = sheet.row(title + 1).get(2)?.value;
-  const until = sheet.row(title + 2).get(2)?.value;
-  const points: Array<UncertaintyPoint & { analyte: string }> = [];
-  for (let r = title + 4; r <= sheet.lastRow; r++) {
-    const cells = sheet.row(r);
-    if (cells.size === 0) break;
-    const [analyte, sampleType, qcLevel, recovery, runTime, worklistName, batchId, sampleId] = [1, 2, 3, 4, 5, 6, 7, 8].map((c) => cells.get(c)?.value);
-    const text = (v: unknown) => (v === null || v === undefined ? '' : String(v));
-    points.push({
-      analyte: text(analyte),
-      sampleType: text(sampleType),
-      qcLevel: text(qcLevel),
-      recoveryPct: typeof recovery === 'number' ? recovery : NaN,
-      runTime: text(runTime),
-      worklistName: text(worklistName),
-      batchId: text(batchId),
-      sampleId: text(sampleId),
-    });
-  }
-  return uncertaintyFromPoints(points, { method, until: String(until ?? ''), historyFile: String(file ?? '') });
-}
-
-/** The stored acceptance limits table (seven columns) and in-house limits table (six), for the digest. */
-function storedLimits(sheet: StoredSheet): CellValue[][] {
-  const rows: CellValue[][] = [];
-  const table = (title: string, width: number) => {
-    const at = findTitle(sheet, title);
-    if (at === 0) return;
-    for (let r = at + 2; r <= sheet.lastRow; r++) {
-      const cells = sheet.row(r);
-      if (cells.size === 0) break;
-      rows.push(Array.from({ length: width }, (_, i) => cells.get(i + 1)?.value ?? null));
-    }
-  };
-  table(LIMITS_TITLE, 7);
-  table(IN_HOUSE_TITLE, 6);
-  return rows;
 }
 
 function rowValues(cells: ReadonlyMap<number, StoredCell>, width: number): CellValue[] {
@@ -497,7 +416,7 @@ function rebuildWorklist(
     if (!byWorklistRow.has(w)) byWorklistRow.set(w, i);
   });
   const rowProblems: RowProblem[] = [];
-  const title = findTitle(provenance, READING_PROBLEMS_TITLE);
+  const title = titleRow(provenance, READING_PROBLEMS_TITLE);
   if (title > 0) {
     for (let r = title + 2; r <= provenance.lastRow; r++) {
       const cells = provenance.row(r);

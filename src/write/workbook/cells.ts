@@ -148,3 +148,33 @@ export function escapeForXlsx(s: string): string {
 export function isEmptyValue(v: CellValue | undefined): boolean {
   return v === null || v === undefined || v === '';
 }
+
+/**
+ * A sheet as read back from a stored workbook (verify's StoredSheet is one): what each sheet module
+ * needs to read back the tables it laid out.
+ */
+export interface SheetRows {
+  /** Last row that holds anything (0 for an empty sheet). */
+  lastRow: number;
+  /** The cells of a 1-based row by 1-based column (empty cells left out). */
+  row(row: number): ReadonlyMap<number, { value: CellValue }>;
+}
+
+/** The row whose column A holds `title`, or 0. */
+export function titleRow(sheet: SheetRows, title: string): number {
+  for (let r = 1; r <= sheet.lastRow; r++) if (sheet.row(r).get(1)?.value === title) return r;
+  return 0;
+}
+
+/** The rows of the table under a title (its header row skipped), each as `width` values, up to the first empty row. */
+export function tableRows(sheet: SheetRows, title: string, width: number, options: { headerOffset?: number } = {}): CellValue[][] | undefined {
+  const at = titleRow(sheet, title);
+  if (at === 0) return undefined;
+  const rows: CellValue[][] = [];
+  for (let r = at + (options.headerOffset ?? 2); r <= sheet.lastRow; r++) {
+    const cells = sheet.row(r);
+    if (cells.size === 0) break;
+    rows.push(Array.from({ length: width }, (_, i) => cells.get(i + 1)?.value ?? null));
+  }
+  return rows;
+}

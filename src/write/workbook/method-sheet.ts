@@ -15,9 +15,11 @@ import { calibrationSentence, roundingWords } from '../../method/reporting.js';
 import type { ControlKind, LimitSet, LimitTable, Method } from '../../domain/method.js';
 import type { RecalcResult } from '../../pipeline.js';
 import { COMPARISON_RULE } from '../../qc/compare.js';
+import { inHouseKey, type InHouseLimits } from '../../qc/limits.js';
+import type { UncertaintyPoint } from '../../qc/uncertainty.js';
 import { ACID_WORDS, BASE_WORDS, NEUTRAL_WORDS } from '../sheet-formula.js';
 import { SheetBuilder } from './builder.js';
-import { absoluteRange, absoluteRef, cell, sheetText, type CellValue, type SheetPlan } from './cells.js';
+import { absoluteRange, absoluteRef, cell, sheetText, tableRows, titleRow, type CellValue, type SheetPlan, type SheetRows } from './cells.js';
 
 export const METHOD_SHEET = 'Method';
 export const METHOD_TEXT_TITLE = 'Method file text';
@@ -29,6 +31,8 @@ export const UNCERTAINTY_HEADERS = ['analyte', 'U % of the result', 'k', 'from',
 export const UNCERTAINTY_POINTS_TITLE = 'Recoveries behind the expanded uncertainty (from the QC history)';
 export const UNCERTAINTY_POINT_KEYS = { file: 'QC history', until: 'history up to' } as const;
 export const UNCERTAINTY_POINT_HEADERS = ['analyte', 'sample type', 'qc level', 'recovery %', 'run time', 'worklist', 'batch', 'sample id'] as const;
+export const LIMITS_HEADERS = ['scope', 'control type', 'qc level', 'recovery low %', 'recovery high %', 'RPD max %', 'blank: part of the RL'] as const;
+export const IN_HOUSE_HEADERS = ['analyte', 'control type', 'qc level', 'recovery low %', 'recovery high %', 'points'] as const;
 
 /** The in-house limits that judged this run's controls, one per (analyte, control type), from the rows they judged. */
 export function inHouseApplied(result: RecalcResult): { analyte: string; type: string; level: string; low: number; high: number; n: number }[] {
@@ -245,7 +249,7 @@ export function planMethodSheet(result: RecalcResult, options: { formulaForms?: 
 
   // Limits.
   b.title(LIMITS_TITLE, 'section');
-  b.table(['scope', 'control type', 'qc level', 'recovery low %', 'recovery high %', 'RPD max %', 'blank: part of the RL'], limitRows(method));
+  b.table([...LIMITS_HEADERS], limitRows(method));
   b.blank();
 
   // In-house limits: where the method judges recovery by the QC history's limits, the
@@ -253,7 +257,7 @@ export function planMethodSheet(result: RecalcResult, options: { formulaForms?: 
   if (method.qc.limitsSource === 'in_house') {
     b.title(IN_HOUSE_TITLE, 'section');
     b.table(
-      ['analyte', 'control type', 'qc level', 'recovery low %', 'recovery high %', 'points'],
+      [...IN_HOUSE_HEADERS],
       inHouseRows(result),
     );
     b.blank();
@@ -368,4 +372,67 @@ export function rowFactor(result: RecalcResult, field: CanonicalField, row: numb
   if (src.factor !== undefined) return src.factor;
   // Through the analyte's molar mass: the factor the columns stage used for this row's analyte.
   return result.table.molarFactors.get(field)?.get(result.table.analyteIndex[row]!);
+}
+
+// ---- read back (verify): each table as this module laid it out --------------------------------
+
+/** The method text as the Method sheet holds it, one line a row under its title, joined by the recorded line ends. */
+export function readMethodText(sheet: SheetRows): { text: string; firstRow: number } {
+  const title = titleRow(sheet, METHOD_TEXT_TITLE);
+  let ends = '\n';
+  for (let r = 1; r <= sheet.lastRow; r++) {
+    const cells = sheet.row(r);
+    if (cells.get(1)?.value === LINE_ENDS_KEY) ends = lineEndOf(String(cells.get(2)?.value ?? ''));
+  }
+  const lines: string[] = [];
+  const firstRow = title + 2;
+  if (title > 0) {
+    for (let r = firstRow; r <= sheet.lastRow; r++) {
+      const cells = sheet.row(r);
+      if (typeof cells.get(1)?.value !== 'number') break;
+      const v = cells.get(2)?.value;
+      lines.push(v === null || v === undefined ? '' : String(v));
+    }
+  }
+  return { text: lines.join(ends), firstRow };
+}
+
+/** The in-house limits the run applied, as the sheet recorded them (undefined when it records none). */
+export function readInHouseLimits(sheet: SheetRows): InHouseLimits | undefined {
+  const rows = tableRows(sheet, IN_HOUSE_TITLE, IN_HOUSE_HEADERS.length);
+  if (!rows) return undefined;
+  const out = new Map<string, { low: number; high: number; n: number }>();
+  for (const [analyte, type, level, low, high, n] of rows) {
+    if (typeof low !== 'number' || typeof high !== 'number') continue;
+    out.set(inHouseKey(String(analyte ?? ''), String(type ?? ''), String(level ?? '')), { low, high, n: typeof n === 'number' ? n : 0 });
+  }
+  return out;
+}
+
+/** The acceptance limits table and the in-house limits table as stored, for the integrity digest. */
+export function readLimitRows(sheet: SheetRows): CellValue[][] {
+  return [...(tableRows(sheet, LIMITS_TITLE, LIMITS_HEADERS.length) ?? []), ...(tableRows(sheet, IN_HOUSE_TITLE, IN_HOUSE_HEADERS.length) ?? [])];
+}
+
+/** The recoveries a U from the history was derived from, with the history's name and end (undefined when none are listed). */
+export function readUncertaintyPoints(sheet: SheetRows): { file: string; until: string; points: Array<UncertaintyPoint & { analyte: string }> } | undefined {
+  const title = titleRow(sheet, UNCERTAINTY_POINTS_TITLE);
+  if (title === 0) return undefined;
+  const text = (v: unknown) => (v === null || v === undefined ? '' : String(v));
+  // The title, the history's name, its end, then the table's header: the points start four rows down.
+  const rows = tableRows(sheet, UNCERTAINTY_POINTS_TITLE, UNCERTAINTY_POINT_HEADERS.length, { headerOffset: 4 }) ?? [];
+  return {
+    file: text(sheet.row(title + 1).get(2)?.value),
+    until: text(sheet.row(title + 2).get(2)?.value),
+    points: rows.map(([analyte, sampleType, qcLevel, recovery, runTime, worklistName, batchId, sampleId]) => ({
+      analyte: text(analyte),
+      sampleType: text(sampleType),
+      qcLevel: text(qcLevel),
+      recoveryPct: typeof recovery === 'number' ? recovery : NaN,
+      runTime: text(runTime),
+      worklistName: text(worklistName),
+      batchId: text(batchId),
+      sampleId: text(sampleId),
+    })),
+  };
 }

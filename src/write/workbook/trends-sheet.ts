@@ -19,10 +19,10 @@
 import { groupBy } from '../../group.js';
 import { basename } from 'node:path';
 import type { RecalcResult } from '../../pipeline.js';
-import type { TrendSeries } from '../../history/trends.js';
+import { buildTrends, type TrendRow, type TrendSeries } from '../../history/trends.js';
 import { WESTGARD_RULE_WORDS, type WestgardViolation } from '../../history/westgard.js';
 import { SheetBuilder } from './builder.js';
-import { cell, columnLetter, type CellValue, type PlannedCell, type SheetPlan } from './cells.js';
+import { cell, columnLetter, type CellValue, type PlannedCell, type SheetPlan, type SheetRows } from './cells.js';
 
 export const TRENDS_SHEET = 'Trends';
 
@@ -210,3 +210,77 @@ function ruleCounts(violations: readonly WestgardViolation[]): string {
 function finish(b: SheetBuilder): SheetPlan {
   return b.plan(TRENDS_SHEET, { widths: [20, 12, 8, 20, 28, 22, 18, 14, 20, 12, 24, 28, 24] });
 }
+
+// ---- read back (verify): the history as this sheet holds it ----------------------------------
+// The history's name, the points a series needs for limits, and every point, rebuilt into series so
+// the sheet can be planned again and compared (its statistics, limits and rule violations must follow
+// from its own points).
+
+export interface StoredTrends {
+  history?: TrendsSheetInput;
+  minPoints: number;
+  /** The rows the integrity digest takes, as stored. */
+  digestRows: CellValue[][];
+}
+
+const POINT_VALUES = POINT_HEADERS.indexOf('recovery %') + 1;
+/** Where each field of a point is in a stored row (by the points table's header, as the sheet writes it). */
+const at = (header: (typeof POINT_HEADERS)[number]): number => POINT_HEADERS.indexOf(header);
+const FIELD = {
+  analyte: at('analyte'),
+  sampleType: at('sample type'),
+  qcLevel: at('qc level'),
+  runId: at('run'),
+  runTime: at('run time'),
+  worklistName: at('worklist'),
+  worklistSha256: at('worklist SHA-256'),
+  batchId: at('batch'),
+  sampleId: at('sample_id'),
+  rowNumber: at('worklist row'),
+  recoveryPct: at('recovery %'),
+};
+
+export function readTrendsSheet(sheet: SheetRows, options: { defaultMinPoints: number }): StoredTrends {
+  let name: CellValue = null;
+  let minPoints: CellValue = null;
+  let pointsTitle = 0;
+  for (let r = 1; r <= sheet.lastRow; r++) {
+    const a = sheet.row(r).get(1)?.value;
+    if (a === TRENDS_KEYS.history && name === null) name = sheet.row(r).get(2)?.value ?? null;
+    else if (a === TRENDS_KEYS.minPoints && minPoints === null) minPoints = sheet.row(r).get(2)?.value ?? null;
+    else if (a === POINTS_TITLE) pointsTitle = r;
+  }
+  const digestRows: CellValue[][] = [
+    [TRENDS_KEYS.history, name],
+    [TRENDS_KEYS.minPoints, minPoints],
+  ];
+  const min = typeof minPoints === 'number' && Number.isFinite(minPoints) ? minPoints : options.defaultMinPoints;
+  if (name === null || name === NO_HISTORY) return { minPoints: min, digestRows };
+
+  const rows: TrendRow[] = [];
+  if (pointsTitle > 0) {
+    for (let r = pointsTitle + 2; r <= sheet.lastRow; r++) {
+      const cells = sheet.row(r);
+      if (cells.size === 0) break;
+      const v = Array.from({ length: POINT_VALUES }, (_, i) => cells.get(i + 1)?.value ?? null);
+      digestRows.push(v);
+      rows.push({
+        analyte: text(v[FIELD.analyte]!),
+        sampleType: text(v[FIELD.sampleType]!),
+        qcLevel: text(v[FIELD.qcLevel]!),
+        runId: number(v[FIELD.runId]!),
+        runTime: text(v[FIELD.runTime]!),
+        worklistName: text(v[FIELD.worklistName]!),
+        worklistSha256: text(v[FIELD.worklistSha256]!),
+        batchId: text(v[FIELD.batchId]!),
+        sampleId: text(v[FIELD.sampleId]!),
+        rowNumber: number(v[FIELD.rowNumber]!),
+        recoveryPct: number(v[FIELD.recoveryPct]!),
+      });
+    }
+  }
+  return { history: { file: String(name), series: buildTrends(rows, { minPoints: min }) }, minPoints: min, digestRows };
+}
+
+const text = (v: CellValue): string => (v === null ? '' : String(v));
+const number = (v: CellValue): number => (typeof v === 'number' ? v : Number.NaN);
