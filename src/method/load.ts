@@ -208,10 +208,20 @@ export function parseMethod(text: string, options: { file: string }): Method {
     }
     if (seen.has(f.name)) throw new StopError('method', `formula column "${f.name}" is defined twice`, at(['formulas', i, 'name']));
     seen.add(f.name);
+    const unit = resolveFormulaUnit(f.unit, units);
+    // The result is compared with reporting limits, blank limits and spikes, and reported, in the
+    // concentration unit: a result column in another unit would be judged silently wrong.
+    if (f.name === 'pre_extraction_conc' && unit !== '' && normaliseUnitText(unit) !== normaliseUnitText(units.concentration)) {
+      throw new StopError(
+        'method',
+        `formula "pre_extraction_conc" is the result, which limits, spikes and reported results are in: expected its unit to be the concentration unit (${units.concentration}) or "concentration", got "${f.unit}"`,
+        at(['formulas', i, 'unit']),
+      );
+    }
     return {
       name: f.name,
       expr: f.expr,
-      unit: resolveFormulaUnit(f.unit, units),
+      unit,
       description: f.description,
       line: lineOf(doc, lineCounter, ['formulas', i, 'expr']),
     };

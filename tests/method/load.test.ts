@@ -124,3 +124,24 @@ describe('type codes with a level (issue 13)', () => {
     );
   });
 });
+
+describe('the result column and its unit', () => {
+  // Reporting limits, blank limits, spikes and reported results are all in the concentration unit.
+  const method = (unit: string) =>
+    `name: x\nunits: { concentration: ug/L }\nformulas:\n  - name: pre_extraction_conc\n    unit: ${unit}\n    expr: extract_conc * final_volume / sample_volume\n`;
+  it.each(['concentration', 'ug/L', 'µg/L'])('takes pre_extraction_conc in %s', (unit) => {
+    expect(parseMethod(method(unit), { file: 'm.yaml' }).formulas[0]!.name).toBe('pre_extraction_conc');
+  });
+  it('refuses it in another unit, naming the line', () => {
+    let err: unknown;
+    try {
+      parseMethod(method('ng/L'), { file: 'm.yaml' });
+    } catch (e) {
+      err = e;
+    }
+    expect(err).toBeInstanceOf(StopError);
+    expect((err as StopError).describe()).toBe(
+      'm.yaml, line 5, key "formulas[0].unit": formula "pre_extraction_conc" is the result, which limits, spikes and reported results are in: expected its unit to be the concentration unit (ug/L) or "concentration", got "ng/L"',
+    );
+  });
+});
