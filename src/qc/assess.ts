@@ -42,13 +42,17 @@ export function assessQc(input: QcInput): QcResult {
   const n = ctx.rowCount;
   const flags: Flag[] = [];
   const add = (row: number, code: FlagCode, f: Finding) => flags.push(toFlag(ctx, row, code, f));
+  // What the OVER_RANGE rule found, by row: the reported result names the dilution from it.
+  const overRange = new Map<number, Finding>();
 
   for (let r = 0; r < n; r++) {
     // Calibrators are carried, never judged.
     if (input.rowError[r] || !ctx.type[r] || ctx.type[r] === 'calibrator') continue;
     for (const rule of ROW_RULES) {
       const found = rule.check(ctx, r);
-      if (found) add(r, rule.code, found);
+      if (!found) continue;
+      add(r, rule.code, found);
+      if (rule.code === 'OVER_RANGE') overRange.set(r, found);
     }
   }
   // A matrix spike or duplicate whose parent is not detected has no recovery or RPD to judge: never a silent
@@ -123,7 +127,7 @@ export function assessQc(input: QcInput): QcResult {
 
   const runRule = applyRunRule(ctx, (r) => status[r] === 'pass');
   flags.sort((a, b) => a.row - b.row);
-  return { flags, status, limits: ctx.limits, runRule, notes, reported: reportedResults(ctx) };
+  return { flags, status, limits: ctx.limits, runRule, notes, reported: reportedResults(ctx, overRange) };
 }
 
 /**

@@ -1,14 +1,14 @@
 import { Decimal } from 'decimal.js';
 import type { Rounding } from '../domain/method.js';
-import { fmt, type QcContext } from './context.js';
-import { ROW_RULES } from './row-rules.js';
+import { isBelow } from './compare.js';
+import { fmt, type Finding, type QcContext } from './context.js';
 
 /**
  * The result as a lab reports it (DESIGN.md §4, `reported_result`), one text per
  * row, in the method's concentration unit:
  * - a sample, duplicate or blank below its reporting limit, or not detected:
  *   `< RL` with the limit ("< 0.1"); not detected with no limit known: "not detected";
- * - any row whose extract is above the calibration range (the OVER_RANGE rule):
+ * - any row whose extract is above the calibration range (the OVER_RANGE rule's findings, given):
  *   the method's words ("> range") and the whole dilution that brings the extract
  *   into range ("> range (needs dilution ≥ 3)");
  * - otherwise the pre-extraction concentration rounded to the method's significant
@@ -19,7 +19,7 @@ import { ROW_RULES } from './row-rules.js';
  * Spiked controls (lcs, ms, qc, surrogates …) report their number even below the
  * RL: their recovery is what is judged (common practice).
  */
-export function reportedResults(ctx: QcContext): string[] {
+export function reportedResults(ctx: QcContext, overRange: ReadonlyMap<number, Finding>): string[] {
   const { significantFigures: sig, rounding, aboveRange, withUncertainty: plusMinus } = ctx.method.reporting;
   const expanded = plusMinus ? ctx.input.expandedUncertainty : undefined;
   const dilution = ctx.input.numbers.get('dilution');
@@ -27,7 +27,7 @@ export function reportedResults(ctx: QcContext): string[] {
   for (let r = 0; r < ctx.rowCount; r++) {
     const t = ctx.type[r];
     if (ctx.input.rowError[r] || !t || t === 'calibrator') continue;
-    const over = OVER_RANGE.check(ctx, r);
+    const over = overRange.get(r);
     if (over && typeof over.value === 'number' && typeof over.limit === 'number') {
       const d = dilution && Number.isFinite(dilution[r]!) ? dilution[r]! : 1;
       out[r] = `${aboveRange} (needs dilution ≥ ${dilutionToRange(d, over.value, over.limit)})`;
@@ -38,7 +38,8 @@ export function reportedResults(ctx: QcContext): string[] {
     const x = ctx.result[r]!;
     if (ctx.nondetect[r]) {
       out[r] = Number.isFinite(rl) ? `< ${fmt(rl)}` : 'not detected';
-    } else if (censored && Number.isFinite(rl) && Number.isFinite(x) && x < rl) {
+    } else if (censored && Number.isFinite(rl) && Number.isFinite(x) && isBelow(x, rl)) {
+      // Below the RL as every rule compares (qc/compare.ts): a result on the limit is reported, not censored.
       out[r] = `< ${fmt(rl)}`;
     } else if (Number.isFinite(x)) {
       const u = expanded ? expanded[r]! : NaN;
@@ -47,8 +48,6 @@ export function reportedResults(ctx: QcContext): string[] {
   }
   return out;
 }
-
-const OVER_RANGE = ROW_RULES.find((rule) => rule.code === 'OVER_RANGE')!;
 
 /**
  * The smallest whole dilution factor that brings an extract into range: the
@@ -97,8 +96,27 @@ function roundingMode(rounding: Rounding): Decimal.Rounding {
 export function roundToSignificant(x: number, sig: number, rounding: Rounding): string {
   if (!Number.isFinite(x)) return '';
   if (x === 0) return '0';
-  const mode = roundingMode(rounding);
-  const d = new Decimal(x.toPrecision(15)).toSignificantDigits(sig, mode);
+  const kept = x.toPrecision(15);
+  const v = Math.abs(x);
+  // Away from a decimal tie, rounding the double of the 15-digit value is rounding that value (a rounding
+  // boundary has at most 15 digits, so no double lies between it and the value): the engine's toPrecision
+  // does it, fast, once per row. At a tie the rule decides, exactly (decimal.js).
+  if (v >= 1e-6 && v < 1e15 && !isTie(kept, sig)) {
+    const rounded = Number(Number(kept).toPrecision(sig));
+    if (rounded === 0) return '0';
+    const exponent = Math.floor(Math.log10(Math.abs(rounded)) + 1e-9); // the power of ten of the first digit
+    // toFixed writes the digits of a double nearest a short decimal back exactly.
+    return rounded.toFixed(Math.max(0, sig - 1 - exponent));
+  }
+  const d = new Decimal(kept).toSignificantDigits(sig, roundingMode(rounding));
   const exponent = d.e; // the power of ten of the first significant digit
   return exponent >= sig - 1 ? d.toFixed(0) : d.toFixed(sig - 1 - exponent);
+}
+
+/** Whether the digits of a toPrecision text after the first `sig` are exactly a 5 followed by zeros. */
+function isTie(text: string, sig: number): boolean {
+  const mantissa = text.replace(/e.*$/, '').replace(/[-.]/g, '').replace(/^0+/, '');
+  if (mantissa.length <= sig || mantissa[sig] !== '5') return false;
+  for (let i = sig + 1; i < mantissa.length; i++) if (mantissa[i] !== '0') return false;
+  return true;
 }

@@ -1,6 +1,7 @@
 import { mkdtempSync, readFileSync, rmSync, writeFileSync } from 'node:fs';
 import { tmpdir } from 'node:os';
 import { join } from 'node:path';
+import { Decimal } from 'decimal.js';
 import fc from 'fast-check';
 import { afterAll, describe, expect, it } from 'vitest';
 import { recalculateData } from '../../src/index.js';
@@ -74,6 +75,35 @@ describe('withUncertainty: "x ± U"', () => {
   it('writes both numbers with a decimal comma in a CSV whose worklist used one', () => {
     const method = { reporting: { aboveRange: '> range' } } as Parameters<typeof reportedWithMark>[1];
     expect(reportedWithMark(['0.123 ± 0.015', '< 0.05', '> range (needs dilution ≥ 2.5)'], method, ',')).toEqual(['0,123 ± 0,015', '< 0,05', '> range (needs dilution ≥ 2.5)']);
+  });
+});
+
+describe('roundToSignificant against decimal.js', () => {
+  // The reference: decimal.js (a general-purpose arbitrary-precision library) rounding the 15-digit text,
+  // the whole text as a string, for any double and for decimal ties built on purpose.
+  const reference = (x: number, sig: number, rounding: 'half-even' | 'half-away-from-zero') => {
+    const d = new Decimal(x.toPrecision(15)).toSignificantDigits(sig, rounding === 'half-even' ? Decimal.ROUND_HALF_EVEN : Decimal.ROUND_HALF_UP);
+    return d.e >= sig - 1 ? d.toFixed(0) : d.toFixed(sig - 1 - d.e);
+  };
+  it('gives the same text for any double', () => {
+    fc.assert(
+      fc.property(fc.double({ min: -1e14, max: 1e14, noNaN: true }).filter((x) => x !== 0), fc.integer({ min: 1, max: 10 }), fc.boolean(), (x, sig, even) => {
+        const rule = even ? 'half-even' : 'half-away-from-zero';
+        expect(roundToSignificant(x, sig, rule)).toBe(reference(x, sig, rule));
+      }),
+      { numRuns: 3000 },
+    );
+  });
+  it('gives the same text at decimal ties', () => {
+    fc.assert(
+      fc.property(fc.integer({ min: 1, max: 99999 }), fc.integer({ min: -8, max: 8 }), fc.boolean(), (k, e, even) => {
+        const x = Number(`${k}5e${e}`); // digits k then a 5: a tie one figure after k's
+        const sig = String(k).length;
+        const rule = even ? 'half-even' : 'half-away-from-zero';
+        expect(roundToSignificant(x, sig, rule)).toBe(reference(x, sig, rule));
+      }),
+      { numRuns: 2000 },
+    );
   });
 });
 
