@@ -108,28 +108,24 @@ export function keyFingerprint(key: KeyObject): string {
 
 /** An Ed25519 private key from PEM text (PKCS#8, as `openssl genpkey -algorithm ed25519` writes it). */
 export function readPrivateKey(pem: string, file: string): KeyObject {
-  let key: KeyObject;
-  try {
-    key = createPrivateKey({ key: pem, format: 'pem' });
-  } catch (err) {
-    throw new StopError('usage', `is not a private key in PEM form (${(err as Error).message}); expected an Ed25519 key as "openssl genpkey -algorithm ed25519" writes it`, { file });
-  }
-  if (key.asymmetricKeyType !== 'ed25519') {
-    throw new StopError('usage', `holds a private key of type "${key.asymmetricKeyType}"; expected an Ed25519 key`, { file });
-  }
-  return key;
+  return readKey(pem, file, 'private');
 }
 
 /** An Ed25519 public key from PEM text (a public key, or the private key it belongs to). */
 export function readPublicKey(pem: string, file: string): KeyObject {
+  return readKey(pem, file, 'public');
+}
+
+function readKey(pem: string, file: string, kind: 'private' | 'public'): KeyObject {
   let key: KeyObject;
   try {
-    key = createPublicKey({ key: pem, format: 'pem' });
+    key = kind === 'private' ? createPrivateKey({ key: pem, format: 'pem' }) : createPublicKey({ key: pem, format: 'pem' });
   } catch (err) {
-    throw new StopError('usage', `is not a public key in PEM form (${(err as Error).message}); expected an Ed25519 key as "openssl pkey -pubout" writes it`, { file });
+    const writer = kind === 'private' ? 'openssl genpkey -algorithm ed25519' : 'openssl pkey -pubout';
+    throw new StopError('usage', `is not a ${kind} key in PEM form (${(err as Error).message}); expected an Ed25519 key as "${writer}" writes it`, { file });
   }
   if (key.asymmetricKeyType !== 'ed25519') {
-    throw new StopError('usage', `holds a public key of type "${key.asymmetricKeyType}"; expected an Ed25519 key`, { file });
+    throw new StopError('usage', `holds a ${kind} key of type "${key.asymmetricKeyType}"; expected an Ed25519 key`, { file });
   }
   return key;
 }

@@ -26,6 +26,7 @@ import Papa from 'papaparse';
 import { parse as parseYaml } from 'yaml';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { ROOT, runCli, tempDir } from '../helpers/cli.js';
+import { T_099, mean, rms, sd } from '../helpers/reference-stats.js';
 
 let root: string;
 let history: string;
@@ -43,14 +44,8 @@ beforeAll(() => {
 }, 300_000);
 afterAll(() => rmSync(root, { recursive: true, force: true }));
 
-// Independent arithmetic.
-const mean = (xs: number[]) => xs.reduce((a, b) => a + b, 0) / xs.length;
-const sd = (xs: number[]) => {
-  const m = mean(xs);
-  return Math.sqrt(xs.reduce((a, x) => a + (x - m) ** 2, 0) / (xs.length - 1));
-};
-const rms = (xs: number[]) => Math.sqrt(xs.reduce((a, x) => a + (x - 100) ** 2, 0) / xs.length);
-const T_TABLE: Record<number, number> = { 14: 2.624, 29: 2.462 };
+// Independent arithmetic: tests/helpers/reference-stats.ts.
+const T_TABLE = T_099;
 const nearRel = (actual: unknown, expected: number, rel: number) => {
   expect(typeof actual).toBe('number');
   expect(Math.abs((actual as number) - expected)).toBeLessThanOrEqual(rel * Math.abs(expected));

@@ -13,6 +13,7 @@ import { join, resolve } from 'node:path';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import ExcelJS from 'exceljs';
 import { runCli, tempDir } from '../helpers/cli.js';
+import { T_099, mean, rms, sd } from '../helpers/reference-stats.js';
 import { mulberry32 } from '../../samples/seeded-random.mjs';
 
 let root: string;
@@ -90,15 +91,8 @@ beforeAll(() => {
 }, 300_000);
 afterAll(() => rmSync(root, { recursive: true, force: true }));
 
-// Independent arithmetic (not the code under test): mean, s (n − 1), RMS of the biases.
-const mean = (xs: number[]) => xs.reduce((a, b) => a + b, 0) / xs.length;
-const sd = (xs: number[]) => {
-  const m = mean(xs);
-  return Math.sqrt(xs.reduce((a, x) => a + (x - m) ** 2, 0) / (xs.length - 1));
-};
-const rms = (xs: number[]) => Math.sqrt(xs.reduce((a, x) => a + (x - 100) ** 2, 0) / xs.length);
-/** Student t table, one-sided 0.99, 29 degrees of freedom: 2.462 (from memory; REFERENCES.md §8 lists its neighbours). */
-const T_29 = 2.462;
+// Independent arithmetic (not the code under test): tests/helpers/reference-stats.ts.
+const T_29 = T_099[29]!;
 
 function figures(args: string[] = []) {
   const r = runCli(['figures', '--history', history, '--until', '2026-12-31', ...args]);
