@@ -12,6 +12,7 @@ import { buildTable, type WorkTable } from './columns/table.js';
 import { findLinks, type Links } from './engine/links.js';
 import { compileMethod, evaluateFormulas } from './engine/evaluate.js';
 import { parseNumberCell } from './columns/numbers.js';
+import { isCanonicalField } from './domain/fields.js';
 import { FLAG_CODES, type Flag, type ResultFlag, type ResultNote, type SpreadsheetRow } from './issues.js';
 import { loadMethod } from './method/load.js';
 import type { OnProgress } from './progress.js';
@@ -169,6 +170,7 @@ export function recalculateTable(
     nondetectLimit: table.nondetectLimit,
     inHouse: ctx.inHouse,
     expandedUncertainty: uncertainty?.expanded,
+    headerOf: (field) => (isCanonicalField(field) ? columnMap.fields.get(field)?.header : undefined),
   });
   stageDone(4);
   const flags = atSpreadsheetRows([...table.errors, ...qc.flags].sort((a, b) => a.row - b.row), raw.rowNumbers);

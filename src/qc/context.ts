@@ -25,6 +25,8 @@ export interface QcInput {
   nondetectLimit?: Float64Array;
   /** In-house limits from the QC history, used when the method asks for them. */
   inHouse?: InHouseLimits;
+  /** The worklist's header of a canonical input field, for messages (a finding on "istd_response" names "IS Area"). */
+  headerOf?: (field: string) => string | undefined;
   /** The absolute expanded uncertainty of each sample result (qc/uncertainty.ts; NaN where none), for "x ± U". */
   expandedUncertainty?: Float64Array;
 }
@@ -147,7 +149,8 @@ export function toFlag(ctx: QcContext, row: number, code: FlagCode, f: Finding):
     row,
     code,
     column: f.column,
-    message: rowMessage(ctx.input.rowNumbers[row]!, f.column, f.text),
+    // The message names the column as the worklist does; `column` stays the canonical name that marks the cell.
+    message: rowMessage(ctx.input.rowNumbers[row]!, f.column === undefined ? undefined : (ctx.input.headerOf?.(f.column) ?? f.column), f.text),
     value: f.value,
     limit: f.limit,
   };
