@@ -113,10 +113,13 @@ export function roundToSignificant(x: number, sig: number, rounding: Rounding): 
   return exponent >= sig - 1 ? d.toFixed(0) : d.toFixed(sig - 1 - exponent);
 }
 
-/** Whether the digits of a toPrecision text after the first `sig` are exactly a 5 followed by zeros. */
-function isTie(text: string, sig: number): boolean {
-  const mantissa = text.replace(/e.*$/, '').replace(/[-.]/g, '').replace(/^0+/, '');
-  if (mantissa.length <= sig || mantissa[sig] !== '5') return false;
-  for (let i = sig + 1; i < mantissa.length; i++) if (mantissa[i] !== '0') return false;
-  return true;
+/**
+ * Whether a 15-digit value is exactly halfway at `sig` figures: it has sig + 1 figures, the last a 5.
+ * (Decimals of at most 15 figures have doubles of their own, so equal doubles mean equal decimals.)
+ */
+function isTie(kept: string, sig: number): boolean {
+  const v = Number(kept);
+  const longer = v.toPrecision(sig + 1);
+  const e = longer.indexOf('e');
+  return longer.charCodeAt((e < 0 ? longer.length : e) - 1) === 53 /* "5" */ && Number(longer) === v;
 }
