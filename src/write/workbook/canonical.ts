@@ -27,7 +27,19 @@ export const SPREADSHEET_DIGITS = 15;
 export function canonicalNumber(x: number): number {
   if (Number.isInteger(x) && x < 1e15 && x > -1e15) return x === 0 ? 0 : x; // the common case, exact already
   if (!Number.isFinite(x)) return x;
-  if (String(x).length <= SPREADSHEET_DIGITS) return x; // at most 15 characters: at most 15 digits (lab values mostly)
+  const shortest = String(x);
+  if (shortest.length <= SPREADSHEET_DIGITS) return x; // at most 15 characters: at most 15 digits (lab values mostly)
+  if (!Number.isInteger(x)) {
+    // Rounding the exact double to 15 digits (toPrecision) is rounding its shortest digits, except when those
+    // are exactly 16 ending in 5 (a decimal tie, which the spreadsheet takes away from zero): no other
+    // 16- or 17-digit decimal that reads back as x lies across a 15-digit boundary from them.
+    const { count, last } = significantDigits(shortest);
+    if (count <= SPREADSHEET_DIGITS) return x;
+    if (!(count === SPREADSHEET_DIGITS + 1 && last === 53)) {
+      const n = Number(x.toPrecision(SPREADSHEET_DIGITS));
+      return n === 0 ? 0 : n;
+    }
+  }
   const text = x.toExponential(); // shortest round-trip digits: "-8.918202590278685e+1"
   const e = text.indexOf('e');
   const negative = text.startsWith('-');
@@ -38,6 +50,21 @@ export function canonicalNumber(x: number): number {
   const exponent = Number(text.slice(e + 1)) - (SPREADSHEET_DIGITS - 1);
   const n = Number(`${negative ? '-' : ''}${kept}e${exponent}`);
   return n === 0 ? 0 : n;
+}
+
+/** How many significant digits a number's text has (leading zeros, sign, point and exponent left out), and the last one's char code. */
+function significantDigits(text: string): { count: number; last: number } {
+  let end = text.indexOf('e');
+  if (end < 0) end = text.length;
+  let count = 0;
+  let last = 0;
+  for (let i = 0; i < end; i++) {
+    const c = text.charCodeAt(i);
+    if (c < 48 || c > 57 || (count === 0 && c === 48)) continue;
+    count++;
+    last = c;
+  }
+  return { count, last };
 }
 
 /** Empty (undefined, null, "") as null; a number to 15 significant digits; text as it is. */

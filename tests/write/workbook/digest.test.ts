@@ -4,7 +4,9 @@
  * digest's description lists, worked here independently of canonical.ts.
  */
 import { createHash } from 'node:crypto';
+import fc from 'fast-check';
 import { describe, expect, it } from 'vitest';
+import { canonicalNumber } from '../../../src/write/workbook/canonical.js';
 import type { CellValue } from '../../../src/write/workbook/cells.js';
 import { ColumnChecks, DIGEST_HEADER, IntegrityDigest, parseColumnChecks } from '../../../src/write/workbook/digest.js';
 
@@ -59,6 +61,22 @@ describe('digest 3 (workbook format 4) and the column checks', () => {
     [-1.0000000000000002e-7, -1e-7],
   ])('reference15(%s) is %s (checked by hand against the shortest text)', (x, want) => {
     expect(reference15(x)).toBe(want);
+  });
+
+  it('canonicalNumber agrees with it for any double and at 16-digit ties (its fast path included)', () => {
+    fc.assert(
+      fc.property(fc.double({ noNaN: true, noDefaultInfinity: true }), (x) => {
+        expect(Object.is(canonicalNumber(x), reference15(x) === 0 ? 0 : reference15(x))).toBe(true);
+      }),
+      { numRuns: 5000 },
+    );
+    fc.assert(
+      fc.property(fc.bigInt({ min: 10n ** 14n, max: 10n ** 15n - 1n }), fc.integer({ min: -20, max: 5 }), fc.boolean(), (k, e, minus) => {
+        const x = Number(`${minus ? '-' : ''}${k}5e${e}`); // 16 digits ending in 5: the tie
+        expect(canonicalNumber(x)).toBe(reference15(x));
+      }),
+      { numRuns: 3000 },
+    );
   });
 
   it('hashes the described lines: numbers to 15 significant digits, formula cells as {"f":1}; input columns checked one by one', () => {
